@@ -1,0 +1,3 @@
+from fabric2seis.cli import main
+
+raise SystemExit(main())

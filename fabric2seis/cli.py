@@ -1,0 +1,88 @@
+"""Command-line shell: parse arguments, call the library, turn bad input into exit status 2.
+
+No science lives here. Every command body is a few lines calling fabric2seis functions.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+import numpy as np
+
+from fabric2seis import __version__
+from fabric2seis.errors import InputError
+
+
+def _minerals(args: argparse.Namespace) -> int:
+    from fabric2seis.minerals import find_mineral, load_library
+
+    library = load_library(args.library_dir or ())
+    if args.name is None:
+        print(f"{'name':<12} {'point group':<11} {'density':>12}  {'checked':<8} source")
+        for m in library.values():
+            checked = "yes" if not m.from_memory else "partly"
+            print(f"{m.name:<12} {m.point_group:<11} {m.density_kg_m3:>7.0f} kg/m3  {checked:<8} "
+                  f"{m.source.split(';')[0]}")
+        print("\n'checked: partly' means some fields were recalled without the source at hand; "
+              "'fabric2seis minerals NAME' lists which.")
+        return 0
+    print(describe_mineral(find_mineral(args.name, library)))
+    return 0
+
+
+def describe_mineral(m) -> str:
+    """A full, human-readable account of one library entry."""
+    def table(a: np.ndarray, fmt: str = "8.2f") -> str:
+        return "\n".join("    " + " ".join(f"{v:{fmt}}" for v in row) for row in a)
+
+    lat = m.lattice
+    lines = [
+        f"{m.name}  (aliases: {', '.join(m.aliases) or 'none'})",
+        f"  point group     {m.point_group}" + (f", {m.unique_axis} unique" if m.unique_axis else ""),
+        f"  density         {m.density_kg_m3:.1f} kg/m^3",
+        f"  lattice         a {lat['a']} b {lat['b']} c {lat['c']} angstrom, "
+        f"alpha {lat['alpha']} beta {lat['beta']} gamma {lat['gamma']} degrees",
+        f"  source          {m.source}",
+        f"  from memory     {', '.join(m.from_memory) or 'nothing (all read in the source)'}",
+        f"  published axes  " + ", ".join(f"{k.upper()} || {v}" for k, v in sorted(m.published_axes.items())),
+        "  Cij as published (GPa, Voigt order 11 22 33 23 13 12):",
+        table(m.cij_published_gpa),
+        "  Cij in orix's crystal frame, e1 || a, e3 || c* (GPa):",
+        table(m.stiffness_gpa),
+    ]
+    if m.dcij_dp is not None:
+        lines += [f"  dCij/dP (dimensionless), {m.pressure_source}:", table(m.dcij_dp)]
+    if m.dcij_dt_gpa_per_k is not None:
+        lines += [f"  dCij/dT (GPa/K), {m.temperature_source}:", table(m.dcij_dt_gpa_per_k, "8.4f")]
+    if m.derivatives_from_memory:
+        lines.append(f"  derivatives from memory: {', '.join(m.derivatives_from_memory)}")
+    if m.notes:
+        lines.append(f"  notes           {m.notes}")
+    lines.append(f"  file            {m.file}")
+    return "\n".join(lines)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="fabric2seis",
+        description="From EBSD crystal orientations to seismic anisotropy and shear-wave splitting.")
+    parser.add_argument("--version", action="version", version=f"fabric2seis {__version__}")
+    commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    p = commands.add_parser("minerals", help="list the mineral library or show one entry in full")
+    p.add_argument("name", nargs="?", help="mineral name or alias (case-insensitive)")
+    p.add_argument("--library-dir", action="append", metavar="DIR",
+                   help="also read the mineral files (*.yaml) in DIR; may be repeated")
+    p.set_defaults(run=_minerals)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return args.run(args)
+    except InputError as exc:
+        print(f"fabric2seis {args.command}: error: {exc.one_line()}", file=sys.stderr)
+        return 2

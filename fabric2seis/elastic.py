@@ -1,0 +1,280 @@
+"""Elastic tensor algebra, rotation by crystal orientations, and aggregate averages.
+
+Conventions (see ``../shared/guide/CONVENTIONS.md``):
+
+* Voigt notation, index order 11, 22, 33, 23, 13, 12; stiffness in GPa. The inverse of a
+  6x6 Voigt stiffness is the Voigt compliance (factors 2 and 4 included).
+* Kelvin (Mandel) form multiplies shear rows and columns by sqrt(2); in it a rotation is an
+  orthogonal 6x6 matrix and the stiffness and compliance are plain matrix inverses.
+* Orientations are Bunge's passive matrices ``g`` (``v_crystal = g @ v_sample``), as returned by
+  ``orix.quaternion.Orientation.to_matrix()``. A crystal tensor expressed in the sample frame is
+  therefore rotated by ``R = g.T``.
+
+Everything is vectorised over N orientations. Rotation is done with 6x6 Kelvin rotation
+matrices (Mehrabadi & Cowin 1990), which is exact and several times cheaper than contracting
+full 3x3x3x3 tensors; ``benchmarks/rotation_and_averaging.py`` measures by how much.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from fabric2seis.errors import InputError
+
+#: Voigt index -> pair of tensor indices, in the order 11, 22, 33, 23, 13, 12.
+VOIGT_PAIRS = ((0, 0), (1, 1), (2, 2), (1, 2), (0, 2), (0, 1))
+_I = np.array([p[0] for p in VOIGT_PAIRS])
+_J = np.array([p[1] for p in VOIGT_PAIRS])
+#: tensor index pair -> Voigt index
+_VOIGT_OF = np.array([[0, 5, 4], [5, 1, 3], [4, 3, 2]])
+_KELVIN_SCALE = np.array([1.0, 1.0, 1.0, np.sqrt(2.0), np.sqrt(2.0), np.sqrt(2.0)])
+_KELVIN_OUTER = np.outer(_KELVIN_SCALE, _KELVIN_SCALE)
+
+AVERAGES = ("voigt", "reuss", "hill", "geometric")
+
+
+# --- notation ---------------------------------------------------------------------------------
+
+
+def voigt_to_tensor(c: np.ndarray) -> np.ndarray:
+    """6x6 Voigt stiffness (..., 6, 6) -> full tensor (..., 3, 3, 3, 3)."""
+    c = np.asarray(c, dtype=float)
+    return c[..., _VOIGT_OF[:, :, None, None], _VOIGT_OF[None, None, :, :]]
+
+
+def tensor_to_voigt(t: np.ndarray) -> np.ndarray:
+    """Full stiffness tensor (..., 3, 3, 3, 3) -> 6x6 Voigt matrix (..., 6, 6)."""
+    t = np.asarray(t, dtype=float)
+    return t[..., _I[:, None], _J[:, None], _I[None, :], _J[None, :]]
+
+
+def voigt_to_kelvin(c: np.ndarray, kind: str = "stiffness") -> np.ndarray:
+    """Voigt stiffness or compliance (..., 6, 6) -> Kelvin (Mandel) form.
+
+    A Voigt compliance carries factors 2 and 4 on its shear terms; its Kelvin form divides
+    them out again, so that the Kelvin compliance is the inverse of the Kelvin stiffness.
+    """
+    c = np.asarray(c, dtype=float)
+    if kind == "stiffness":
+        return c * _KELVIN_OUTER
+    if kind == "compliance":
+        return c / _KELVIN_OUTER
+    raise ValueError(f"kind must be 'stiffness' or 'compliance', not {kind!r}")
+
+
+def kelvin_to_voigt(k: np.ndarray, kind: str = "stiffness") -> np.ndarray:
+    """Inverse of :func:`voigt_to_kelvin`."""
+    k = np.asarray(k, dtype=float)
+    if kind == "stiffness":
+        return k / _KELVIN_OUTER
+    if kind == "compliance":
+        return k * _KELVIN_OUTER
+    raise ValueError(f"kind must be 'stiffness' or 'compliance', not {kind!r}")
+
+
+def compliance(c: np.ndarray) -> np.ndarray:
+    """Voigt compliance (1/GPa) of a Voigt stiffness (GPa): the plain 6x6 inverse."""
+    return np.linalg.inv(np.asarray(c, dtype=float))
+
+
+# --- checks -----------------------------------------------------------------------------------
+
+
+def check_stiffness(c: np.ndarray, source: str | None = None, where: str | None = None,
+                    rtol: float = 1e-8) -> np.ndarray:
+    """Return ``c`` as a float 6x6 array after checking it is a valid stiffness.
+
+    Raises :class:`InputError` unless ``c`` is 6x6, finite, symmetric (to ``rtol`` of its
+    largest entry) and positive definite (strain energy positive for every strain).
+    """
+    c = np.asarray(c, dtype=float)
+    if c.shape != (6, 6):
+        raise InputError(f"a stiffness must be a 6x6 matrix, got shape {c.shape}", source, where)
+    if not np.all(np.isfinite(c)):
+        raise InputError("the stiffness has non-finite entries", source, where)
+    scale = np.max(np.abs(c))
+    bad = np.argwhere(np.abs(c - c.T) > rtol * max(scale, 1e-300))
+    if len(bad):
+        i, j = bad[0]
+        raise InputError(
+            f"the stiffness is not symmetric: c{i + 1}{j + 1} = {c[i, j]:g} but "
+            f"c{j + 1}{i + 1} = {c[j, i]:g}", source, where)
+    smallest = np.linalg.eigvalsh(voigt_to_kelvin(c)).min()
+    if smallest <= 1e-9 * scale:
+        raise InputError(
+            f"the stiffness is not positive definite (smallest Kelvin eigenvalue "
+            f"{smallest:.4g} GPa): some strain would store negative energy", source, where)
+    return c
+
+
+# --- rotation ---------------------------------------------------------------------------------
+
+
+def kelvin_rotation(r: np.ndarray) -> np.ndarray:
+    """6x6 Kelvin rotation matrices (..., 6, 6) of 3x3 rotations ``r`` (..., 3, 3).
+
+    For a tensor rotated as ``T'_ijkl = r_ia r_jb r_kc r_ld T_abcd`` the Kelvin form rotates as
+    ``K' = Q K Q^T`` with ``Q`` orthogonal (Mehrabadi & Cowin 1990):
+    ``Q_ab = s_a s_b / 2 (r_ik r_jl + r_il r_jk)`` for Voigt pairs a = (i, j), b = (k, l) and
+    ``s = 1`` on normal, ``sqrt(2)`` on shear indices.
+    """
+    r = np.asarray(r, dtype=float)
+    i, j = _I[:, None], _J[:, None]
+    k, l = _I[None, :], _J[None, :]
+    q = r[..., i, k] * r[..., j, l] + r[..., i, l] * r[..., j, k]
+    return q * (_KELVIN_OUTER / 2.0)
+
+
+def rotate_voigt(c: np.ndarray, r: np.ndarray) -> np.ndarray:
+    """Rotate Voigt stiffness ``c`` (6, 6) by rotations ``r`` (..., 3, 3): ``r`` maps old axes to new."""
+    q = kelvin_rotation(r)
+    return kelvin_to_voigt(q @ voigt_to_kelvin(c) @ np.swapaxes(q, -1, -2))
+
+
+def crystal_to_sample(c_crystal: np.ndarray, g: np.ndarray) -> np.ndarray:
+    """Crystal-frame Voigt stiffness -> sample-frame stiffnesses (N, 6, 6) for Bunge matrices ``g``."""
+    return rotate_voigt(c_crystal, np.swapaxes(np.asarray(g, dtype=float), -1, -2))
+
+
+# --- matrix functions of symmetric positive-definite matrices ------------------------------
+
+
+def logm_spd(a: np.ndarray) -> np.ndarray:
+    """Matrix logarithm of symmetric positive-definite matrices (..., n, n)."""
+    w, v = np.linalg.eigh(a)
+    return (v * np.log(w)[..., None, :]) @ np.swapaxes(v, -1, -2)
+
+
+def expm_sym(a: np.ndarray) -> np.ndarray:
+    """Matrix exponential of symmetric matrices (..., n, n)."""
+    w, v = np.linalg.eigh(a)
+    return (v * np.exp(w)[..., None, :]) @ np.swapaxes(v, -1, -2)
+
+
+# --- averaging --------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class PhaseOrientations:
+    """One phase of an aggregate: its crystal stiffness and the orientations it occurs in.
+
+    Attributes
+    ----------
+    stiffness_gpa
+        6x6 Voigt stiffness in the crystal Cartesian frame orix uses for the phase.
+    g
+        Bunge orientation matrices (N, 3, 3), ``v_crystal = g @ v_sample``.
+    weights
+        Non-negative weight of each orientation (area, volume, or 1 per grain), shape (N,).
+    fraction
+        Volume fraction of the phase in the rock.
+    """
+
+    stiffness_gpa: np.ndarray
+    g: np.ndarray
+    weights: np.ndarray
+    fraction: float = 1.0
+
+
+def weighted_rotated_mean(x_kelvin: np.ndarray, g: np.ndarray, weights: np.ndarray,
+                          chunk: int = 65536) -> np.ndarray:
+    """Weighted mean over orientations of a crystal-frame Kelvin matrix rotated into the sample frame.
+
+    Returns ``sum_n w_n Q_n X Q_n^T / sum_n w_n`` (6, 6), with ``Q_n`` the Kelvin rotation of
+    ``g_n.T``. The sum is linear in ``X``, so the same kernel serves the Voigt (stiffness),
+    Reuss (compliance) and geometric (matrix logarithm) averages. Work is done in chunks so
+    that memory stays bounded for millions of orientations.
+    """
+    g = np.asarray(g, dtype=float).reshape(-1, 3, 3)
+    w = np.asarray(weights, dtype=float).reshape(-1)
+    if len(w) != len(g):
+        raise ValueError(f"{len(g)} orientations but {len(w)} weights")
+    total = w.sum()
+    if not total > 0:
+        raise ValueError("weights must have a positive sum")
+    acc = np.zeros((6, 6))
+    for start in range(0, len(g), chunk):
+        q = kelvin_rotation(np.swapaxes(g[start:start + chunk], -1, -2))
+        a = (q.reshape(-1, 6) @ x_kelvin).reshape(q.shape)  # Q X
+        a *= w[start:start + chunk, None, None]
+        # sum_n (w Q X)_n Q_n^T as one matrix product over the stacked (n, k) index
+        acc += np.tensordot(a, q, axes=([0, 2], [0, 2]))
+    acc /= total
+    return (acc + acc.T) / 2.0
+
+
+def average_tensors(phases: Sequence[PhaseOrientations]) -> dict[str, np.ndarray]:
+    """The four averages of an aggregate of one or more phases, as 6x6 Voigt stiffnesses in GPa.
+
+    * ``voigt``: volume-weighted mean stiffness (Voigt 1928);
+    * ``reuss``: inverse of the volume-weighted mean compliance (Reuss 1929);
+    * ``hill``: arithmetic mean of the Voigt and Reuss tensors (Hill 1952);
+    * ``geometric``: exponential of the weighted mean matrix logarithm of the Kelvin stiffness
+      (Matthies & Humbert 1993); it is the inverse of the same mean taken over compliances.
+
+    Orientations within a phase are weighted by ``weights``; phases by ``fraction``
+    (renormalised to sum to 1).
+    """
+    if not phases:
+        raise ValueError("an aggregate needs at least one phase")
+    fractions = np.array([p.fraction for p in phases], dtype=float)
+    if np.any(fractions < 0) or not fractions.sum() > 0:
+        raise ValueError(f"phase fractions must be non-negative with a positive sum: {fractions}")
+    fractions = fractions / fractions.sum()
+    stiff = np.zeros((6, 6))
+    comp = np.zeros((6, 6))
+    logs = np.zeros((6, 6))
+    for f, p in zip(fractions, phases):
+        if f == 0:
+            continue
+        ck = voigt_to_kelvin(p.stiffness_gpa)
+        stiff += f * weighted_rotated_mean(ck, p.g, p.weights)
+        comp += f * weighted_rotated_mean(np.linalg.inv(ck), p.g, p.weights)
+        logs += f * weighted_rotated_mean(logm_spd(ck), p.g, p.weights)
+    voigt = kelvin_to_voigt(stiff)
+    reuss = kelvin_to_voigt(np.linalg.inv(comp))
+    reuss = (reuss + reuss.T) / 2.0
+    geometric = kelvin_to_voigt(expm_sym(logs))
+    return {"voigt": voigt, "reuss": reuss, "hill": (voigt + reuss) / 2.0, "geometric": geometric}
+
+
+# --- isotropic moduli -------------------------------------------------------------------------
+
+
+def voigt_moduli(c: np.ndarray) -> tuple[float, float]:
+    """Voigt bound of the bulk and shear modulus (GPa) of a stiffness (Hill 1952)."""
+    c = np.asarray(c, dtype=float)
+    a = c[0, 0] + c[1, 1] + c[2, 2]
+    b = c[1, 2] + c[0, 2] + c[0, 1]
+    s = c[3, 3] + c[4, 4] + c[5, 5]
+    return (a + 2 * b) / 9.0, (a - b + 3 * s) / 15.0
+
+
+def reuss_moduli(c: np.ndarray) -> tuple[float, float]:
+    """Reuss bound of the bulk and shear modulus (GPa) of a stiffness (Hill 1952)."""
+    s = compliance(c)
+    a = s[0, 0] + s[1, 1] + s[2, 2]
+    b = s[1, 2] + s[0, 2] + s[0, 1]
+    t = s[3, 3] + s[4, 4] + s[5, 5]
+    return 1.0 / (a + 2 * b), 15.0 / (4 * a - 4 * b + 3 * t)
+
+
+def hill_moduli(c: np.ndarray) -> tuple[float, float]:
+    """Voigt-Reuss-Hill bulk and shear modulus (GPa)."""
+    kv, gv = voigt_moduli(c)
+    kr, gr = reuss_moduli(c)
+    return (kv + kr) / 2.0, (gv + gr) / 2.0
+
+
+def isotropic_stiffness(bulk_gpa: float, shear_gpa: float) -> np.ndarray:
+    """6x6 Voigt stiffness of an isotropic solid with the given bulk and shear moduli."""
+    lam = bulk_gpa - 2.0 * shear_gpa / 3.0
+    c = np.zeros((6, 6))
+    c[:3, :3] = lam
+    c[[0, 1, 2], [0, 1, 2]] += 2.0 * shear_gpa
+    c[[3, 4, 5], [3, 4, 5]] = shear_gpa
+    return c
+

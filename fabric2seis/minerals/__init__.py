@@ -1,0 +1,270 @@
+"""The mineral library: single-crystal elastic constants with their sources.
+
+Each mineral is one YAML file in ``data/`` (see DEVELOPERS.md, "Adding a mineral"). On load
+every entry is converted from the Cartesian setting in which its constants were published into
+the crystal Cartesian frame orix uses for the phase (e1 || a, e3 || c*), and checked: symmetric,
+positive definite, and invariant under every operation of its point group (which is the zero
+pattern and the equalities of its symmetry class, in whatever setting it was published).
+"""
+
+from __future__ import annotations
+
+import functools
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import yaml
+from diffpy.structure import Lattice, Structure
+from orix.crystal_map import Phase
+from orix.quaternion import Rotation, symmetry as orix_symmetry
+
+from fabric2seis.elastic import check_stiffness, rotate_voigt
+from fabric2seis.errors import InputError, nearest
+
+DATA_DIR = Path(__file__).with_name("data")
+
+_REQUIRED = ("name", "point_group", "density_kg_m3", "lattice", "published_axes", "cij_gpa",
+             "source", "from_memory")
+_OPTIONAL = ("aliases", "unique_axis", "pressure_derivatives", "temperature_derivatives", "notes")
+_AXIS_NAMES = ("a", "b", "c", "a*", "b*", "c*")
+#: absolute tolerance (GPa) for the symmetry check: published constants are rounded to 0.1 GPa
+SYMMETRY_TOLERANCE_GPA = 0.06
+
+
+@dataclass(frozen=True)
+class Mineral:
+    """One entry of the mineral library.
+
+    ``stiffness_gpa`` and the derivatives are in orix's crystal Cartesian frame of the phase;
+    ``cij_published_gpa`` keeps the constants as published, in the setting ``published_axes``.
+    ``from_memory`` lists the fields recalled without the source at hand (empty when all were
+    read in the source).
+    """
+
+    name: str
+    aliases: tuple[str, ...]
+    point_group: str
+    unique_axis: str | None
+    density_kg_m3: float
+    lattice: dict
+    published_axes: dict
+    cij_published_gpa: np.ndarray
+    setting_rotation: np.ndarray
+    stiffness_gpa: np.ndarray
+    source: str
+    from_memory: tuple[str, ...]
+    dcij_dp: np.ndarray | None = None
+    pressure_source: str | None = None
+    dcij_dt_gpa_per_k: np.ndarray | None = None
+    temperature_source: str | None = None
+    derivatives_from_memory: tuple[str, ...] = ()
+    notes: str = ""
+    file: str = ""
+    _cache: dict = field(default_factory=dict, repr=False, compare=False)
+
+    @property
+    def symmetry(self) -> orix_symmetry.Symmetry:
+        """orix point-group symmetry in the crystal frame (2-fold along b for b-unique monoclinic)."""
+        return point_group_symmetry(self.point_group, self.unique_axis)
+
+    @property
+    def phase(self) -> Phase:
+        """An orix Phase with this mineral's point group and lattice."""
+        lat = self.lattice
+        structure = Structure(lattice=Lattice(lat["a"], lat["b"], lat["c"],
+                                              lat["alpha"], lat["beta"], lat["gamma"]))
+        return Phase(name=self.name, point_group=self.symmetry, structure=structure)
+
+
+def point_group_symmetry(point_group: str, unique_axis: str | None = None) -> orix_symmetry.Symmetry:
+    """orix Symmetry for a point-group name; monoclinic groups honour ``unique_axis``.
+
+    orix's own ``2/m`` puts the 2-fold along z (c unique). Most rock-forming monoclinic minerals
+    are described with b unique, where the 2-fold lies along b, which is orix's y axis.
+    """
+    groups = {g.name: g for g in orix_symmetry._groups}
+    if point_group not in groups:
+        raise KeyError(point_group)
+    if point_group in ("2", "m", "2/m") and unique_axis == "b":
+        proper = orix_symmetry.C2y
+        if point_group == "2":
+            return proper
+        group = orix_symmetry.Symmetry.from_generators(proper, orix_symmetry.Ci)
+        group.name = "2/m"
+        return group
+    return groups[point_group]
+
+
+def crystal_directions(lattice: dict) -> dict[str, np.ndarray]:
+    """Unit vectors of a, b, c, a*, b*, c* in orix's crystal Cartesian frame (e1 || a, e3 || c*)."""
+    base = Phase(point_group="1", structure=Structure(lattice=Lattice(
+        lattice["a"], lattice["b"], lattice["c"],
+        lattice["alpha"], lattice["beta"], lattice["gamma"]))).structure.lattice.base
+    a, b, c = base  # rows: direct lattice vectors in the Cartesian frame orix uses
+    recip = {"a*": np.cross(b, c), "b*": np.cross(c, a), "c*": np.cross(a, b)}
+    out = {"a": a, "b": b, "c": c, **recip}
+    return {k: v / np.linalg.norm(v) for k, v in out.items()}
+
+
+def setting_rotation(lattice: dict, published_axes: dict, source: str = "") -> np.ndarray:
+    """Rotation R with ``v_orix = R @ v_published`` for a published Cartesian setting.
+
+    ``published_axes`` names the crystal directions of two published axes, e.g. ``{x: a, z: c}``
+    or ``{x: a*, z: c}``; the third completes a right-handed set.
+    """
+    keys = sorted(published_axes)
+    if len(keys) != 2 or not set(keys) <= {"x", "y", "z"}:
+        raise InputError("published_axes must name exactly two of x, y, z", source, "published_axes")
+    dirs = crystal_directions(lattice)
+    vec = {}
+    for k in keys:
+        name = str(published_axes[k])
+        if name not in dirs:
+            raise InputError(f"unknown crystal direction '{name}'; use one of {', '.join(_AXIS_NAMES)}",
+                             source, f"published_axes.{k}")
+        vec[k] = dirs[name]
+    u, v = vec[keys[0]], vec[keys[1]]
+    if abs(u @ v) > 1e-6:
+        raise InputError(f"published axes {published_axes} are not perpendicular in this lattice",
+                         source, "published_axes")
+    if keys == ["x", "y"]:
+        x, y = u, v
+        z = np.cross(x, y)
+    elif keys == ["x", "z"]:
+        x, z = u, v
+        y = np.cross(z, x)
+    else:  # y, z
+        y, z = u, v
+        x = np.cross(y, z)
+    return np.column_stack([x, y, z])
+
+
+def check_symmetry_pattern(c: np.ndarray, sym: orix_symmetry.Symmetry, source: str = "",
+                           where: str = "cij_gpa", tol: float = SYMMETRY_TOLERANCE_GPA) -> None:
+    """Raise InputError unless ``c`` (orix crystal frame) is invariant under every operation of ``sym``."""
+    ops = Rotation(sym.data).to_matrix()  # proper parts; elastic tensors are centrosymmetric
+    rotated = rotate_voigt(c, ops)
+    diff = np.abs(rotated - c).max(axis=0)
+    if diff.max() > tol:
+        i, j = np.unravel_index(np.argmax(diff), diff.shape)
+        raise InputError(
+            f"the constants break point group {sym.name} symmetry: c{i + 1}{j + 1} changes by "
+            f"{diff[i, j]:.3g} GPa under one of its operations (check zeros and equalities such "
+            f"as c66 = (c11 - c12)/2, and the published setting)", source, where)
+
+
+def _matrix(entry: dict, key: str, source: str) -> np.ndarray:
+    try:
+        m = np.array(entry[key], dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"must be a 6x6 table of numbers ({exc})", source, key) from None
+    if m.shape != (6, 6):
+        raise InputError(f"must be a 6x6 table, got shape {m.shape}", source, key)
+    return m
+
+
+def load_mineral_file(path: str | Path) -> Mineral:
+    """Read, convert and check one mineral file; raises InputError naming file and key."""
+    path = Path(path)
+    src = str(path)
+    try:
+        entry = yaml.safe_load(path.read_text())
+    except (OSError, yaml.YAMLError) as exc:
+        raise InputError(f"cannot read mineral file ({exc.__class__.__name__}: {exc})", src) from None
+    if not isinstance(entry, dict):
+        raise InputError("a mineral file must be a YAML mapping", src)
+    for key in entry:
+        if key not in _REQUIRED + _OPTIONAL:
+            raise InputError(f"unknown key '{key}'{nearest(key, _REQUIRED + _OPTIONAL)}", src, key)
+    for key in _REQUIRED:
+        if key not in entry:
+            raise InputError("missing required key", src, key)
+    pg = str(entry["point_group"])
+    unique = entry.get("unique_axis")
+    try:
+        sym = point_group_symmetry(pg, unique)
+    except KeyError:
+        names = [g.name for g in orix_symmetry._groups]
+        raise InputError(f"unknown point group '{pg}'{nearest(pg, names)}", src, "point_group") from None
+    density = float(entry["density_kg_m3"])
+    if not 100 < density < 30000:
+        raise InputError(f"density {density} kg/m^3 is not plausible", src, "density_kg_m3")
+    published = _matrix(entry, "cij_gpa", src)
+    published = check_stiffness(published, src, "cij_gpa")
+    rot = setting_rotation(entry["lattice"], entry["published_axes"], src)
+    stiffness = rotate_voigt(published, rot)
+    check_symmetry_pattern(stiffness, sym, src)
+
+    def derivative(block_key: str, matrix_key: str):
+        block = entry.get(block_key)
+        if block is None:
+            return None, None, False
+        if not isinstance(block, dict) or matrix_key not in block or "source" not in block:
+            raise InputError(f"needs '{matrix_key}' and 'source'", src, block_key)
+        m = _matrix(block, matrix_key, src)
+        if not np.allclose(m, m.T):
+            raise InputError("derivatives must be symmetric", src, f"{block_key}.{matrix_key}")
+        m_orix = rotate_voigt(m, rot)
+        scale = max(np.abs(m).max(), 1e-12)
+        check_symmetry_pattern(m_orix, sym, src, f"{block_key}.{matrix_key}", tol=1e-3 * scale)
+        return m_orix, str(block["source"]), bool(block.get("from_memory", True))
+
+    dp, dp_src, dp_mem = derivative("pressure_derivatives", "dcij_dp")
+    dt, dt_src, dt_mem = derivative("temperature_derivatives", "dcij_dt_gpa_per_k")
+    deriv_mem = tuple(k for k, m in (("pressure_derivatives", dp_mem),
+                                       ("temperature_derivatives", dt_mem)) if m)
+    memory = entry["from_memory"] or []
+    if not isinstance(memory, list):
+        raise InputError("from_memory must be a list of the fields recalled ([] when checked)",
+                         src, "from_memory")
+    return Mineral(
+        name=str(entry["name"]).lower(),
+        aliases=tuple(str(a).lower() for a in entry.get("aliases") or ()),
+        point_group=pg, unique_axis=unique, density_kg_m3=density,
+        lattice=dict(entry["lattice"]), published_axes=dict(entry["published_axes"]),
+        cij_published_gpa=published, setting_rotation=rot, stiffness_gpa=stiffness,
+        source=str(entry["source"]), from_memory=tuple(memory),
+        dcij_dp=dp, pressure_source=dp_src, dcij_dt_gpa_per_k=dt, temperature_source=dt_src,
+        derivatives_from_memory=deriv_mem, notes=str(entry.get("notes", "")).strip(), file=src)
+
+
+def load_library(extra_dirs: Iterable[str | Path] = ()) -> dict[str, Mineral]:
+    """All minerals of the bundled library plus any ``*.yaml`` in ``extra_dirs``, by name."""
+    extra = tuple(str(d) for d in extra_dirs)
+    return dict(_load_library_cached(extra))
+
+
+@functools.lru_cache(maxsize=8)
+def _load_library_cached(extra_dirs: tuple[str, ...]) -> tuple[tuple[str, Mineral], ...]:
+    files = sorted(DATA_DIR.glob("*.yaml"))
+    for d in extra_dirs:
+        files += sorted(Path(d).glob("*.yaml"))
+    minerals: dict[str, Mineral] = {}
+    for f in files:
+        m = load_mineral_file(f)
+        minerals[m.name] = m  # a user's file of the same name replaces the bundled entry
+    return tuple(minerals.items())
+
+
+def find_mineral(name: str, library: dict[str, Mineral] | None = None) -> Mineral:
+    """Look a mineral up by name or alias, case-insensitively; suggests the nearest on failure."""
+    library = load_library() if library is None else library
+    key = " ".join(str(name).lower().replace("_", " ").split())
+    for m in library.values():
+        if key == m.name or key in m.aliases:
+            return m
+    names = list(library) + [a for m in library.values() for a in m.aliases]
+    raise InputError(f"unknown mineral '{name}'{nearest(name, names)}; the library has: "
+                     f"{', '.join(sorted(library))}")
+
+
+def dauphine_average(mineral: Mineral) -> np.ndarray:
+    """Stiffness averaged over the two Dauphine twin variants (180 degrees about c).
+
+    For trigonal quartz this zeroes c14 and its companions; EBSD cannot tell the variants
+    apart, so this is the common practice for quartz aggregates.
+    """
+    turn = np.diag([-1.0, -1.0, 1.0])
+    return (mineral.stiffness_gpa + rotate_voigt(mineral.stiffness_gpa, turn)) / 2.0

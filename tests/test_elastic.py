@@ -216,3 +216,14 @@ def test_bad_tensors_are_refused_with_a_reason():
         el.check_stiffness(np.eye(3))
     with pytest.raises(InputError, match="my.yaml, cij_gpa"):
         el.check_stiffness(bad, "my.yaml", "cij_gpa")
+
+
+def test_averaging_kernel_refuses_malformed_input(library):
+    g = random_rotation_matrices(3, seed=1)
+    x = el.voigt_to_kelvin(library["olivine"].stiffness_gpa)
+    with pytest.raises(ValueError, match="non-negative"):
+        el.weighted_rotated_mean(x, g, np.array([1.0, -0.5, 1.0]))
+    with pytest.raises(ValueError, match=r"\(N, 3, 3\)"):
+        el.weighted_rotated_mean(x, g.reshape(3, 9), np.ones(3))
+    with pytest.raises(ValueError, match="symmetric 6x6"):
+        el.weighted_rotated_mean(x[:3, :3], g, np.ones(3))

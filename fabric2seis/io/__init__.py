@@ -1,0 +1,59 @@
+"""Readers of EBSD exports, one module per format, all returning one :class:`EBSDData` record.
+
+``read_ebsd(path)`` picks the reader from the file name: ``.ang`` (EDAX TSL and others), ``.ctf``
+(Oxford Instruments and others), ``.h5`` / ``.hdf5`` (orix-readable HDF5), ``.csv`` (the table of
+CONTRACT.md: pixel maps with x, y columns, or grain lists without). ``.gz`` compressed text files
+of these formats are read too.
+
+Orientations are taken as the files store them, read by orix where orix has a reader: Bunge
+Euler angles of the crystal with respect to the map axes x, y, z, no vendor-specific correction
+applied. Where a vendor's angles refer to other axes than the map's, the settings key
+``frame.rotation`` rotates the data (config/README.md).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from fabric2seis.errors import InputError
+from fabric2seis.io.record import EBSDData
+
+SUPPORTED_SUFFIXES = (".ang", ".ctf", ".h5", ".hdf5", ".csv")
+
+
+def format_of(path: str | Path) -> tuple[str, bool]:
+    """(suffix without .gz, compressed?) of a file name; InputError if unsupported."""
+    name = Path(path).name.lower()
+    compressed = name.endswith(".gz")
+    if compressed:
+        name = name[:-3]
+    suffix = Path(name).suffix
+    if suffix not in SUPPORTED_SUFFIXES or (compressed and suffix in (".h5", ".hdf5")):
+        raise InputError(f"unsupported file type '{suffix or name}'; supported: "
+                         f"{', '.join(SUPPORTED_SUFFIXES)} (text formats also as .gz)", path)
+    return suffix, compressed
+
+
+def is_supported(path: str | Path) -> bool:
+    try:
+        format_of(path)
+    except InputError:
+        return False
+    return True
+
+
+def read_ebsd(path: str | Path, angle_units: str = "degrees") -> EBSDData:
+    """Read one EBSD export into an :class:`EBSDData` record (raises InputError on bad input).
+
+    ``angle_units`` applies to CSV tables only; the other formats fix their own units.
+    """
+    from fabric2seis.io import ang, ctf, h5, table
+
+    path = Path(path)
+    suffix, compressed = format_of(path)
+    if not path.is_file():
+        raise InputError("no such file", path)
+    readers = {".ang": ang.read, ".ctf": ctf.read, ".h5": h5.read, ".hdf5": h5.read}
+    if suffix == ".csv":
+        return table.read(path, compressed, angle_units)
+    return readers[suffix](path, compressed) if suffix not in (".h5", ".hdf5") else h5.read(path)

@@ -1,0 +1,113 @@
+"""Settings of a sample: defaults, sidecar files, validation against the JSON schema.
+
+Defaults are ``config/config.yaml`` of the project when run inside it, else the copy shipped with
+the package (``fabric2seis/defaults.yaml``; a test keeps the two identical). A sample's settings
+are the defaults with its sidecar (``<stem>.yaml`` beside it) or ``--settings FILE`` merged over
+them, key by key. Every key is checked against ``settings_schema.yaml`` before any work is done;
+an unknown key is an error that suggests the nearest valid one.
+"""
+
+from __future__ import annotations
+
+import copy
+import functools
+from pathlib import Path
+
+import jsonschema
+import yaml
+
+from fabric2seis.errors import InputError, nearest
+
+_HERE = Path(__file__).parent
+SCHEMA_FILE = _HERE / "settings_schema.yaml"
+PACKAGED_DEFAULTS = _HERE / "defaults.yaml"
+PROJECT_DEFAULTS = Path("config") / "config.yaml"
+
+
+@functools.lru_cache(maxsize=1)
+def schema() -> dict:
+    return yaml.safe_load(SCHEMA_FILE.read_text())
+
+
+def read_yaml(path: str | Path) -> dict:
+    """A YAML mapping from a file; an empty file is an empty mapping."""
+    path = Path(path)
+    try:
+        data = yaml.safe_load(path.read_text())
+    except OSError as exc:
+        raise InputError(f"cannot read settings ({exc.strerror})", path) from None
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        where = f"line {mark.line + 1}, column {mark.column + 1}" if mark else None
+        raise InputError(f"not valid YAML ({getattr(exc, 'problem', exc)})", path, where) from None
+    if data is None:
+        return {}
+    if not isinstance(data, dict):
+        raise InputError("settings must be a YAML mapping of keys to values", path)
+    return data
+
+
+def validate(settings: dict, source: str | Path | None = None) -> dict:
+    """Check settings against the schema; raise InputError naming the key and what is valid."""
+    _check_keys(settings, schema(), "", source)
+    errors = sorted(jsonschema.Draft202012Validator(schema()).iter_errors(settings),
+                    key=lambda e: list(e.absolute_path))
+    if errors:
+        e = errors[0]
+        key = ".".join(str(p) for p in e.absolute_path) or "(top level)"
+        raise InputError(f"{e.message}", source, f"key {key}")
+    fractions = settings.get("modal_fractions") or {}
+    if fractions and abs(sum(fractions.values()) - 1.0) > 1e-3:
+        raise InputError(f"modal fractions must sum to 1 within 1e-3, they sum to "
+                         f"{sum(fractions.values()):.4f}", source, "key modal_fractions")
+    frame = settings.get("frame") or {}
+    if "rotation" not in frame and frame.get("lineation", "+x")[1] == frame.get("foliation_normal", "+z")[1]:
+        raise InputError("lineation and foliation normal must be different sample axes", source,
+                         "key frame")
+    return settings
+
+
+def _check_keys(data, node: dict, prefix: str, source) -> None:
+    props = node.get("properties")
+    if not isinstance(data, dict) or props is None or node.get("additionalProperties", True) is not False:
+        return
+    for key, value in data.items():
+        if key not in props:
+            raise InputError(f"unknown settings key '{prefix}{key}'{nearest(str(key), props)}; valid "
+                             f"keys here: {', '.join(props)}", source, f"key {prefix}{key}")
+        _check_keys(value, props[key], f"{prefix}{key}.", source)
+
+
+def merge(base: dict, override: dict) -> dict:
+    """Override ``base`` key by key, recursing into mappings (``field``, ``grains`` ...)."""
+    out = copy.deepcopy(base)
+    for key, value in override.items():
+        if isinstance(value, dict) and isinstance(out.get(key), dict) and key not in ("phases", "modal_fractions"):
+            out[key] = merge(out[key], value)
+        else:
+            out[key] = copy.deepcopy(value)
+    return out
+
+
+def defaults() -> dict:
+    """The default settings: the project's config/config.yaml if present here, else the packaged copy."""
+    path = PROJECT_DEFAULTS if PROJECT_DEFAULTS.is_file() else PACKAGED_DEFAULTS
+    return validate(read_yaml(path), path)
+
+
+def sidecar_of(input_path: str | Path) -> Path:
+    """``sample.ang`` -> ``sample.yaml`` (also ``sample.ang.gz`` -> ``sample.yaml``)."""
+    p = Path(input_path)
+    name = p.name[:-3] if p.name.endswith(".gz") else p.name
+    return p.with_name(Path(name).stem + ".yaml")
+
+
+def settings_for(input_path: str | Path, settings_path: str | Path | None = None) -> tuple[dict, str | None]:
+    """Settings of one sample and the file they came from (None: defaults only)."""
+    base = defaults()
+    chosen = Path(settings_path) if settings_path else sidecar_of(input_path)
+    if settings_path is None and not chosen.is_file():
+        return base, None
+    own = read_yaml(chosen)
+    validate(own, chosen)
+    return validate(merge(base, own), chosen), str(chosen)

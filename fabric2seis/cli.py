@@ -31,6 +31,18 @@ def _minerals(args: argparse.Namespace) -> int:
     return 0
 
 
+def _sample(args: argparse.Namespace) -> int:
+    from fabric2seis.pipeline import run_sample
+
+    def progress(message: str) -> None:
+        if sys.stderr.isatty():
+            print(f"[{args.input}] {message}", file=sys.stderr, flush=True)
+
+    out = run_sample(args.input, args.settings, args.out, progress)
+    print(f"wrote {out}")
+    return 0
+
+
 def describe_mineral(m) -> str:
     """A full, human-readable account of one library entry."""
     def table(a: np.ndarray, fmt: str = "8.2f") -> str:
@@ -69,6 +81,13 @@ def build_parser() -> argparse.ArgumentParser:
         description="From EBSD crystal orientations to seismic anisotropy and shear-wave splitting.")
     parser.add_argument("--version", action="version", version=f"fabric2seis {__version__}")
     commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    p = commands.add_parser("sample", help="process one EBSD export into a results folder")
+    p.add_argument("input", help="EBSD export: .ang, .ctf, .h5, .csv (text formats also .gz)")
+    p.add_argument("--settings", metavar="FILE", help="settings YAML (default: INPUT's sidecar <stem>.yaml, "
+                   "else config/config.yaml)")
+    p.add_argument("--out", metavar="DIR", help="output folder (default results/<stem>)")
+    p.set_defaults(run=_sample)
 
     p = commands.add_parser("minerals", help="list the mineral library or show one entry in full")
     p.add_argument("name", nargs="?", help="mineral name or alias (case-insensitive)")

@@ -17,8 +17,9 @@ class EBSDData:
     ----------
     source
         The file read.
-    euler_rad
-        Bunge Euler angles (N, 3) in radians.
+    quat
+        Orientations as orix quaternions (N, 4) (``orix.quaternion.Rotation(quat).to_matrix()``
+        are Bunge's passive matrices g, ``v_crystal = g v_sample``).
     phase_id
         Phase of each point (N,); -1 for points that were not indexed.
     phase_names, phase_point_groups
@@ -39,7 +40,7 @@ class EBSDData:
     """
 
     source: str
-    euler_rad: np.ndarray
+    quat: np.ndarray
     phase_id: np.ndarray
     phase_names: dict[int, str]
     phase_point_groups: dict[int, str | None]

@@ -1,0 +1,27 @@
+"""Reader of orix-readable HDF5 EBSD files (orix's own HDF5 format and the h5ebsd files orix reads)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from orix import io as orix_io
+
+from fabric2seis.errors import InputError
+from fabric2seis.io._crystal_map import from_crystal_map
+from fabric2seis.io.record import EBSDData, infer_grid
+from fabric2seis.io.text import quiet
+
+
+def read(path: Path) -> EBSDData:
+    if path.stat().st_size == 0:
+        raise InputError("the file is empty", path)
+    try:
+        xmap = quiet(orix_io.load, str(path))
+    except Exception as exc:
+        raise InputError(f"not an HDF5 EBSD file orix can read ({exc.__class__.__name__}: "
+                         f"{str(exc)[:120]})", path) from None
+    if xmap.size < 2:
+        raise InputError(f"a map needs at least two points, this one has {xmap.size}", path)
+    grid, step = infer_grid(xmap.x, xmap.y if xmap.y is not None else 0 * xmap.x)
+    quality = {k: k for k in ("ci", "iq", "fit", "bc", "bs", "mad") if k in xmap.prop}
+    return from_crystal_map(xmap, path, grid, step, None, quality)

@@ -1,0 +1,94 @@
+"""Helpers the text readers share: decompression, sniffing binary files, locating bad rows."""
+
+from __future__ import annotations
+
+import contextlib
+import gzip
+import io
+import shutil
+import tempfile
+from collections.abc import Iterator
+from pathlib import Path
+
+import numpy as np
+
+from fabric2seis.errors import InputError
+
+
+@contextlib.contextmanager
+def plain_text_file(path: Path, compressed: bool) -> Iterator[Path]:
+    """The path of an uncompressed copy (for .gz), after checking the file is non-empty text."""
+    if path.stat().st_size == 0:
+        raise InputError("the file is empty", path)
+    if not compressed:
+        _check_text(path, path.open("rb").read(65536))
+        yield path
+        return
+    with tempfile.TemporaryDirectory(prefix="fabric2seis-") as tmp:
+        plain = Path(tmp) / path.name[:-3]
+        try:
+            with gzip.open(path, "rb") as src, plain.open("wb") as dst:
+                shutil.copyfileobj(src, dst)
+        except (OSError, EOFError) as exc:
+            raise InputError(f"cannot decompress ({exc})", path) from None
+        if plain.stat().st_size == 0:
+            raise InputError("the file is empty once decompressed", path)
+        _check_text(path, plain.open("rb").read(65536))
+        yield plain
+
+
+def _check_text(path: Path, head: bytes) -> None:
+    if b"\x00" in head:
+        raise InputError("this is not a text file (it contains binary data)", path)
+    try:
+        head.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        if exc.start < len(head) - 4:  # not just a character cut at the 64 KiB boundary
+            control = sum(b < 9 or 13 < b < 32 for b in head)
+            if control > len(head) // 100:
+                raise InputError("this is not a text file (it contains binary data)", path) from None
+
+
+def find_bad_row(path: Path, first_data_line: int, n_columns: int | None, comment: str = "#") -> str:
+    """Describe the first data line that is not ``n_columns`` numbers (for error messages).
+
+    ``first_data_line`` is 1-based. Returns e.g. ``"line 12: 7 values, expected 10"``, or an
+    empty string if every line is fine.
+    """
+    with path.open("r", errors="replace") as f:
+        for number, line in enumerate(f, start=1):
+            if number < first_data_line or not line.strip() or line.lstrip().startswith(comment):
+                continue
+            fields = line.split()
+            if n_columns is None:
+                n_columns = len(fields)
+            if len(fields) != n_columns:
+                return f"line {number}: {len(fields)} values, expected {n_columns} (truncated or extra row?)"
+            for column, value in enumerate(fields, start=1):
+                try:
+                    float(value)
+                except ValueError:
+                    return f"line {number}, column {column}: '{value[:20]}' is not a number"
+    return ""
+
+
+def quiet(func, *args, **kwargs):
+    """Call a library function with its printed chatter swallowed (orix prints while reading)."""
+    with contextlib.redirect_stdout(io.StringIO()):
+        return func(*args, **kwargs)
+
+
+def first_rows(path: Path, skip: int, count: int = 2000, comment: str = "#") -> np.ndarray:
+    """The first ``count`` data rows as numbers (for quick range checks of the angle columns)."""
+    with path.open("r", errors="replace") as f:
+        lines = []
+        for number, line in enumerate(f, start=1):
+            if number <= skip or not line.strip() or line.lstrip().startswith(comment):
+                continue
+            lines.append(line)
+            if len(lines) >= count:
+                break
+    try:
+        return np.loadtxt(lines, ndmin=2) if lines else np.empty((0, 0))
+    except ValueError:
+        return np.empty((0, 0))

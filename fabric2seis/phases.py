@@ -1,0 +1,140 @@
+"""Phase mapping (names in the file -> library minerals) and cleaning of points."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from orix.quaternion import symmetry as orix_symmetry
+
+from fabric2seis.errors import InputError
+from fabric2seis.io.record import EBSDData
+from fabric2seis.minerals import Mineral, find_mineral, load_library
+
+#: quality measure used by ``clean.quality_min`` when ``clean.quality_field`` is not set
+DEFAULT_QUALITY = ("ci", "bc", "quality")
+
+
+@dataclass
+class PointSet:
+    """Indexed, cleaned points of named minerals (still in the sample frame).
+
+    ``mineral_index`` points into ``minerals``; the counts say what was dropped and why.
+    """
+
+    source: str
+    quat: np.ndarray
+    mineral_index: np.ndarray
+    minerals: list[Mineral]
+    x: np.ndarray | None
+    y: np.ndarray | None
+    weights: np.ndarray
+    n_read: int
+    n_unindexed: int
+    n_low_quality: int
+
+
+def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
+               library: dict[str, Mineral] | None = None) -> dict[int, Mineral]:
+    """Library mineral of every phase id that has points.
+
+    By the settings mapping ``phases`` (file name -> library name) first, else by the library's
+    names and aliases, case-insensitively. A point group in the file whose Laue class differs
+    from the library entry's is an error (EBSD sees the Laue class, Friedel's law).
+    """
+    library = load_library() if library is None else library
+    by_file_name = {k.lower(): v for k, v in (phases or {}).items()}
+    present = sorted(set(np.unique(data.phase_id)) - {-1})
+    found = [data.phase_names.get(p, f"phase {p}") for p in present]
+    out = {}
+    for pid in present:
+        name = data.phase_names.get(pid, f"phase {pid}")
+        target = by_file_name.get(name.lower(), name)
+        try:
+            mineral = find_mineral(target, library)
+        except InputError:
+            if name.lower() in by_file_name:
+                raise InputError(f"settings map phase '{name}' to '{target}', which is not in the library; "
+                                 f"the library has: {', '.join(sorted(library))}", data.source,
+                                 "key phases") from None
+            raise InputError(f"phase '{name}' is not a library mineral; the file has phases "
+                             f"{', '.join(repr(f) for f in found)}; map them with the settings key "
+                             f"'phases' to library names: {', '.join(sorted(library))}", data.source) from None
+        file_group = data.phase_point_groups.get(pid)
+        if file_group:
+            groups = {g.name: g for g in orix_symmetry._groups}
+            file_laue = groups[file_group].laue.name if file_group in groups else None
+            if file_laue is not None and file_laue != mineral.symmetry.laue.name:
+                raise InputError(f"phase '{name}' has point group {file_group} (Laue class {file_laue}) in "
+                                 f"the file, but library mineral '{mineral.name}' is {mineral.point_group} "
+                                 f"(Laue class {mineral.symmetry.laue.name})", data.source)
+        out[pid] = mineral
+    return out
+
+
+def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_min: float | None = None,
+                  quality_field: str | None = None) -> PointSet:
+    """Drop unindexed points and points below the quality threshold; attach minerals and weights."""
+    indexed = data.phase_id >= 0
+    n_unindexed = int((~indexed).sum())
+    if not indexed.any():
+        raise InputError(f"all {data.n_points} points are unindexed: nothing to work with", data.source)
+    keep = indexed.copy()
+    n_low = 0
+    if quality_min is not None:
+        field = quality_field or next((q for q in DEFAULT_QUALITY if q in data.quality), None)
+        if field is None or field not in data.quality:
+            have = ", ".join(data.quality) or "none"
+            raise InputError(f"clean.quality_min is set but the file has no quality measure "
+                             f"'{quality_field or ' / '.join(DEFAULT_QUALITY)}' (it has: {have})",
+                             data.source, "key clean.quality_field")
+        good = data.quality[field] >= quality_min
+        n_low = int((keep & ~good).sum())
+        keep &= good
+        if not keep.any():
+            raise InputError(f"no point passes clean.quality_min = {quality_min} on '{field}'",
+                             data.source, "key clean.quality_min")
+    minerals = []
+    index_of = {}
+    for pid, m in phase_minerals.items():
+        if m.name not in index_of:
+            index_of[m.name] = len(minerals)
+            minerals.append(m)
+    lookup = np.full(max(phase_minerals) + 2, -1)
+    for pid, m in phase_minerals.items():
+        lookup[pid] = index_of[m.name]
+    mineral_index = lookup[data.phase_id[keep]]
+    if data.weights is not None:
+        weights = data.weights[keep]
+    else:
+        weights = np.full(int(keep.sum()), data.pixel_area if data.is_map else 1.0)
+    return PointSet(
+        source=data.source, quat=data.quat[keep], mineral_index=mineral_index, minerals=minerals,
+        x=None if data.x is None else data.x[keep], y=None if data.y is None else data.y[keep],
+        weights=weights, n_read=data.n_points, n_unindexed=n_unindexed, n_low_quality=n_low)
+
+
+def modal_fractions(mineral_index: np.ndarray, weights: np.ndarray, minerals: list[Mineral],
+                    override: dict[str, float] | None = None, source=None) -> dict[str, float]:
+    """Measured area (or weight) fraction of each mineral, or the settings' fractions."""
+    measured = np.bincount(mineral_index, weights=weights, minlength=len(minerals))
+    measured = measured / measured.sum()
+    if not override:
+        return {m.name: float(f) for m, f in zip(minerals, measured)}
+    given = {}
+    for key, value in override.items():
+        try:
+            given[find_mineral(key).name] = float(value)
+        except InputError:
+            raise InputError(f"modal fraction given for '{key}', which is not a library mineral",
+                             source, "key modal_fractions") from None
+    names = {m.name for m in minerals}
+    extra = set(given) - names
+    lacking = names - set(given)
+    if extra or lacking:
+        raise InputError(f"modal_fractions must name exactly the minerals of the sample "
+                         f"({', '.join(sorted(names))})", source, "key modal_fractions")
+    if abs(sum(given.values()) - 1.0) > 1e-3:
+        raise InputError(f"modal fractions sum to {sum(given.values()):.4f}, not 1 (within 1e-3)",
+                         source, "key modal_fractions")
+    return {m.name: given[m.name] for m in minerals}

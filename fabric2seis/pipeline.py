@@ -1,0 +1,157 @@
+"""``run_sample``: the one function the CLI and the workflow scripts call for a sample.
+
+Stages run one way: read -> map phases and clean -> structural frame -> grains -> (fabric,
+elastic, waves, splitting as they land). Outputs are written into a temporary folder beside the
+destination and renamed into place only when everything succeeded, so a failed run leaves no
+partial output behind.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import shutil
+import sys
+import tempfile
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from fabric2seis import __version__, frames, grains as grains_mod, phases as phases_mod
+from fabric2seis.io import read_ebsd
+from fabric2seis.phases import PointSet
+from fabric2seis.settings import settings_for
+
+
+@dataclass
+class Sample:
+    """A sample after ingestion: clean points of named minerals in the structural frame."""
+
+    name: str
+    settings: dict
+    settings_file: str | None
+    points: PointSet
+    grains: grains_mod.Grains | None
+    fractions: dict[str, float]
+    measured_fractions: dict[str, float]
+    grid: str | None
+    n_small_grain_points: int
+
+
+def sample_name(path: str | Path) -> str:
+    name = Path(path).name
+    if name.endswith(".gz"):
+        name = name[:-3]
+    return Path(name).stem
+
+
+def ingest(path: str | Path, settings: dict, settings_file: str | None = None, progress=None) -> Sample:
+    """Read, map phases, clean, rotate into the structural frame and reconstruct grains."""
+    say = progress or (lambda _msg: None)
+    path = Path(path)
+    say(f"reading {path.name}")
+    data = read_ebsd(path, angle_units=settings["table"]["angle_units"])
+    phase_minerals = phases_mod.map_phases(data, settings.get("phases"))
+    clean = settings.get("clean") or {}
+    points = phases_mod.select_points(data, phase_minerals, clean.get("quality_min"), clean.get("quality_field"))
+    f = frames.structural_matrix(settings["frame"], settings_file)
+    points.quat = frames.to_structural(points.quat, f)
+    grains = None
+    small = 0
+    if data.is_map:
+        say(f"reconstructing grains of {len(points.quat):,} points")
+        found = grains_mod.reconstruct(points.x, points.y, data.grid, data.step, points.quat,
+                                       points.mineral_index, points.minerals,
+                                       settings["grains"]["threshold_deg"], data.pixel_area)
+        grains, keep = grains_mod.keep_large(found, settings["grains"]["min_pixels"])
+        small = int((~keep).sum())
+        if grains.n_grains == 0:
+            from fabric2seis.errors import InputError
+            raise InputError(f"no grain has grains.min_pixels = {settings['grains']['min_pixels']} pixels "
+                             "or more", path, "key grains.min_pixels")
+        for field in ("quat", "mineral_index", "x", "y", "weights"):
+            setattr(points, field, getattr(points, field)[keep])
+    measured = phases_mod.modal_fractions(points.mineral_index, points.weights, points.minerals)
+    fractions = phases_mod.modal_fractions(points.mineral_index, points.weights, points.minerals,
+                                           settings.get("modal_fractions"), settings_file)
+    return Sample(name=sample_name(path), settings=settings, settings_file=settings_file, points=points,
+                  grains=grains, fractions=fractions, measured_fractions=measured, grid=data.grid,
+                  n_small_grain_points=small)
+
+
+def summary(sample: Sample) -> dict:
+    """The contents of ``summary.json`` (what is known at this stage)."""
+    p = sample.points
+    per_phase = {}
+    for k, m in enumerate(p.minerals):
+        n_points = int((p.mineral_index == k).sum())
+        n = int((sample.grains.mineral_index == k).sum()) if sample.grains is not None else n_points
+        per_phase[m.name] = {"fraction": round(sample.fractions[m.name], 6),
+                             "measured_fraction": round(sample.measured_fractions[m.name], 6),
+                             "n": n, "n_points": n_points}
+    return {
+        "sample": sample.name,
+        "n_points": int(len(p.quat)),
+        "n_grains": int(sample.grains.n_grains) if sample.grains is not None else int(len(p.quat)),
+        "input_kind": "map" if sample.grains is not None else "grain list",
+        "grid": sample.grid,
+        "phases": per_phase,
+        "dropped": {"unindexed_points": p.n_unindexed, "low_quality_points": p.n_low_quality,
+                    "small_grain_points": sample.n_small_grain_points, "points_read": p.n_read},
+        "fraction_source": "settings" if sample.settings.get("modal_fractions") else "measured area",
+    }
+
+
+def provenance(path: Path, sample: Sample) -> dict:
+    import orix, numpy, scipy, pandas  # noqa: E401
+    digest = hashlib.sha256(path.read_bytes()).hexdigest()
+    return {
+        "input": str(path), "input_sha256": digest,
+        "settings_file": sample.settings_file, "settings": sample.settings,
+        "minerals": {m.name: {"source": m.source, "from_memory": list(m.from_memory)}
+                     for m in sample.points.minerals},
+        "versions": {"fabric2seis": __version__, "orix": orix.__version__, "numpy": numpy.__version__,
+                     "scipy": scipy.__version__, "pandas": pandas.__version__,
+                     "python": sys.version.split()[0]},
+    }
+
+
+def default_out_dir(path: str | Path) -> Path:
+    return Path("results") / sample_name(path)
+
+
+def run_sample(path: str | Path, settings_path: str | Path | None = None, out_dir: str | Path | None = None,
+               progress=None) -> Path:
+    """Process one EBSD export into ``out_dir``; returns the folder written."""
+    path = Path(path)
+    settings, settings_file = settings_for(path, settings_path)
+    out = Path(out_dir) if out_dir is not None else default_out_dir(path)
+    sample = ingest(path, settings, settings_file, progress)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
+    try:
+        _write_json(tmp / "summary.json", summary(sample))
+        _write_json(tmp / "provenance.json", provenance(path, sample))
+        if sample.grains is not None:
+            grains_mod.grains_table(sample.grains, sample.points.minerals).to_csv(tmp / "grains.csv", index=False)
+        if out.exists():
+            shutil.rmtree(out)
+        os.replace(tmp, out)
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    return out
+
+
+def _write_json(path: Path, data: dict) -> None:
+    path.write_text(json.dumps(data, indent=2, sort_keys=False, default=_plain) + "\n")
+
+
+def _plain(value):
+    if isinstance(value, np.generic):
+        return value.item()
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    raise TypeError(type(value))

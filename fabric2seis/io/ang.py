@@ -42,7 +42,7 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
         except Exception as exc:  # orix raises several types; find the line for the user
             problem = find_bad_row(plain, first_line, sample.shape[1])
             raise InputError(problem or f"not a readable .ang file ({exc})", path) from None
-    check_angles(sample[:, :3], "radians", path)
+    check_angles(sample[:, :3], "radians", path, first_line)
     text = "".join(header)
     grid = "hex" if "HexGrid" in text else "square"
     step = _header_value(header, "XSTEP")

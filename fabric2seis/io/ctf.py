@@ -54,5 +54,5 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
             problem = find_bad_row(plain, start, sample.shape[1], comment="\x00")
             raise InputError(problem or f"not a readable .ctf file ({exc})", path) from None
         step = _step(plain)
-    check_angles(sample[:, 5:8], "degrees", path)
+    check_angles(sample[:, 5:8], "degrees", path, start)
     return from_crystal_map(xmap, path, "square", step, start, {"bc": "BC", "bs": "BS", "mad": "MAD"})

@@ -43,6 +43,35 @@ def _sample(args: argparse.Namespace) -> int:
     return 0
 
 
+def _synth(args: argparse.Namespace) -> int:
+    from fabric2seis.io.write import write_table
+    from fabric2seis.minerals import find_mineral
+    from fabric2seis.synth import fabric_orientations
+
+    mineral = find_mineral(args.mineral)
+    quat = fabric_orientations(mineral, args.fabric, args.n, args.scatter_deg, args.seed)
+    weights = None
+    if args.weights:
+        weights = np.random.default_rng(args.seed + 1).lognormal(0.0, 0.5, args.n).round(4)
+    write_table(args.output, quat, [mineral.name] * args.n, weight=weights)
+    print(f"wrote {args.n} {mineral.name} grains ({args.fabric}, scatter {args.scatter_deg} deg) to {args.output}")
+    return 0
+
+
+def _suite(args: argparse.Namespace, extra: list[str]) -> int:
+    import subprocess
+    from pathlib import Path
+
+    if not Path("Snakefile").is_file():
+        raise InputError("no Snakefile here: run 'fabric2seis suite' from the fabric2seis project folder",
+                         Path.cwd())
+    if not Path(args.samples).is_dir():
+        raise InputError("no such samples folder", args.samples)
+    command = [sys.executable, "-m", "snakemake", "--cores", str(args.cores),
+               "--config", f"samples_dir={args.samples}", f"results_dir={args.results}", *extra]
+    return subprocess.run(command).returncode
+
+
 def describe_mineral(m) -> str:
     """A full, human-readable account of one library entry."""
     def table(a: np.ndarray, fmt: str = "8.2f") -> str:
@@ -82,12 +111,35 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"fabric2seis {__version__}")
     commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
+    p = commands.add_parser("suite", help="run the Snakemake workflow over every sample in a folder; "
+                            "other arguments go to Snakemake unchanged")
+    p.add_argument("--samples", default="demo_samples", metavar="DIR",
+                   help="folder of EBSD exports (default demo_samples)")
+    p.add_argument("--results", default="results", metavar="DIR", help="results folder (default results)")
+    p.add_argument("--cores", default="2", metavar="N", help="cores for Snakemake (default 2)")
+    p.set_defaults(run=_suite, takes_extra=True)
+
     p = commands.add_parser("sample", help="process one EBSD export into a results folder")
     p.add_argument("input", help="EBSD export: .ang, .ctf, .h5, .csv (text formats also .gz)")
     p.add_argument("--settings", metavar="FILE", help="settings YAML (default: INPUT's sidecar <stem>.yaml, "
                    "else config/config.yaml)")
     p.add_argument("--out", metavar="DIR", help="output folder (default results/<stem>)")
     p.set_defaults(run=_sample)
+
+    from fabric2seis.synth import IDEAL_FABRICS
+
+    p = commands.add_parser("synth", help="write a synthetic grain list: a named ideal fabric with "
+                            "scatter, or random")
+    p.add_argument("output", help="CSV file to write (grain-list table of CONTRACT.md)")
+    p.add_argument("--mineral", default="olivine", help="library mineral (default olivine)")
+    p.add_argument("--fabric", default="random", choices=["random", *IDEAL_FABRICS],
+                   help="ideal fabric: which crystal directions lie along X and Z (default random)")
+    p.add_argument("--n", type=int, default=1000, help="number of grains (default 1000)")
+    p.add_argument("--scatter-deg", type=float, default=15.0,
+                   help="Gaussian scatter about the ideal orientation, degrees (default 15)")
+    p.add_argument("--seed", type=int, default=1, help="random seed (default 1)")
+    p.add_argument("--weights", action="store_true", help="add a log-normal grain weight column")
+    p.set_defaults(run=_synth)
 
     p = commands.add_parser("minerals", help="list the mineral library or show one entry in full")
     p.add_argument("name", nargs="?", help="mineral name or alias (case-insensitive)")
@@ -99,9 +151,11 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args, extra = parser.parse_known_args(argv)
+    if extra and not getattr(args, "takes_extra", False):
+        parser.error(f"unrecognized arguments: {' '.join(extra)}")
     try:
-        return args.run(args)
+        return args.run(args, extra) if getattr(args, "takes_extra", False) else args.run(args)
     except InputError as exc:
         print(f"fabric2seis {args.command}: error: {exc.one_line()}", file=sys.stderr)
         return 2

@@ -60,8 +60,13 @@ def grid_points(nx: int, ny: int, step: float, grid: str = "square") -> tuple[np
 
 def voronoi_map(n_grains: int, nx: int, ny: int, step: float = 1.0, grid: str = "square",
                 cell_quat: np.ndarray | None = None, noise_deg: float = 0.5, n_phases: int = 1,
-                seed: int = 0, seeds_xy: np.ndarray | None = None) -> SyntheticMap:
-    """A map of ``n_grains`` Voronoi cells, each of one orientation with per-pixel scatter."""
+                seed: int = 0, seeds_xy: np.ndarray | None = None,
+                cell_phase: np.ndarray | None = None) -> SyntheticMap:
+    """A map of ``n_grains`` Voronoi cells, each of one orientation with per-pixel scatter.
+
+    ``cell_phase`` (1-based, per cell) chooses each cell's phase; by default cells take phases
+    1..n_phases in turn.
+    """
     rng = np.random.default_rng(seed)
     x, y = grid_points(nx, ny, step, grid)
     if seeds_xy is None:
@@ -71,5 +76,63 @@ def voronoi_map(n_grains: int, nx: int, ny: int, step: float = 1.0, grid: str = 
     if cell_quat is None:
         cell_quat = random_quaternions(n_grains, rng)
     quat = scatter(cell_quat[cell], noise_deg, rng)
-    phase = (cell % n_phases) + 1
+    phase = (cell % n_phases) + 1 if cell_phase is None else np.asarray(cell_phase)[cell]
     return SyntheticMap(x=x, y=y, quat=quat, cell=cell, cell_quat=cell_quat, phase=phase, step=step, grid=grid)
+
+
+#: Ideal fabrics: which crystal directions lie along structural X (lineation) and Z (foliation
+#: normal). Olivine fabric types as usually named in the literature (e.g. Karato et al. 2008);
+#: quartz and calcite end-members for crustal shear zones. Names are the trade's.
+IDEAL_FABRICS = {
+    "olivine-A": ("[100]", "[010]"),   # (010)[100] slip
+    "olivine-B": ("[001]", "[010]"),   # (010)[001]
+    "olivine-C": ("[001]", "[100]"),   # (100)[001]
+    "olivine-D": ("[100]", "[001]"),   # (0kl)[100], here with [001] normal to the foliation
+    "olivine-E": ("[100]", "[001]"),   # (001)[100]
+    "quartz-prism-a": ("[100]", "[120]"),   # prism <a>: a along X, c along Y (in the foliation)
+    "quartz-basal-a": ("[100]", "[001]"),   # basal <a>: c normal to the foliation
+    "calcite-c-normal": ("[100]", "[001]"),
+    "ice-c-normal": ("[100]", "[001]"),
+}
+
+
+def crystal_direction(mineral, label: str) -> np.ndarray:
+    """Unit vector, in orix's crystal frame, of a direction '[uvw]' (or '[hkl]' plane normal '(hkl)')."""
+    from orix.vector import Miller
+
+    text = label.strip()
+    numbers = [int(c) for c in text[1:-1].replace(",", " ").split()] if " " in text or "," in text \
+        else [int(c) for c in text[1:-1]]
+    kind = "hkl" if text.startswith("(") else "uvw"
+    return Miller(**{kind: numbers}, phase=mineral.phase).unit.data[0]
+
+
+def ideal_orientation(mineral, along_x: str, along_z: str) -> np.ndarray:
+    """Quaternion of the orientation putting crystal direction ``along_x`` on X and ``along_z`` on Z.
+
+    The second direction is made exactly normal to the first (Gram-Schmidt) when the lattice makes
+    them oblique. The columns of g are the structural axes X, Y, Z expressed in the crystal frame,
+    so that ``g @ e_x`` is ``along_x`` (v_crystal = g v_structural).
+    """
+    from fabric2seis.orientations import from_matrices
+
+    u = crystal_direction(mineral, along_x)
+    w = crystal_direction(mineral, along_z)
+    w = w - (w @ u) * u
+    w /= np.linalg.norm(w)
+    v = np.cross(w, u)
+    g = np.column_stack([u, v, w])  # g @ e_x = u, g @ e_z = w
+    return from_matrices(g[None])[0]
+
+
+def fabric_orientations(mineral, fabric: str | None, n: int, scatter_deg: float, seed: int) -> np.ndarray:
+    """``n`` orientations of a named ideal fabric with Gaussian scatter, or random (``fabric=None``)."""
+    rng = np.random.default_rng(seed)
+    if fabric is None or fabric == "random":
+        return random_quaternions(n, rng)
+    if fabric not in IDEAL_FABRICS:
+        from fabric2seis.errors import InputError, nearest
+        raise InputError(f"unknown fabric '{fabric}'{nearest(fabric, IDEAL_FABRICS)}; known: "
+                         f"random, {', '.join(IDEAL_FABRICS)}")
+    q0 = ideal_orientation(mineral, *IDEAL_FABRICS[fabric])
+    return scatter(np.tile(q0, (n, 1)), scatter_deg, rng)

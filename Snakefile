@@ -1,0 +1,16 @@
+# fabric2seis batch workflow: every supported EBSD export in the samples folder is a sample.
+#   snakemake --cores 2                       (or: fabric2seis suite --cores 2)
+#   snakemake --cores 2 --config samples_dir=my_folder results_dir=my_results
+from snakemake.utils import validate
+
+configfile: "config/config.yaml"
+validate(config, "fabric2seis/settings_schema.yaml")
+
+include: "workflow/rules/common.smk"
+include: "workflow/rules/sample.smk"
+include: "workflow/rules/suite.smk"
+
+
+rule all:
+    input:
+        f"{RESULTS}/suite_summary.csv",

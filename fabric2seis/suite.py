@@ -1,0 +1,46 @@
+"""A suite of samples: discovery in a folder and the one-row-per-sample summary table."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pandas as pd
+
+from fabric2seis.io import is_supported
+from fabric2seis.pipeline import sample_name
+
+
+def discover_samples(folder: str | Path) -> dict[str, Path]:
+    """Every supported EBSD export in ``folder`` (not recursive), by sample name."""
+    folder = Path(folder)
+    found: dict[str, Path] = {}
+    for path in sorted(folder.iterdir()) if folder.is_dir() else []:
+        if path.is_file() and is_supported(path) and not path.name.startswith("."):
+            name = sample_name(path)
+            if name in found:
+                raise ValueError(f"two files in {folder} give the sample name '{name}': "
+                                 f"{found[name].name} and {path.name}")
+            found[name] = path
+    return found
+
+
+def flatten(data: dict, prefix: str = "") -> dict:
+    """Scalar entries of a nested mapping, keys joined with dots."""
+    out = {}
+    for key, value in data.items():
+        name = f"{prefix}{key}"
+        if isinstance(value, dict):
+            out.update(flatten(value, name + "."))
+        elif not isinstance(value, list):
+            out[name] = value
+    return out
+
+
+def suite_table(summary_files: list[str | Path]) -> pd.DataFrame:
+    """One row per sample: the scalar keys of each summary.json and a status column."""
+    rows = []
+    for f in summary_files:
+        summary = json.loads(Path(f).read_text())
+        rows.append({"sample": summary["sample"], "status": summary.get("status", "ok"), **flatten(summary)})
+    return pd.DataFrame(rows)

@@ -1,0 +1,49 @@
+"""Settings: defaults, sidecars, schema validation with helpful messages."""
+
+from pathlib import Path
+
+import pytest
+
+from fabric2seis import settings
+from fabric2seis.errors import InputError
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def test_packaged_defaults_equal_the_project_config():
+    # the package carries a copy for installs outside the project; both must say the same
+    assert settings.read_yaml(ROOT / "config" / "config.yaml") == settings.read_yaml(settings.PACKAGED_DEFAULTS)
+
+
+def test_every_documented_key_is_in_the_schema():
+    text = (ROOT / "config" / "README.md").read_text()
+    for key in settings.schema()["properties"]:
+        assert f"`{key}" in text, key
+
+
+def test_unknown_key_suggests_the_nearest():
+    with pytest.raises(InputError, match="unknown settings key 'averagin'.*did you mean 'averaging'"):
+        settings.validate({"averagin": "hill"}, "s.yaml")
+
+
+def test_wrong_value_names_key_and_valid_choices():
+    with pytest.raises(InputError, match="key averaging: 'mean' is not one of"):
+        settings.validate({"averaging": "mean"}, "s.yaml")
+    with pytest.raises(InputError, match="key grains.threshold_deg"):
+        settings.validate({"grains": {"threshold_deg": -1}}, "s.yaml")
+
+
+def test_sidecar_merges_over_defaults(tmp_path):
+    f = tmp_path / "x.ang"
+    f.write_text("")
+    (tmp_path / "x.yaml").write_text("grains: {min_pixels: 2}\n")
+    s, src = settings.settings_for(f)
+    assert s["grains"] == {"threshold_deg": 10.0, "min_pixels": 2} and src.endswith("x.yaml")
+    assert settings.sidecar_of(tmp_path / "x.ang.gz") == tmp_path / "x.yaml"
+
+
+def test_bad_yaml_names_line(tmp_path):
+    f = tmp_path / "bad.yaml"
+    f.write_text("grains:\n  min_pixels: [1,\n")
+    with pytest.raises(InputError, match="bad.yaml, line"):
+        settings.read_yaml(f)

@@ -1,0 +1,22 @@
+# Discovery of samples and the per-sample settings digest (reruns a sample when its settings change).
+import hashlib
+import json
+from pathlib import Path
+
+from fabric2seis.settings import sidecar_of
+from fabric2seis.suite import discover_samples
+
+SAMPLES_DIR = config.get("samples_dir", "demo_samples")
+RESULTS = config.get("results_dir", "results")
+SAMPLES = discover_samples(SAMPLES_DIR)
+
+
+def sample_input(wildcards):
+    return str(SAMPLES[wildcards.sample])
+
+
+def settings_digest(wildcards):
+    """Digest of the sidecar text and the defaults: Snakemake reruns a sample when it changes."""
+    sidecar = sidecar_of(SAMPLES[wildcards.sample])
+    text = sidecar.read_text() if sidecar.is_file() else ""
+    return hashlib.sha256((text + json.dumps(config, sort_keys=True)).encode()).hexdigest()[:16]

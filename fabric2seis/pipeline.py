@@ -81,6 +81,30 @@ def ingest(path: str | Path, settings: dict, settings_file: str | None = None, p
                   n_small_grain_points=small)
 
 
+def orientation_sets(sample: Sample, weighting: str) -> list[tuple[object, np.ndarray, np.ndarray]]:
+    """(mineral, quaternions, weights) per mineral, in the structural frame.
+
+    ``area``: every pixel with its area (maps), or every row with its weight (grain lists);
+    ``grain``: one vote per grain (the grain's mean orientation, weight 1). CONVENTIONS.md: tensors
+    and velocities use ``area`` by default, fabric indices ``grain``.
+    """
+    if weighting not in ("area", "grain"):
+        raise ValueError(f"weighting must be 'area' or 'grain', not {weighting!r}")
+    p, g = sample.points, sample.grains
+    out = []
+    for k, m in enumerate(p.minerals):
+        if weighting == "grain" and g is not None:
+            sel = g.mineral_index == k
+            out.append((m, g.quat[sel], np.ones(int(sel.sum()))))
+        elif weighting == "grain":
+            sel = p.mineral_index == k
+            out.append((m, p.quat[sel], np.ones(int(sel.sum()))))
+        else:
+            sel = p.mineral_index == k
+            out.append((m, p.quat[sel], p.weights[sel]))
+    return out
+
+
 def summary(sample: Sample) -> dict:
     """The contents of ``summary.json`` (what is known at this stage)."""
     p = sample.points

@@ -197,3 +197,56 @@ def test_real_process_prints_no_traceback(tmp_path):
     out = subprocess.run([sys.executable, "-m", "fabric2seis", "sample", str(f), "--out", str(tmp_path / "o")],
                          capture_output=True, text=True)
     assert out.returncode == 2 and "Traceback" not in out.stderr and out.stderr.count("\n") == 1
+
+
+def test_weighting_area_uses_pixels_and_grain_gives_one_vote(tmp_path, small_map):
+    from fabric2seis.pipeline import ingest, orientation_sets
+    from fabric2seis.settings import settings_for
+    f = write_good_ang(tmp_path / "w.ang", small_map)
+    settings, src = settings_for(f)
+    sample = ingest(f, settings, src)
+    area = orientation_sets(sample, "area")
+    grain = orientation_sets(sample, "grain")
+    assert sum(len(q) for _, q, _ in area) == sample.points.quat.shape[0]
+    assert sum(len(q) for _, q, _ in grain) == sample.grains.n_grains
+    assert all(np.all(w == 1) for _, _, w in grain)
+    # areas add up: pixel weights of a mineral equal the areas of its grains (square unit pixels)
+    for k, (m, _, w) in enumerate(area):
+        assert w.sum() == pytest.approx(sample.grains.area[sample.grains.mineral_index == k].sum())
+
+
+def test_general_frame_rotation_and_refusal_of_non_rotations(tmp_path, capsys):
+    f = tmp_path / "r.csv"
+    f.write_text("phase,phi1,Phi,phi2\n" + "olivine,90,0,0\n" * 3)
+    (tmp_path / "r.yaml").write_text("frame: {rotation: [[0, 1, 0], [-1, 0, 0], [0, 0, 1]]}\n")
+    from fabric2seis.pipeline import ingest
+    from fabric2seis.settings import settings_for
+    from orix.quaternion import Rotation
+    from orix.vector import Vector3d
+    s, src = settings_for(f)
+    a_axis = (~Rotation(ingest(f, s, src).points.quat[:1])) * Vector3d.xvector()
+    assert np.allclose(a_axis.data[0], [1, 0, 0], atol=1e-9)  # sample +y is structural X
+    (tmp_path / "r.yaml").write_text("frame: {rotation: [[1, 1, 0], [0, 1, 0], [0, 0, 1]]}\n")
+    refuse(tmp_path, capsys, f, "proper rotation", named="r.yaml")
+
+
+def test_hexagonal_ang_header_is_honoured(tmp_path):
+    from fabric2seis.io import read_ebsd
+    from fabric2seis.synth import voronoi_map as vm
+    m = vm(6, 14, 12, step=1.0, grid="hex", seed=1)
+    f = tmp_path / "hex.ang"
+    # orix writes square grids only: write the points on a square layout, then put the hexagonal
+    # coordinates into the x, y columns (4th and 5th) and declare the grid as .ang headers do
+    sq = vm(6, 14, 12, step=1.0, seed=1)
+    write_ang(f, sq.x, sq.y, m.quat, np.ones(len(m.x), int), ["olivine"], ["mmm"])
+    lines = f.read_text().splitlines()
+    body = [l for l in lines if not l.startswith("#")]
+    head = [l for l in lines if l.startswith("#")]
+    for k, (x, y) in enumerate(zip(m.x, m.y)):
+        parts = body[k].split()
+        parts[3], parts[4] = f"{x:.5f}", f"{y:.5f}"
+        body[k] = " ".join(parts)
+    f.write_text("\n".join(["# GRID: HexGrid"] + head + body) + "\n")
+    d = read_ebsd(f)
+    assert d.grid == "hex" and d.pixel_area == pytest.approx(np.sqrt(3) / 2)
+    assert main(["sample", str(f), "--out", str(tmp_path / "o")]) == 0

@@ -10,7 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from fabric2seis.errors import InputError
-from fabric2seis.orientations import from_matrices, multiply
+from fabric2seis.orientations import from_matrices, right_matrix
 
 _AXES = {"x": 0, "y": 1, "z": 2}
 
@@ -39,4 +39,4 @@ def structural_matrix(frame: dict, source=None) -> np.ndarray:
 
 def to_structural(quat: np.ndarray, f: np.ndarray) -> np.ndarray:
     """Orientations (orix quaternions) re-expressed in the structural frame: g -> g F^T."""
-    return multiply(quat, from_matrices(f.T[None])[0])
+    return quat @ right_matrix(from_matrices(f.T[None])[0]).T

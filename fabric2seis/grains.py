@@ -4,7 +4,7 @@ Neighbours on the grid (4-connected square, 6-connected hexagonal) of the same m
 grain when their misorientation, the smallest over the crystal symmetry, is below the threshold;
 grains are the connected components of that graph. The mean orientation of a grain is the
 normalised sum of its pixels' quaternions after each pixel is brought to the symmetry variant
-nearest the grain's reference (twice: first against one pixel, then against the first mean).
+nearest the grain's first pixel.
 """
 
 from __future__ import annotations
@@ -17,7 +17,7 @@ from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
 from fabric2seis.minerals import Mineral
-from fabric2seis.orientations import misorientation_angles, nearest_equivalent, proper_symmetry_quaternions
+from fabric2seis.orientations import nearest_equivalent, proper_symmetry_quaternions, within_angle
 
 
 @dataclass
@@ -52,21 +52,27 @@ def grid_indices(x: np.ndarray, y: np.ndarray, grid: str, step: float) -> tuple[
 
 
 def neighbour_pairs(x: np.ndarray, y: np.ndarray, grid: str, step: float) -> tuple[np.ndarray, np.ndarray]:
-    """Index pairs (i, j) of grid neighbours, each pair once."""
+    """Index pairs (i, j) of grid neighbours, each pair once.
+
+    Points are placed in a dense table of grid cells (maps are nearly full rectangles), so finding
+    a neighbour is a lookup, not a search.
+    """
     row, col = grid_indices(x, y, grid, step)
-    width = int(col.max()) + 3
-    key = row * width + col
-    order = np.argsort(key, kind="stable")
-    sorted_key = key[order]
+    n_rows, n_cols = int(row.max()) + 2, int(col.max()) + 3
+    if n_rows * n_cols > 8 * len(x) + 1024:
+        raise ValueError("map coordinates are too sparse for their step; check the file's step")
+    table = np.full((n_rows, n_cols), -1, dtype=np.int32)
+    table[row, col] = np.arange(len(x), dtype=np.int32)
     offsets = [(0, 2), (1, 1), (1, -1)] if grid == "hex" else [(0, 1), (1, 0)]
     first, second = [], []
     for dr, dc in offsets:
-        target = (row + dr) * width + (col + dc)
-        pos = np.searchsorted(sorted_key, target)
-        pos = np.minimum(pos, len(sorted_key) - 1)
-        hit = (sorted_key[pos] == target) & (col + dc >= 0)
-        first.append(np.flatnonzero(hit))
-        second.append(order[pos[hit]])
+        c = col + dc
+        ok = c >= 0
+        other = np.full(len(x), -1, dtype=np.int32)
+        other[ok] = table[row[ok] + dr, c[ok]]
+        hit = np.flatnonzero(other >= 0)
+        first.append(hit)
+        second.append(other[hit])
     return np.concatenate(first), np.concatenate(second)
 
 
@@ -77,14 +83,18 @@ def reconstruct(x, y, grid: str, step: float, quat: np.ndarray, mineral_index: n
     i, j = neighbour_pairs(x, y, grid, step)
     same = mineral_index[i] == mineral_index[j]
     i, j = i[same], j[same]
-    linked = np.zeros(len(i), dtype=bool)
     threshold = np.radians(threshold_deg)
-    for k, m in enumerate(minerals):
-        sel = mineral_index[i] == k
-        if sel.any():
-            sym = proper_symmetry_quaternions(m.symmetry)
-            linked[sel] = misorientation_angles(quat[i[sel]], quat[j[sel]], sym) < threshold
-    graph = coo_matrix((np.ones(int(linked.sum())), (i[linked], j[linked])), shape=(n, n))
+    if len(minerals) == 1:
+        linked = within_angle(quat[i], quat[j], proper_symmetry_quaternions(minerals[0].symmetry), threshold)
+    else:
+        linked = np.zeros(len(i), dtype=bool)
+        pair_mineral = mineral_index[i]
+        for k, m in enumerate(minerals):
+            sel = np.flatnonzero(pair_mineral == k)
+            if len(sel):
+                sym = proper_symmetry_quaternions(m.symmetry)
+                linked[sel] = within_angle(quat[i[sel]], quat[j[sel]], sym, threshold)
+    graph = coo_matrix((np.ones(int(linked.sum()), dtype=np.int8), (i[linked], j[linked])), shape=(n, n))
     _, label = connected_components(graph, directed=False)
     return grain_statistics(label, x, y, quat, mineral_index, minerals, pixel_area, step)
 
@@ -92,23 +102,25 @@ def reconstruct(x, y, grid: str, step: float, quat: np.ndarray, mineral_index: n
 def grain_statistics(label, x, y, quat, mineral_index, minerals, pixel_area, step) -> Grains:
     """Mean orientation, size and shape of every labelled grain."""
     # renumber grains by first appearance so results do not depend on the graph library
-    _, first, label = np.unique(label, return_index=True, return_inverse=True)
-    order = np.argsort(first)
-    rank = np.empty_like(order); rank[order] = np.arange(len(order))
-    label = rank[label]
-    first = first[order]
-    g = len(first)
+    g = int(label.max()) + 1
+    first = np.empty(g, dtype=np.int64)
+    first[label[::-1]] = np.arange(len(label) - 1, -1, -1)  # later writes win: the smallest index stays
+    if np.any(np.diff(first) < 0):
+        order = np.argsort(first)
+        rank = np.empty_like(order)
+        rank[order] = np.arange(g)
+        label, first = rank[label], first[order]
     grain_mineral = mineral_index[first]
-    mean = quat[first].copy()
-    for _ in range(2):
-        aligned = np.empty_like(quat)
-        for k, m in enumerate(minerals):
-            sel = mineral_index == k
-            if sel.any():
-                sym = proper_symmetry_quaternions(m.symmetry)
-                aligned[sel] = nearest_equivalent(quat[sel], mean[label[sel]], sym)
-        mean = np.stack([np.bincount(label, weights=aligned[:, c], minlength=g) for c in range(4)], axis=1)
-        mean /= np.linalg.norm(mean, axis=1, keepdims=True)
+    # One pass suffices: within a grain neighbours differ by less than the threshold, while
+    # symmetry variants of one orientation lie at least 60 degrees apart.
+    aligned = np.empty_like(quat)
+    for k, m in enumerate(minerals):
+        sel = mineral_index == k
+        if sel.any():
+            sym = proper_symmetry_quaternions(m.symmetry)
+            aligned[sel] = nearest_equivalent(quat[sel], quat[first][label[sel]], sym)
+    mean = np.stack([np.bincount(label, weights=aligned[:, c], minlength=g) for c in range(4)], axis=1)
+    mean /= np.linalg.norm(mean, axis=1, keepdims=True)
     count = np.bincount(label, minlength=g)
     cx = np.bincount(label, weights=x, minlength=g) / count
     cy = np.bincount(label, weights=y, minlength=g) / count

@@ -14,12 +14,32 @@ from orix.quaternion import Rotation
 
 def multiply(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """Hamilton product of quaternion arrays (broadcasting over leading axes)."""
-    a0, a1, a2, a3 = np.moveaxis(np.asarray(a, dtype=float), -1, 0)
-    b0, b1, b2, b3 = np.moveaxis(np.asarray(b, dtype=float), -1, 0)
-    return np.stack([a0 * b0 - a1 * b1 - a2 * b2 - a3 * b3,
-                     a0 * b1 + a1 * b0 + a2 * b3 - a3 * b2,
-                     a0 * b2 - a1 * b3 + a2 * b0 + a3 * b1,
-                     a0 * b3 + a1 * b2 - a2 * b1 + a3 * b0], axis=-1)
+    a = np.asarray(a, dtype=float)
+    b = np.asarray(b, dtype=float)
+    a0, a1, a2, a3 = a[..., 0], a[..., 1], a[..., 2], a[..., 3]
+    b0, b1, b2, b3 = b[..., 0], b[..., 1], b[..., 2], b[..., 3]
+    out = np.empty(np.broadcast_shapes(a.shape, b.shape))
+    out[..., 0] = a0 * b0 - a1 * b1 - a2 * b2 - a3 * b3
+    out[..., 1] = a0 * b1 + a1 * b0 + a2 * b3 - a3 * b2
+    out[..., 2] = a0 * b2 - a1 * b3 + a2 * b0 + a3 * b1
+    out[..., 3] = a0 * b3 + a1 * b2 - a2 * b1 + a3 * b0
+    return out
+
+
+def left_matrix(s: np.ndarray) -> np.ndarray:
+    """4x4 matrices L with ``s * q == L @ q`` (left multiplication by s), shape (..., 4, 4)."""
+    s = np.asarray(s, dtype=float)
+    a, b, c, d = s[..., 0], s[..., 1], s[..., 2], s[..., 3]
+    return np.stack([np.stack([a, -b, -c, -d], -1), np.stack([b, a, -d, c], -1),
+                     np.stack([c, d, a, -b], -1), np.stack([d, -c, b, a], -1)], -2)
+
+
+def right_matrix(p: np.ndarray) -> np.ndarray:
+    """4x4 matrices R with ``q * p == R @ q`` (right multiplication by p), shape (..., 4, 4)."""
+    p = np.asarray(p, dtype=float)
+    a, b, c, d = p[..., 0], p[..., 1], p[..., 2], p[..., 3]
+    return np.stack([np.stack([a, -b, -c, -d], -1), np.stack([b, a, d, -c], -1),
+                     np.stack([c, -d, a, b], -1), np.stack([d, c, -b, a], -1)], -2)
 
 
 def conjugate(q: np.ndarray) -> np.ndarray:
@@ -28,8 +48,23 @@ def conjugate(q: np.ndarray) -> np.ndarray:
 
 
 def proper_symmetry_quaternions(symmetry) -> np.ndarray:
-    """Quaternions (K, 4) of the proper rotations of an orix point-group Symmetry."""
-    return np.asarray(symmetry.proper_subgroup.data, dtype=float).reshape(-1, 4)
+    """Quaternions (K, 4) of the proper rotations of an orix point-group Symmetry (cached)."""
+    key = (symmetry.name, np.asarray(symmetry.data).round(12).tobytes())
+    if key not in _PROPER_CACHE:
+        _PROPER_CACHE[key] = np.asarray(symmetry.proper_subgroup.data, dtype=float).reshape(-1, 4)
+    return _PROPER_CACHE[key]
+
+
+_PROPER_CACHE: dict = {}
+
+
+def _equivalents(q: np.ndarray, sym: np.ndarray) -> np.ndarray:
+    """All symmetry-equivalents ``s_k * q`` (N, K, 4), as one matrix product."""
+    stacked = np.swapaxes(left_matrix(sym), 1, 2).transpose(1, 0, 2).reshape(4, -1)  # (4, 4K)
+    return (q @ stacked).reshape(len(q), len(sym), 4)
+
+
+_CHUNK = 1 << 18
 
 
 def misorientation_angles(qa: np.ndarray, qb: np.ndarray, sym: np.ndarray) -> np.ndarray:
@@ -37,26 +72,63 @@ def misorientation_angles(qa: np.ndarray, qb: np.ndarray, sym: np.ndarray) -> np
 
     Both crystals share the proper symmetry ``sym`` (K, 4). The angle of ``s_1 dq s_2`` depends
     only on ``s_2 s_1 dq`` up to conjugation, so the minimum over both crystals' operations is
-    the minimum over one: the largest |w| of ``s * dq`` over s, with ``dq = qb * conj(qa)``.
+    the minimum over one: the largest |w| of ``s * dq`` over s, with ``dq = qb * conj(qa)``; and
+    ``w(s * qb * conj(qa)) = (s * qb) . qa``, which needs no product with ``qa``.
     """
-    dq = multiply(qb, conjugate(qa))
-    # w of s * dq is s0 dq0 - s_vec . dq_vec: one (N, 4) @ (4, K) product
-    w = np.abs(dq @ (sym * np.array([1.0, -1.0, -1.0, -1.0])).T).max(axis=1)
-    return 2.0 * np.arccos(np.clip(w, 0.0, 1.0))
+    qa = np.asarray(qa, dtype=float)
+    qb = np.asarray(qb, dtype=float)
+    out = np.empty(len(qa))
+    for start in range(0, len(qa), _CHUNK):
+        stop = start + _CHUNK
+        w = np.abs(np.einsum("nkc,nc->nk", _equivalents(qb[start:stop], sym), qa[start:stop])).max(axis=1)
+        out[start:stop] = 2.0 * np.arccos(np.clip(w, 0.0, 1.0))
+    return out
+
+
+def within_angle(qa: np.ndarray, qb: np.ndarray, sym: np.ndarray, angle_rad: float) -> np.ndarray:
+    """Whether the misorientation of each pair is below ``angle_rad`` (no arc cosine needed).
+
+    Most neighbouring pixels of a map store the same symmetry variant, so the plain angle is
+    tried first and the symmetry operations only for the pairs it does not settle.
+    """
+    limit = np.cos(angle_rad / 2.0)
+    out = np.abs(np.einsum("nc,nc->n", qa, qb)) > limit
+    rest = np.flatnonzero(~out)
+    for start in range(0, len(rest), _CHUNK):
+        idx = rest[start:start + _CHUNK]
+        w = np.abs(np.einsum("nkc,nc->nk", _equivalents(qb[idx], sym), qa[idx])).max(axis=1)
+        out[idx] = w > limit
+    return out
+
+
+def smallest_operation_angle(sym: np.ndarray) -> float:
+    """Smallest rotation angle (radians) of the non-identity operations (pi for the trivial group)."""
+    w = np.abs(sym[:, 0])
+    w = w[w < 1.0 - 1e-9]
+    return float(2.0 * np.arccos(w.max())) if len(w) else np.pi
 
 
 def nearest_equivalent(q: np.ndarray, reference: np.ndarray, sym: np.ndarray) -> np.ndarray:
     """The symmetry-equivalent of each ``q`` (N, 4) closest to ``reference`` (N, 4), sign-aligned.
 
-    Used to bring the pixels of a grain to one variant before averaging.
+    Used to bring the pixels of a grain to one variant before averaging. An orientation within
+    half the smallest operation angle of its reference is its own nearest variant (every other
+    variant is at least that far), so only the others are searched.
     """
-    candidates = multiply(sym[None, :, :], q[:, None, :])  # (N, K, 4): s * q
-    dots = np.einsum("nkc,nc->nk", candidates, reference)
-    best = np.argmax(np.abs(dots), axis=1)
-    chosen = candidates[np.arange(len(q)), best]
-    sign = np.sign(dots[np.arange(len(q)), best])
-    sign[sign == 0] = 1.0
-    return chosen * sign[:, None]
+    q = np.asarray(q, dtype=float)
+    reference = np.asarray(reference, dtype=float)
+    dot = np.einsum("nc,nc->n", q, reference)
+    out = q * np.where(dot < 0, -1.0, 1.0)[:, None]
+    rest = np.flatnonzero(np.abs(dot) <= np.cos(smallest_operation_angle(sym) / 4.0))
+    for start in range(0, len(rest), _CHUNK):
+        idx = rest[start:start + _CHUNK]
+        candidates = _equivalents(q[idx], sym)
+        dots = np.einsum("nkc,nc->nk", candidates, reference[idx])
+        best = np.argmax(np.abs(dots), axis=1)
+        rows = np.arange(len(best))
+        sign = np.where(dots[rows, best] < 0, -1.0, 1.0)
+        out[idx] = candidates[rows, best] * sign[:, None]
+    return out
 
 
 def to_matrices(q: np.ndarray) -> np.ndarray:

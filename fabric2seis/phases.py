@@ -103,15 +103,19 @@ def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_mi
     lookup = np.full(max(phase_minerals) + 2, -1)
     for pid, m in phase_minerals.items():
         lookup[pid] = index_of[m.name]
-    mineral_index = lookup[data.phase_id[keep]]
-    if data.weights is not None:
-        weights = data.weights[keep]
-    else:
-        weights = np.full(int(keep.sum()), data.pixel_area if data.is_map else 1.0)
+    everything = bool(keep.all())
+
+    def kept(a):  # no copy when every point is kept (the common case for clean maps)
+        return a if (a is None or everything) else a[keep]
+
+    mineral_index = lookup[kept(data.phase_id)]
+    weights = kept(data.weights)
+    if weights is None:
+        weights = np.full(len(mineral_index), data.pixel_area if data.is_map else 1.0)
     return PointSet(
-        source=data.source, quat=data.quat[keep], mineral_index=mineral_index, minerals=minerals,
-        x=None if data.x is None else data.x[keep], y=None if data.y is None else data.y[keep],
-        weights=weights, n_read=data.n_points, n_unindexed=n_unindexed, n_low_quality=n_low)
+        source=data.source, quat=kept(data.quat), mineral_index=mineral_index, minerals=minerals,
+        x=kept(data.x), y=kept(data.y), weights=weights, n_read=data.n_points,
+        n_unindexed=n_unindexed, n_low_quality=n_low)
 
 
 def modal_fractions(mineral_index: np.ndarray, weights: np.ndarray, minerals: list[Mineral],

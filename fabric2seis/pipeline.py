@@ -71,8 +71,9 @@ def ingest(path: str | Path, settings: dict, settings_file: str | None = None, p
             from fabric2seis.errors import InputError
             raise InputError(f"no grain has grains.min_pixels = {settings['grains']['min_pixels']} pixels "
                              "or more", path, "key grains.min_pixels")
-        for field in ("quat", "mineral_index", "x", "y", "weights"):
-            setattr(points, field, getattr(points, field)[keep])
+        if not keep.all():
+            for field in ("quat", "mineral_index", "x", "y", "weights"):
+                setattr(points, field, getattr(points, field)[keep])
     measured = phases_mod.modal_fractions(points.mineral_index, points.weights, points.minerals)
     fractions = phases_mod.modal_fractions(points.mineral_index, points.weights, points.minerals,
                                            settings.get("modal_fractions"), settings_file)

@@ -43,3 +43,21 @@ def test_nearest_equivalent_is_an_equivalent_and_closest():
     assert np.allclose(misorientation_angles(near, q, sym), 0, atol=1e-7)  # same orientation
     plain = 2 * np.arccos(np.clip(np.abs(np.sum(near * ref, axis=1)), 0, 1))
     assert np.allclose(plain, misorientation_angles(near, ref, sym), atol=1e-9)  # no variant is closer
+
+
+def test_fast_paths_agree_with_the_full_symmetry_search():
+    # within_angle and nearest_equivalent skip the symmetry search where the plain angle settles
+    # it; mixing near pairs (fast path) and far or relabelled pairs (full path) must not matter.
+    from fabric2seis.orientations import within_angle
+    from fabric2seis.synth import scatter
+    rng = np.random.default_rng(4)
+    sym = proper_symmetry_quaternions(find_mineral("quartz").symmetry)
+    a = random_quaternions(2000, rng)
+    b = scatter(a, 6.0, rng)
+    b[::3] = multiply(sym[rng.integers(1, len(sym), 667)], b[::3])  # other variants, same crystal
+    b[1::7] = random_quaternions(len(b[1::7]), rng)
+    full = misorientation_angles(a, b, sym)
+    assert np.array_equal(within_angle(a, b, sym, np.radians(10)), full < np.radians(10))
+    near = nearest_equivalent(b, a, sym)
+    plain = 2 * np.arccos(np.clip(np.abs(np.sum(near * a, axis=1)), 0, 1))
+    assert np.allclose(plain, full, atol=1e-7)

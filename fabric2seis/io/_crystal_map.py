@@ -11,7 +11,12 @@ from fabric2seis.io.record import EBSDData, check_map
 def from_crystal_map(xmap, source, grid: str, step: float | None, first_data_line: int | None,
                      quality_names: dict[str, str]) -> EBSDData:
     """Build an EBSDData from ``xmap`` (all points, indexed or not)."""
-    quat = np.asarray(xmap.rotations.data, dtype=float).reshape(-1, 4)
+    # every point of a freshly read map is "in data"; orix's public .rotations would copy them
+    # through a mask, so take the stored rotations directly when that is the case
+    rotations = getattr(xmap, "_rotations", None)
+    if rotations is None or not np.all(xmap.is_in_data) or rotations.size != xmap.size:
+        rotations = xmap.rotations
+    quat = np.asarray(rotations.data, dtype=float).reshape(-1, 4)
     phase_id = np.asarray(xmap.phase_id, dtype=int).copy()
     bad = np.flatnonzero(~np.all(np.isfinite(quat), axis=1))
     if len(bad):

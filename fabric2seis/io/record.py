@@ -96,11 +96,14 @@ def check_map(x: np.ndarray, y: np.ndarray, source) -> None:
         raise InputError(f"a map needs at least two points, this one has {len(x)}", source)
     if not (np.all(np.isfinite(x)) and np.all(np.isfinite(y))):
         raise InputError("map coordinates are not all numbers", source)
-    xy = np.round(np.column_stack([x, y]), 6)
-    order = np.lexsort((xy[:, 1], xy[:, 0]))
-    dup = np.flatnonzero(np.all(np.diff(xy[order], axis=0) == 0, axis=1))
-    if len(dup):
-        i = order[dup[0] + 1]
+    # coordinates to integers at a resolution far below any step, then one sort of int64 keys
+    scale = 1e5 / max(np.ptp(x), np.ptp(y), 1e-12)
+    ix = np.rint((x - x.min()) * scale).astype(np.int64)
+    iy = np.rint((y - y.min()) * scale).astype(np.int64)
+    key = np.sort(iy * (int(ix.max()) + 1) + ix)
+    if np.any(key[1:] == key[:-1]):
+        dup_key = key[1:][key[1:] == key[:-1]][0]
+        i = int(np.flatnonzero(iy * (int(ix.max()) + 1) + ix == dup_key)[1])
         raise InputError(f"duplicate map coordinates x = {x[i]:g}, y = {y[i]:g} (point {i + 1}); "
                          "each point of a map must be at its own place", source)
 

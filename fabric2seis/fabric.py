@@ -1,0 +1,303 @@
+"""Fabric strength and shape: kernel ODF, J-index, pfJ, M-index, orientation-tensor eigenanalysis.
+
+Orientation density (ODF) estimate, in multiples of a uniform distribution (m.u.d.):
+
+    f(g) = sum_i w_i (1/|S|) sum_{s in S} K(g^-1 s g_i),     sum_i w_i = 1,
+
+with the de la Vallee Poussin kernel K(w) = C cos^(2 kappa)(w/2) of rotation angle w, whose
+halfwidth (K(h) = K(0)/2) sets kappa, normalised to integrate to 1 over SO(3) (Schaeben 1997);
+S are the proper rotations of the crystal's point group.
+
+J-index (Bunge 1982): J = integral of f^2 over SO(3) (uniform Haar measure of total 1), so a
+random fabric has J = 1. Since the integral of K(g^-1 a) K(g^-1 b) over g is the kernel's
+self-convolution Phi at the angle between a and b,
+
+    J = sum_ij w_i w_j (1/|S|) sum_{t in S} Phi(angle(g_i, t g_j)),
+
+a sum over pairs closer than Phi's support (screened by a matrix product of quaternions). Phi
+comes from the kernel's expansion in SO(3) characters, whose coefficients convolution squares.
+
+Pole figures: the density of an axial crystal direction h in the structural frame, normalised
+to 1 for uniform, smoothed by the pole figure image of the same kernel,
+(1 + kappa) ((1 + cos a)/2)^kappa (Schaeben 1997); pfJ is the mean of its square over the sphere.
+
+M-index (Skemer et al. 2005): half the summed absolute difference between the histogram of
+uncorrelated misorientation angles (random pairs of grains) and that of a random fabric of the
+same symmetry (computed once per point group with a fixed seed and cached), in 1-degree bins.
+"""
+
+from __future__ import annotations
+
+import functools
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.special import betaln, eval_legendre
+from scipy.spatial import cKDTree
+
+from fabric2seis.orientations import (misorientation_angles, multiply, proper_symmetry_quaternions,
+                                      to_matrices)
+
+M_INDEX_BIN_DEG = 1.0
+M_INDEX_PAIRS = 1_000_000
+RANDOM_DISTRIBUTION_PAIRS = 2_000_000
+RANDOM_DISTRIBUTION_SEED = 20050501
+
+
+# --- the kernel -------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Kernel:
+    """de la Vallee Poussin kernel of a halfwidth, its self-convolution and pole-figure image."""
+
+    halfwidth_deg: float
+
+    @property
+    def kappa(self) -> float:
+        return np.log(0.5) / (2.0 * np.log(np.cos(np.radians(self.halfwidth_deg) / 2.0)))
+
+    @property
+    def norm(self) -> float:
+        """C with integral of C cos^(2 kappa)(w/2) over SO(3) equal to 1: pi / (2 B(kappa + 1/2, 3/2))."""
+        return np.pi / (2.0 * np.exp(betaln(self.kappa + 0.5, 1.5)))
+
+    def value(self, angle_rad: np.ndarray) -> np.ndarray:
+        return self.norm * np.cos(np.asarray(angle_rad) / 2.0) ** (2.0 * self.kappa)
+
+    def pole_value(self, cos_angle: np.ndarray) -> np.ndarray:
+        """Pole-figure kernel (1 + kappa) ((1 + cos a)/2)^kappa, uniform = 1 on the sphere."""
+        return (1.0 + self.kappa) * ((1.0 + np.asarray(cos_angle)) / 2.0) ** self.kappa
+
+
+@functools.lru_cache(maxsize=16)
+def _self_convolution_table(halfwidth_deg: float) -> tuple[np.ndarray, np.ndarray, float]:
+    """Phi = K * K tabulated on [0, pi], and the angle beyond which it is negligible.
+
+    K = sum_l (2l+1) k_l chi_l with chi_l(w) = sin((2l+1) w/2) / sin(w/2) the characters of SO(3)
+    and k_l = (1/(2l+1)) integral K chi_l dg; then K * K = sum_l (2l+1) k_l^2 chi_l.
+    """
+    kernel = Kernel(halfwidth_deg)
+    n_l = int(np.ceil(kernel.kappa)) + 60
+    x, wq = np.polynomial.legendre.leggauss(max(600, 4 * n_l))
+    w = (x + 1.0) * np.pi / 2.0                     # nodes on [0, pi]
+    weights = wq * np.pi / 2.0 * (2.0 / np.pi) * np.sin(w / 2.0) ** 2   # Haar density of the angle
+    l = np.arange(n_l)[:, None]
+    chi = np.sin((2 * l + 1) * w / 2.0) / np.sin(w / 2.0)
+    k_l = (chi * (kernel.value(w) * weights)).sum(axis=1) / (2 * np.arange(n_l) + 1)
+    grid = np.linspace(0.0, np.pi, 4001)
+    safe = np.maximum(np.sin(grid / 2.0), 1e-300)
+    chi_grid = np.sin((2 * l + 1) * grid / 2.0) / safe
+    chi_grid[:, 0] = 2 * np.arange(n_l) + 1           # limit at w = 0
+    phi = ((2 * np.arange(n_l) + 1) * k_l ** 2) @ chi_grid
+    phi = np.maximum(phi, 0.0)
+    # support: where Phi has fallen below 1e-8 of its peak
+    cutoff = float(grid[np.flatnonzero(phi > 1e-8 * phi[0])[-1]])
+    return grid, phi, cutoff
+
+
+def self_convolution(halfwidth_deg: float, angle_rad: np.ndarray) -> np.ndarray:
+    grid, phi, _ = _self_convolution_table(float(halfwidth_deg))
+    return np.interp(angle_rad, grid, phi)
+
+
+# --- J-index ----------------------------------------------------------------------------------
+
+
+def j_index(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg: float = 10.0,
+            chunk: int = 2048) -> float:
+    """J-index (Bunge 1982) of the kernel ODF estimate; 1 for a uniform distribution.
+
+    Pairs are screened by |q_i . t q_j| = cos(angle/2) from one matrix product per block of
+    grains and symmetry operation; only pairs within Phi's support (tail mass below 1e-5) are
+    evaluated. The cost grows as N^2 |S| times a fast product, see benchmarks/fabric_indices.py.
+    """
+    sym = proper_symmetry_quaternions(symmetry)
+    q = np.asarray(quat, dtype=float)
+    w = np.asarray(weights, dtype=float) / np.sum(weights)
+    table_c, table_phi, cos_cut = _phi_by_cos_half(float(halfwidth_deg))
+    total = 0.0
+    moved = [multiply(t[None], q) for t in sym]
+    for start in range(0, len(q), chunk):
+        block, wb = q[start:start + chunk], w[start:start + chunk]
+        for m in moved:
+            c = np.abs(block @ m.T)                     # cos(angle/2) for every pair in the block
+            rows, cols = np.nonzero(c > cos_cut)
+            if len(rows):
+                total += np.sum(wb[rows] * w[cols] * np.interp(c[rows, cols], table_c, table_phi))
+    return float(total / len(sym))
+
+
+@functools.lru_cache(maxsize=16)
+def _phi_by_cos_half(halfwidth_deg: float) -> tuple[np.ndarray, np.ndarray, float]:
+    """Phi tabulated against cos(angle/2) (increasing), and the cos(angle/2) of its support edge."""
+    grid, phi, _ = _self_convolution_table(halfwidth_deg)
+    density = phi * (2.0 / np.pi) * np.sin(grid / 2.0) ** 2
+    mass = np.cumsum(density) * (grid[1] - grid[0])
+    edge = grid[np.argmax(mass > 1.0 - 1e-5)]
+    c = np.cos(grid / 2.0)[::-1]
+    return c, phi[::-1], float(np.cos(edge / 2.0))
+
+
+def odf_values(quat_at: np.ndarray, quat: np.ndarray, weights: np.ndarray, symmetry,
+               halfwidth_deg: float = 10.0) -> np.ndarray:
+    """f at orientations ``quat_at`` (m.u.d.), summing all grains (for checks and small sets)."""
+    sym = proper_symmetry_quaternions(symmetry)
+    kernel = Kernel(halfwidth_deg)
+    w = np.asarray(weights, dtype=float) / np.sum(weights)
+    out = np.zeros(len(quat_at))
+    for t in sym:
+        moved = multiply(t[None], quat)
+        cos_half = np.abs(quat_at @ moved.T)
+        out += (kernel.norm * np.clip(cos_half, 0, 1) ** (2.0 * kernel.kappa)) @ w
+    return out / len(sym)
+
+
+# --- poles --------------------------------------------------------------------------------------
+
+
+def pole_vectors(quat: np.ndarray, crystal_direction: np.ndarray, symmetry) -> np.ndarray:
+    """Unit pole vectors (N, m, 3) in the structural frame of all m axially distinct equivalents."""
+    ops = to_matrices(proper_symmetry_quaternions(symmetry))
+    h = crystal_direction / np.linalg.norm(crystal_direction)
+    variants = ops @ h                                    # (K, 3) in the crystal frame
+    distinct = []
+    for v in variants:
+        if not any(abs(abs(v @ u) - 1.0) < 1e-6 for u in distinct):
+            distinct.append(v)
+    distinct = np.array(distinct)
+    g = to_matrices(quat)                                 # v_crystal = g v_structural
+    return np.einsum("nji,mj->nmi", g, distinct)          # g^T h for each equivalent
+
+
+def orientation_tensor(poles: np.ndarray, weights: np.ndarray) -> np.ndarray:
+    """Weighted second-moment tensor of axial unit vectors (N, m, 3); trace 1."""
+    w = np.asarray(weights, dtype=float) / np.sum(weights)
+    return np.einsum("n,nmi,nmj->ij", w, poles, poles) / poles.shape[1]
+
+
+def eigen_analysis(tensor: np.ndarray) -> dict:
+    """Eigenvalues (descending, sum 1), eigenvectors, Woodcock (1977) K and C, Vollmer (1990) P, G, R."""
+    values, vectors = np.linalg.eigh(tensor)
+    values, vectors = values[::-1], vectors[:, ::-1]
+    values = np.clip(values, 1e-12, None)
+    values = values / values.sum()
+    l1, l2, l3 = values
+    return {
+        "eigenvalues": values, "eigenvectors": vectors.T,
+        "woodcock_K": float(np.log(l1 / l2) / np.log(l2 / l3)) if l2 > l3 * (1 + 1e-12) else float("inf"),
+        "woodcock_C": float(np.log(l1 / l3)),
+        "vollmer_P": float(l1 - l2), "vollmer_G": float(2.0 * (l2 - l3)), "vollmer_R": float(3.0 * l3),
+    }
+
+
+def ba_index(eigen_100: dict, eigen_010: dict) -> float:
+    """BA-index of olivine (Mainprice et al. 2014) from the Vollmer P and G of [100] and [010]."""
+    p010, g010 = eigen_010["vollmer_P"], eigen_010["vollmer_G"]
+    p100, g100 = eigen_100["vollmer_P"], eigen_100["vollmer_G"]
+    return 0.5 * (2.0 - p010 / (g010 + p010) - g100 / (g100 + p100))
+
+
+def hemisphere_cells(step_deg: float = 2.0) -> tuple[np.ndarray, np.ndarray]:
+    """Directions covering the hemisphere z <= 0 and the solid angle of each (summing to 2 pi)."""
+    edges = np.radians(np.arange(0.0, 90.0 + 1e-9, step_deg))
+    if edges[-1] < np.pi / 2 - 1e-9:
+        edges = np.append(edges, np.pi / 2)
+    dirs, areas = [], []
+    for lo, hi in zip(edges[:-1], edges[1:]):
+        ring = 2.0 * np.pi * (np.sin(hi) - np.sin(lo))      # plunge from lo to hi
+        mid = (lo + hi) / 2.0
+        count = max(1, int(round(2.0 * np.pi * np.cos(mid) / np.radians(step_deg))))
+        az = (np.arange(count) + 0.5) * 2.0 * np.pi / count
+        dirs.append(np.column_stack([np.cos(mid) * np.cos(az), np.cos(mid) * np.sin(az),
+                                     -np.full(count, np.sin(mid))]))
+        areas.append(np.full(count, ring / count))
+    return np.vstack(dirs), np.concatenate(areas)
+
+
+def pole_density(at: np.ndarray, poles: np.ndarray, weights: np.ndarray, halfwidth_deg: float = 10.0,
+                 bin_step_deg: float = 0.5) -> np.ndarray:
+    """Axial pole density (m.u.d.) at unit directions ``at`` (M, 3).
+
+    Poles are first binned on a fine hemisphere grid (``bin_step_deg``, far below the kernel
+    halfwidth), so the cost does not grow with the number of grains.
+    """
+    kernel = Kernel(halfwidth_deg)
+    w = np.repeat(np.asarray(weights, dtype=float) / np.sum(weights) / poles.shape[1], poles.shape[1])
+    p = poles.reshape(-1, 3)
+    p = np.where(p[:, 2:3] > 0, -p, p)                    # axial: fold onto z <= 0
+    cells, _ = hemisphere_cells(bin_step_deg)
+    nearest = cKDTree(np.vstack([cells, -cells])).query(p)[1] % len(cells)
+    mass = np.bincount(nearest, weights=w, minlength=len(cells))
+    used = np.flatnonzero(mass)
+    c = cells[used]
+    out = np.zeros(len(at))
+    for start in range(0, len(at), 2048):
+        cos = at[start:start + 2048] @ c.T
+        out[start:start + 2048] = 0.5 * (kernel.pole_value(cos) + kernel.pole_value(-cos)) @ mass[used]
+    return out
+
+
+def pf_j(poles: np.ndarray, weights: np.ndarray, halfwidth_deg: float = 10.0, step_deg: float = 1.0) -> tuple[float, float, np.ndarray]:
+    """pfJ (mean square pole density over the sphere), the maximum density and its direction."""
+    cells, area = hemisphere_cells(step_deg)
+    density = pole_density(cells, poles, weights, halfwidth_deg)
+    top = int(np.argmax(density))
+    return float(np.sum(density ** 2 * area) / np.sum(area)), float(density[top]), cells[top]
+
+
+# --- M-index ----------------------------------------------------------------------------------
+
+
+@functools.lru_cache(maxsize=32)
+def random_misorientation_histogram(symmetry_key: bytes, n_ops: int) -> np.ndarray:
+    """Histogram (fractions per 1-degree bin, 0-180) of misorientation angles of random pairs."""
+    sym = np.frombuffer(symmetry_key).reshape(n_ops, 4)
+    rng = np.random.default_rng(RANDOM_DISTRIBUTION_SEED)
+    counts = np.zeros(int(round(180 / M_INDEX_BIN_DEG)))
+    left = RANDOM_DISTRIBUTION_PAIRS
+    while left > 0:
+        n = min(left, 500_000)
+        a = _random_unit_quaternions(n, rng)
+        b = _random_unit_quaternions(n, rng)
+        counts += _histogram(misorientation_angles(a, b, sym))
+        left -= n
+    return counts / counts.sum()
+
+
+def random_distribution(symmetry) -> np.ndarray:
+    sym = proper_symmetry_quaternions(symmetry)
+    return random_misorientation_histogram(np.ascontiguousarray(sym).tobytes(), len(sym))
+
+
+def _random_unit_quaternions(n, rng):
+    q = rng.normal(size=(n, 4))
+    return q / np.linalg.norm(q, axis=1, keepdims=True)
+
+
+def _histogram(angles_rad: np.ndarray) -> np.ndarray:
+    bins = np.arange(0.0, 180.0 + M_INDEX_BIN_DEG / 2, M_INDEX_BIN_DEG)
+    return np.histogram(np.degrees(angles_rad), bins=bins)[0].astype(float)
+
+
+def uncorrelated_misorientations(quat: np.ndarray, symmetry, n_pairs: int = M_INDEX_PAIRS,
+                                 seed: int = 0) -> np.ndarray:
+    """Misorientation angles (rad) of random pairs of distinct grains (all pairs if fewer)."""
+    n = len(quat)
+    sym = proper_symmetry_quaternions(symmetry)
+    if n < 2:
+        raise ValueError("the M-index needs at least two grains")
+    if n * (n - 1) // 2 <= n_pairs:
+        i, j = np.triu_indices(n, k=1)
+    else:
+        rng = np.random.default_rng(seed)
+        i = rng.integers(0, n, n_pairs)
+        j = (i + rng.integers(1, n, n_pairs)) % n        # j != i
+    return misorientation_angles(quat[i], quat[j], sym)
+
+
+def m_index(quat: np.ndarray, symmetry, n_pairs: int = M_INDEX_PAIRS, seed: int = 0) -> float:
+    """M-index (Skemer et al. 2005) from uncorrelated misorientation angles, one orientation per grain."""
+    measured = _histogram(uncorrelated_misorientations(quat, symmetry, n_pairs, seed))
+    measured /= measured.sum()
+    return float(0.5 * np.abs(measured - random_distribution(symmetry)).sum())

@@ -129,6 +129,41 @@ def summary(sample: Sample) -> dict:
     }
 
 
+def fabric_stage(sample: Sample, progress=None) -> dict:
+    """Fabric indices per mineral (one point per grain unless settings say otherwise)."""
+    from fabric2seis import fabric
+
+    say = progress or (lambda _msg: None)
+    weighting = sample.settings.get("weighting") or "grain"
+    halfwidth = float(sample.settings["odf"]["halfwidth_deg"])
+    out = {}
+    for mineral, quat, weights in orientation_sets(sample, weighting):
+        if len(quat) < 2:
+            continue
+        say(f"fabric of {mineral.name} ({len(quat):,} {'grains' if weighting == 'grain' else 'points'})")
+        out[mineral.name] = {
+            "result": fabric.phase_fabric(mineral, quat, weights, weighting, halfwidth),
+            "convergence": fabric.convergence(mineral, quat, weights, halfwidth),
+            "orientations": (mineral, quat, weights),
+        }
+    return out
+
+
+def fabric_figures(folder: Path, sample: Sample, fabrics: dict) -> None:
+    from fabric2seis.fabric import default_poles
+    from fabric2seis.figures.poles import convergence_figure, inverse_pole_figures, pole_figures
+
+    if not fabrics:
+        return
+    halfwidth = float(sample.settings["odf"]["halfwidth_deg"])
+    weighting = next(iter(fabrics.values()))["result"].weighting
+    phases = [(m, q, w, default_poles(m)) for m, q, w in (f["orientations"] for f in fabrics.values())]
+    pole_figures(folder / "pole_figures", sample.name, phases, halfwidth, weighting)
+    inverse_pole_figures(folder / "inverse_pole_figures", sample.name, phases, halfwidth, weighting)
+    convergence_figure(folder / "fabric_convergence", sample.name,
+                       {name: f["convergence"] for name, f in fabrics.items()})
+
+
 def provenance(path: Path, sample: Sample) -> dict:
     import orix, numpy, scipy, pandas  # noqa: E401
     digest = hashlib.sha256(path.read_bytes()).hexdigest()
@@ -154,10 +189,16 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     settings, settings_file = settings_for(path, settings_path)
     out = Path(out_dir) if out_dir is not None else default_out_dir(path)
     sample = ingest(path, settings, settings_file, progress)
+    fabrics = fabric_stage(sample, progress)
+    report = summary(sample)
+    for name, f in fabrics.items():
+        report["phases"][name].update(f["result"].as_summary())
+        report["phases"][name]["j_levelled"] = f["convergence"]["j_levelled"]
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
     try:
-        _write_json(tmp / "summary.json", summary(sample))
+        _write_json(tmp / "summary.json", report)
+        fabric_figures(tmp, sample, fabrics)
         _write_json(tmp / "provenance.json", provenance(path, sample))
         if sample.grains is not None:
             grains_mod.grains_table(sample.grains, sample.points.minerals).to_csv(tmp / "grains.csv", index=False)

@@ -47,6 +47,13 @@ def test_map_gives_summary_grains_and_provenance(tmp_path, small_map, capsys):
     assert set(s["phases"]) == {"olivine", "enstatite"}
     assert sum(p["fraction"] for p in s["phases"].values()) == pytest.approx(1.0)
     assert (tmp_path / "res" / "grains.csv").read_text().count("\n") == s["n_grains"] + 1
+    for mineral in ("olivine", "enstatite"):
+        phase = s["phases"][mineral]
+        assert {"J", "M", "pfJ", "eigen"} <= set(phase) and phase["J"] >= 1.0  # CONTRACT.md keys
+        assert set(phase["pfJ"]) == {"[100]", "[010]", "[001]"} and phase["fabric_weighting"] == "grain"
+    for figure in ("pole_figures", "inverse_pole_figures", "fabric_convergence"):
+        assert (tmp_path / "res" / f"{figure}.png").stat().st_size > 1000
+        assert (tmp_path / "res" / f"{figure}.pdf").exists()
     prov = json.loads((tmp_path / "res" / "provenance.json").read_text())
     assert len(prov["input_sha256"]) == 64 and prov["settings"]["grains"]["threshold_deg"] == 10.0
 

@@ -1,0 +1,194 @@
+"""Fabric indices against their published definitions and independent computations."""
+
+import numpy as np
+import pytest
+from scipy.integrate import quad
+
+from fabric2seis import fabric
+from fabric2seis.minerals import find_mineral
+from fabric2seis.orientations import multiply, proper_symmetry_quaternions
+from fabric2seis.synth import crystal_direction, fabric_orientations, ideal_orientation, random_quaternions
+
+OLIVINE = find_mineral("olivine")
+K_SYM = len(proper_symmetry_quaternions(OLIVINE.symmetry))
+
+
+def kernel_square_integral(halfwidth_deg):
+    """Integral of K^2 over SO(3) by quadrature over the rotation angle, Haar density (2/pi) sin^2(w/2)."""
+    k = fabric.Kernel(halfwidth_deg)
+    return quad(lambda w: k.value(w) ** 2 * (2 / np.pi) * np.sin(w / 2) ** 2, 0, np.pi, limit=400)[0]
+
+
+def test_kernel_is_normalised_and_has_its_halfwidth():
+    # de la Vallee Poussin kernel (Schaeben 1997): integral 1 over SO(3), K(h) = K(0)/2
+    k = fabric.Kernel(10.0)
+    assert quad(lambda w: k.value(w) * (2 / np.pi) * np.sin(w / 2) ** 2, 0, np.pi, limit=400)[0] == pytest.approx(1, rel=1e-9)
+    assert k.value(np.radians(10)) / k.value(0) == pytest.approx(0.5, rel=1e-12)
+    # its pole-figure image integrates to 1 over the sphere (uniform = 1)
+    assert quad(lambda t: k.pole_value(t) / 2, -1, 1)[0] == pytest.approx(1, rel=1e-9)
+
+
+def test_odf_estimate_integrates_to_one():
+    # f has mean 1 over SO(3) (m.u.d.): Monte Carlo over uniform rotations
+    rng = np.random.default_rng(3)
+    grains = fabric_orientations(OLIVINE, "olivine-A", 50, 20.0, seed=2)
+    at = random_quaternions(200000, rng)
+    f = fabric.odf_values(at, grains, np.ones(50), OLIVINE.symmetry)
+    assert f.mean() == pytest.approx(1.0, abs=4 * f.std() / np.sqrt(len(f)))
+
+
+def test_single_orientation_gives_the_j_of_the_kernel_and_m_near_one():
+    # All grains identical: f is the kernel averaged over the |S| equivalents, so J is the integral
+    # of K^2 divided by |S| (the equivalents of an orthorhombic crystal are 180 degrees apart and do
+    # not overlap). The integral is computed here by direct quadrature, independently of the
+    # character expansion the package uses.
+    q = np.tile(ideal_orientation(OLIVINE, "[100]", "[010]"), (400, 1))
+    j = fabric.j_index(q, np.ones(400), OLIVINE.symmetry, 10.0)
+    assert j == pytest.approx(kernel_square_integral(10.0) / K_SYM, rel=1e-6)
+    assert fabric.m_index(q, OLIVINE.symmetry) > 0.97   # Skemer et al. (2005): M -> 1 for a single crystal
+
+
+def test_random_fabric_of_20000_grains():
+    """J, pfJ, M and eigenvalues of a random fabric (Bunge 1982; Skemer et al. 2005; Woodcock 1977).
+
+    Finite-sample bias of J: with f the kernel estimate of N independent uniform grains,
+    E[J] = 1 + (J_1 - 1)/N, where J_1 = J of one grain (the self-pair terms); the pair terms are a
+    U-statistic of zero mean with standard deviation about sqrt(2 var(Phi_S)) / N. We allow five
+    standard deviations around the expected value.
+    """
+    n = 20000
+    q = random_quaternions(n, np.random.default_rng(11))
+    j = fabric.j_index(q, np.ones(n), OLIVINE.symmetry, 10.0)
+    j1 = kernel_square_integral(10.0) / K_SYM
+    grid, phi, _ = fabric._self_convolution_table(10.0)
+    haar = (2 / np.pi) * np.sin(grid / 2) ** 2
+    var_phi_s = np.trapezoid(phi ** 2 * haar, grid) / K_SYM - 1.0     # Phi averaged over S, non-overlapping
+    sigma = np.sqrt(2 * var_phi_s) / n
+    expected = 1 + (j1 - 1) / n
+    assert expected - 1 == pytest.approx(0.00687, abs=2e-4)            # the bias itself: 0.7 % at 20,000
+    assert abs(j - expected) < 5 * sigma
+    for label in ("[100]", "[010]", "[001]"):
+        v = fabric.pole_vectors(q, crystal_direction(OLIVINE, label), OLIVINE.symmetry)
+        pfj, _, _ = fabric.pf_j(v, np.ones(n))
+        assert pfj == pytest.approx(1.0, abs=0.02)
+        e = fabric.eigen_analysis(fabric.orientation_tensor(v, np.ones(n)))
+        assert np.allclose(e["eigenvalues"], 1 / 3, atol=0.01)
+    assert fabric.m_index(q, OLIVINE.symmetry) < 0.02
+
+
+def test_j_agrees_with_brute_force_all_pairs_on_5000_grains():
+    # The same definition summed over every pair and symmetry operation, no support cut-off.
+    n = 5000
+    q = fabric_orientations(OLIVINE, "olivine-A", n, 25.0, seed=5)
+    w = np.random.default_rng(6).uniform(0.5, 1.5, n)
+    fast = fabric.j_index(q, w, OLIVINE.symmetry, 10.0)
+    wn = w / w.sum()
+    total = 0.0
+    for t in proper_symmetry_quaternions(OLIVINE.symmetry):
+        moved = multiply(t[None], q)
+        for start in range(0, n, 1000):
+            c = np.clip(np.abs(q[start:start + 1000] @ moved.T), 0, 1)
+            total += wn[start:start + 1000] @ fabric.self_convolution(10.0, 2 * np.arccos(c)) @ wn
+    brute = total / K_SYM
+    assert fast == pytest.approx(brute, rel=1e-3)
+
+
+def test_mackenzie_limits_of_random_misorientation_distributions():
+    # Mackenzie (1958): cubic (m-3m) random misorientations end at 62.8 degrees with the mode near
+    # 45 degrees; orthorhombic (mmm) ones reach 120 degrees (common practice, e.g. Morawiec 2004).
+    cubic = fabric.random_distribution(find_mineral("pyrope").symmetry)
+    centres = np.arange(len(cubic)) + 0.5
+    assert centres[np.flatnonzero(cubic)[-1]] == pytest.approx(62.5, abs=0.6)
+    assert 42 <= centres[np.argmax(cubic)] <= 47
+    ortho = fabric.random_distribution(OLIVINE.symmetry)
+    assert centres[np.flatnonzero(ortho)[-1]] == pytest.approx(119.5, abs=1.0)
+    assert cubic.sum() == pytest.approx(1) and ortho.sum() == pytest.approx(1)
+
+
+def _about_z(n, rng):
+    """Rotations of the structural frame about Z by uniform angles (for fibre fabrics)."""
+    angle = rng.uniform(0, 2 * np.pi, n)
+    return np.column_stack([np.cos(angle / 2), np.zeros(n), np.zeros(n), np.sin(angle / 2)])
+
+
+def _about_x(n, rng):
+    angle = rng.uniform(0, 2 * np.pi, n)
+    return np.column_stack([np.cos(angle / 2), np.sin(angle / 2), np.zeros(n), np.zeros(n)])
+
+
+def eigen_of(q, label):
+    v = fabric.pole_vectors(q, crystal_direction(OLIVINE, label), OLIVINE.symmetry)
+    return fabric.eigen_analysis(fabric.orientation_tensor(v, np.ones(len(q))))
+
+
+def test_point_girdle_and_random_fall_in_their_diagram_fields():
+    # Woodcock (1977): clusters have K > 1, girdles K < 1. Vollmer (1990): P, G, R sum to 1 and
+    # the largest names the field (point, girdle, random).
+    rng = np.random.default_rng(7)
+    base = ideal_orientation(OLIVINE, "[100]", "[010]")
+    point = fabric_orientations(OLIVINE, "olivine-A", 3000, 8.0, seed=1)
+    girdle = multiply(np.tile(base, (3000, 1)), _about_z(3000, rng))   # [100] spread in the XY plane
+    rand = random_quaternions(3000, rng)
+    p, g, r = eigen_of(point, "[100]"), eigen_of(girdle, "[100]"), eigen_of(rand, "[100]")
+    assert p["woodcock_K"] > 1 and g["woodcock_K"] < 1
+    for e in (p, g, r):
+        assert e["vollmer_P"] + e["vollmer_G"] + e["vollmer_R"] == pytest.approx(1)
+    assert max("PGR", key=lambda k: p[f"vollmer_{k}"]) == "P"
+    assert max("PGR", key=lambda k: g[f"vollmer_{k}"]) == "G"
+    assert max("PGR", key=lambda k: r[f"vollmer_{k}"]) == "R"
+    assert r["woodcock_C"] < 0.2 < p["woodcock_C"]  # strength: random weakest
+
+
+def test_ba_index_of_fibres_and_point_fabric():
+    # Mainprice et al. (2014): BA near 0 for a [010]-fibre (axial-[010]), near 1 for a [100]-fibre
+    # (axial-[100]), near 0.5 for an orthorhombic point fabric.
+    rng = np.random.default_rng(8)
+    base = np.tile(ideal_orientation(OLIVINE, "[100]", "[010]"), (3000, 1))   # a on X, b on Z
+    b_fibre = multiply(base, _about_z(3000, rng))      # b fixed on Z, a anywhere in XY
+    a_fibre = multiply(base, _about_x(3000, rng))      # a fixed on X, b anywhere in YZ
+
+    def ba(q):
+        return fabric.ba_index(eigen_of(q, "[100]"), eigen_of(q, "[010]"))
+
+    assert ba(b_fibre) < 0.1
+    assert ba(a_fibre) > 0.9
+    assert ba(fabric_orientations(OLIVINE, "olivine-A", 3000, 5.0, seed=9)) == pytest.approx(0.5, abs=0.05)
+
+
+def test_relabelling_by_symmetry_changes_no_index():
+    q = fabric_orientations(OLIVINE, "olivine-B", 800, 20.0, seed=4)
+    sym = proper_symmetry_quaternions(OLIVINE.symmetry)
+    pick = np.random.default_rng(1).integers(0, len(sym), len(q))
+    relabelled = multiply(sym[pick], q)
+    w = np.ones(len(q))
+    a = fabric.phase_fabric(OLIVINE, q, w, "grain").as_summary()
+    b = fabric.phase_fabric(OLIVINE, relabelled, w, "grain").as_summary()
+    for key in ("J", "M", "BA"):
+        assert a[key] == pytest.approx(b[key], rel=1e-6)
+    for label in a["pfJ"]:
+        assert a["pfJ"][label] == pytest.approx(b["pfJ"][label], rel=1e-6)
+        assert a["eigen"][label] == pytest.approx(b["eigen"][label], abs=1e-6)
+
+
+def test_a_type_fabric_has_its_maxima_on_the_structural_axes():
+    # A-type olivine (Karato et al. 2008): [100] maximum on X (lineation), [010] on Z.
+    q = fabric_orientations(OLIVINE, "olivine-A", 1000, 12.0, seed=3)
+    s = fabric.phase_fabric(OLIVINE, q, np.ones(1000), "grain").as_summary()
+    assert abs(s["max_pole_direction"]["[100]"][0]) > 0.99
+    assert abs(s["max_pole_direction"]["[010]"][2]) > 0.99
+
+
+def test_pole_density_is_one_for_uniform_poles():
+    cells, area = fabric.hemisphere_cells(1.0)
+    assert area.sum() == pytest.approx(2 * np.pi, rel=1e-12)
+    q = random_quaternions(5000, np.random.default_rng(2))
+    v = fabric.pole_vectors(q, crystal_direction(OLIVINE, "[100]"), OLIVINE.symmetry)
+    d = fabric.pole_density(cells, v, np.ones(5000))
+    assert np.sum(d * area) / np.sum(area) == pytest.approx(1.0, abs=1e-3)
+
+
+def test_convergence_reports_nested_subsets():
+    q = fabric_orientations(OLIVINE, "olivine-A", 1200, 15.0, seed=2)
+    c = fabric.convergence(OLIVINE, q, np.ones(1200))
+    assert [r["n"] for r in c["rows"]] == [100, 200, 500, 1000, 1200]
+    assert isinstance(c["j_levelled"], bool)

@@ -164,6 +164,36 @@ def fabric_figures(folder: Path, sample: Sample, fabrics: dict) -> None:
                        {name: f["convergence"] for name, f in fabrics.items()})
 
 
+def seismic_stage(sample: Sample, progress=None) -> dict:
+    """Aggregate tensor, velocity grid and the seismic part of the summary."""
+    from fabric2seis import seismic
+    from fabric2seis.minerals import dauphine_average
+
+    say = progress or (lambda _msg: None)
+    st = sample.settings
+    weighting = st.get("weighting") or "area"
+    sets = orientation_sets(sample, weighting)
+    crystal = {}
+    if st.get("dauphine", "average") == "average":
+        crystal = {m.name: dauphine_average(m) for m, _, _ in sets if m.symmetry.laue.name in ("-3m", "-3")
+                   and (st["conditions"]["pressure_gpa"] == 0 and st["conditions"]["temperature_c"] == 25.0)}
+    say(f"elastic tensor ({weighting} weighting, {st['averaging']} average)")
+    cond = st["conditions"]
+    agg = seismic.aggregate(sets, sample.fractions, st["averaging"], cond["pressure_gpa"], cond["temperature_c"],
+                            bool(cond.get("allow_ambient_constants", False)), crystal)
+    say("velocities on the hemisphere grid")
+    grid = seismic.velocity_grid(agg.stiffness, agg.density_kg_m3, float(st.get("velocity_grid_step_deg", 1.0)))
+    summary = seismic.seismic_summary(grid, agg.average)
+    summary["weighting"] = weighting
+    summary["along_axes"] = seismic.along_axes(agg.stiffness, agg.density_kg_m3)
+    summary["dauphine"] = st.get("dauphine", "average") if any(
+        m.symmetry.laue.name in ("-3m", "-3") for m, _, _ in sets) else None
+    along_z = seismic.splitting_along(agg.stiffness, agg.density_kg_m3)
+    return {"aggregate": agg, "grid": grid, "seismic": summary,
+            "splitting": {"along_z": {k: along_z[k] for k in ("fast_polarisation_from_x_deg", "delay_s_per_100km")},
+                          "field": None}}
+
+
 def provenance(path: Path, sample: Sample) -> dict:
     import orix, numpy, scipy, pandas  # noqa: E401
     digest = hashlib.sha256(path.read_bytes()).hexdigest()
@@ -190,15 +220,29 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     out = Path(out_dir) if out_dir is not None else default_out_dir(path)
     sample = ingest(path, settings, settings_file, progress)
     fabrics = fabric_stage(sample, progress)
+    seis = seismic_stage(sample, progress)
     report = summary(sample)
     for name, f in fabrics.items():
         report["phases"][name].update(f["result"].as_summary())
         report["phases"][name]["j_levelled"] = f["convergence"]["j_levelled"]
+    agg = seis["aggregate"]
+    report["density_kg_m3"] = round(agg.density_kg_m3, 3)
+    report["conditions"] = dict(settings["conditions"])
+    report["seismic"] = seis["seismic"]
+    report["splitting"] = seis["splitting"]
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
     try:
         _write_json(tmp / "summary.json", report)
         fabric_figures(tmp, sample, fabrics)
+        _write_json(tmp / "stiffness.json", {
+            **{k: np.round(v, 6).tolist() for k, v in agg.tensors.items()},
+            "density_kg_m3": round(agg.density_kg_m3, 3), "units": "GPa, Voigt order 11 22 33 23 13 12",
+            "frame": "structural (X lineation, Z foliation normal)", "used_for_velocities": agg.average})
+        seis["grid"].table().to_csv(tmp / "velocities.csv", index=False)
+        from fabric2seis.figures.velocities import velocity_figure
+        velocity_figure(tmp / "velocities", sample.name, agg.stiffness, agg.density_kg_m3, agg.average,
+                        int(report["n_grains"]))
         _write_json(tmp / "provenance.json", provenance(path, sample))
         if sample.grains is not None:
             grains_mod.grains_table(sample.grains, sample.points.minerals).to_csv(tmp / "grains.csv", index=False)

@@ -27,7 +27,8 @@ DATA_DIR = Path(__file__).with_name("data")
 
 _REQUIRED = ("name", "point_group", "density_kg_m3", "lattice", "published_axes", "cij_gpa",
              "source", "from_memory")
-_OPTIONAL = ("aliases", "unique_axis", "pressure_derivatives", "temperature_derivatives", "notes")
+_OPTIONAL = ("aliases", "unique_axis", "pressure_derivatives", "temperature_derivatives", "notes",
+             "equation_of_state")
 _AXIS_NAMES = ("a", "b", "c", "a*", "b*", "c*")
 #: absolute tolerance (GPa) for the symmetry check: published constants are rounded to 0.1 GPa
 SYMMETRY_TOLERANCE_GPA = 0.06
@@ -60,6 +61,8 @@ class Mineral:
     dcij_dt_gpa_per_k: np.ndarray | None = None
     temperature_source: str | None = None
     derivatives_from_memory: tuple[str, ...] = ()
+    d2cij_dp2: np.ndarray | None = None
+    eos: dict | None = None
     notes: str = ""
     file: str = ""
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
@@ -212,6 +215,16 @@ def load_mineral_file(path: str | Path) -> Mineral:
         return m_orix, str(block["source"]), bool(block.get("from_memory", True))
 
     dp, dp_src, dp_mem = derivative("pressure_derivatives", "dcij_dp")
+    d2p = None
+    if dp is not None and "d2cij_dp2" in entry["pressure_derivatives"]:
+        m2 = _matrix(entry["pressure_derivatives"], "d2cij_dp2", src)
+        d2p = rotate_voigt(m2, rot)
+    eos = entry.get("equation_of_state")
+    if eos is not None:
+        allowed = {"k0_gpa", "k0_prime", "thermal_expansion_per_k", "source", "from_memory"}
+        if not isinstance(eos, dict) or set(eos) - allowed or "source" not in eos:
+            raise InputError(f"equation_of_state takes {', '.join(sorted(allowed))} and needs a source",
+                             src, "equation_of_state")
     dt, dt_src, dt_mem = derivative("temperature_derivatives", "dcij_dt_gpa_per_k")
     deriv_mem = tuple(k for k, m in (("pressure_derivatives", dp_mem),
                                        ("temperature_derivatives", dt_mem)) if m)
@@ -227,7 +240,8 @@ def load_mineral_file(path: str | Path) -> Mineral:
         cij_published_gpa=published, setting_rotation=rot, stiffness_gpa=stiffness,
         source=str(entry["source"]), from_memory=tuple(memory),
         dcij_dp=dp, pressure_source=dp_src, dcij_dt_gpa_per_k=dt, temperature_source=dt_src,
-        derivatives_from_memory=deriv_mem, notes=str(entry.get("notes", "")).strip(), file=src)
+        derivatives_from_memory=deriv_mem, d2cij_dp2=d2p, eos=eos,
+        notes=str(entry.get("notes", "")).strip(), file=src)
 
 
 def load_library(extra_dirs: Iterable[str | Path] = ()) -> dict[str, Mineral]:

@@ -1,0 +1,80 @@
+"""Single-crystal constants and density at pressure and temperature.
+
+Method (common practice for aggregate seismic properties):
+
+* C_ij(P, T) = C_ij0 + (dC_ij/dP) P + (1/2)(d2C_ij/dP2) P^2 + (dC_ij/dT)(T - 25 C), with the
+  library's derivatives (first order, plus second-order pressure terms where the source gives them);
+* density: thermal expansion at zero pressure, rho(T) = rho0 exp(-alpha (T - 25 C)), then the
+  third-order Birch-Murnaghan equation of state at the temperature's density,
+  P = 3 K0 / 2 (x^7 - x^5) (1 + 3/4 (K0' - 4)(x^2 - 1)), x = (rho / rho(T))^(1/3).
+
+Limits: derivatives are taken as constant, so cross terms (d2C/dPdT) and the temperature
+dependence of K0 are ignored; the constants of the source stand for all compositions of the
+mineral; melt, cracks and anelasticity are not modelled. Beyond about 10 GPa or 1000 C the
+extrapolation grows uncertain. A mineral without the derivatives needed is refused unless the
+settings accept ambient values for it (``conditions.allow_ambient_constants``).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy.optimize import brentq
+
+from fabric2seis.elastic import check_stiffness, reuss_moduli
+from fabric2seis.errors import InputError
+
+AMBIENT_C = 25.0
+
+
+def birch_murnaghan_pressure(x: float, k0_gpa: float, k0_prime: float) -> float:
+    """Third-order Birch-Murnaghan pressure (GPa) at x = (rho / rho0)^(1/3)."""
+    return 1.5 * k0_gpa * (x ** 7 - x ** 5) * (1.0 + 0.75 * (k0_prime - 4.0) * (x ** 2 - 1.0))
+
+
+def density_at(rho0: float, pressure_gpa: float, temperature_c: float, k0_gpa: float, k0_prime: float,
+               alpha_per_k: float) -> float:
+    """Density (kg/m^3) by thermal expansion then third-order Birch-Murnaghan compression."""
+    rho_t = rho0 * np.exp(-alpha_per_k * (temperature_c - AMBIENT_C))
+    if pressure_gpa == 0:
+        return float(rho_t)
+    x = brentq(lambda s: birch_murnaghan_pressure(s, k0_gpa, k0_prime) - pressure_gpa, 1.0, 1.5)
+    return float(rho_t * x ** 3)
+
+
+def at_conditions(mineral, pressure_gpa: float, temperature_c: float,
+                  allow_ambient: bool = False) -> tuple[np.ndarray, float]:
+    """(stiffness in orix's crystal frame, density) of ``mineral`` at P (GPa) and T (C)."""
+    c = mineral.stiffness_gpa.copy()
+    notes = []
+    if pressure_gpa != 0:
+        if mineral.dcij_dp is None:
+            if not allow_ambient:
+                raise InputError(f"mineral '{mineral.name}' has no pressure derivatives in the library, so "
+                                 f"its constants cannot be brought to {pressure_gpa} GPa; set "
+                                 "conditions.allow_ambient_constants: true to use ambient values for it",
+                                 where="key conditions.pressure_gpa")
+            notes.append("ambient constants")
+        else:
+            c = c + mineral.dcij_dp * pressure_gpa
+            if mineral.d2cij_dp2 is not None:
+                c = c + 0.5 * mineral.d2cij_dp2 * pressure_gpa ** 2
+    if temperature_c != AMBIENT_C:
+        if mineral.dcij_dt_gpa_per_k is None:
+            if not allow_ambient:
+                raise InputError(f"mineral '{mineral.name}' has no temperature derivatives in the library, so "
+                                 f"its constants cannot be brought to {temperature_c} C; set "
+                                 "conditions.allow_ambient_constants: true to use ambient values for it",
+                                 where="key conditions.temperature_c")
+        else:
+            c = c + mineral.dcij_dt_gpa_per_k * (temperature_c - AMBIENT_C)
+    c = check_stiffness(c, f"mineral {mineral.name} at {pressure_gpa} GPa, {temperature_c} C")
+    eos = mineral.eos or {}
+    k0 = eos.get("k0_gpa") or reuss_moduli(mineral.stiffness_gpa)[0]
+    k0_prime = eos.get("k0_prime", 4.0)
+    alpha = eos.get("thermal_expansion_per_k")
+    if alpha is None:
+        if temperature_c != AMBIENT_C and not allow_ambient:
+            raise InputError(f"mineral '{mineral.name}' has no thermal expansion in the library; set "
+                             "conditions.allow_ambient_constants: true to ignore it", where="key conditions.temperature_c")
+        alpha = 0.0
+    return c, density_at(mineral.density_kg_m3, pressure_gpa, temperature_c, k0, k0_prime, alpha)

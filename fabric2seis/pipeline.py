@@ -188,6 +188,8 @@ def seismic_stage(sample: Sample, progress=None) -> dict:
     summary["along_axes"] = seismic.along_axes(agg.stiffness, agg.density_kg_m3)
     summary["dauphine"] = st.get("dauphine", "average") if any(
         m.symmetry.laue.name in ("-3m", "-3") for m, _, _ in sets) else None
+    from fabric2seis.decomposition import decomposition_summary
+    summary["decomposition"] = decomposition_summary(agg.stiffness, agg.density_kg_m3)
     along_z = seismic.splitting_along(agg.stiffness, agg.density_kg_m3)
     return {"aggregate": agg, "grid": grid, "seismic": summary,
             "splitting": {"along_z": {k: along_z[k] for k in ("fast_polarisation_from_x_deg", "delay_s_per_100km")},

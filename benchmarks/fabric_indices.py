@@ -323,8 +323,8 @@ def part_two(args, olivine) -> tuple[list[str], bool]:
         f"(1 run){note}")
     say(f"  second call, histogram taken from the cache:                  {second.seconds:8.3f} s  "
         f"({second.runs_text})")
-    say(f"  M-index = {first_value:.5f} (second call {second.result:.5f}; about 0 expected "
-        "for random grains)")
+    say(f"  M-index = {first_value:.5f} (second call {second.result:.5f}); for random grains "
+        "only sampling noise, so close to 0")
     say()
     target = (f"  {'misorientation angles, orix / fabric2seis':<52} {ratio:7.1f}x  "
               f"(target >= {TARGET_SPEEDUP_OVER_ORIX:.0f}x): {verdict(ratio >= TARGET_SPEEDUP_OVER_ORIX)}")

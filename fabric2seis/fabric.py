@@ -104,6 +104,35 @@ def self_convolution(halfwidth_deg: float, angle_rad: np.ndarray) -> np.ndarray:
 # --- J-index ----------------------------------------------------------------------------------
 
 
+def j_pair_matrix(quat: np.ndarray, symmetry, halfwidth_deg: float = 10.0, chunk: int = 2048):
+    """Sparse matrix A (N, N) with A_ij = (1/|S|) sum_t Phi(angle(g_i, t g_j)) over pairs in Phi's
+    support, so that J = w^T A w for normalised weights w (a quadratic form: a bootstrap resample
+    of grains only changes w)."""
+    from scipy.sparse import coo_matrix
+
+    sym = proper_symmetry_quaternions(symmetry)
+    q = np.asarray(quat, dtype=float)
+    n = len(q)
+    table_c, table_phi, cos_cut = _phi_by_cos_half(float(halfwidth_deg))
+    q32 = q.astype(np.float32)
+    screen = np.float32(cos_cut - 1e-5)
+    rows_all, cols_all, vals_all = [], [], []
+    for t in sym:
+        m = multiply(t[None], q)
+        m32 = m.T.astype(np.float32)
+        for start in range(0, n, chunk):
+            c = q32[start:start + chunk] @ m32
+            np.abs(c, out=c)
+            rows, cols = np.nonzero(c > screen)
+            exact = np.abs(np.einsum("nc,nc->n", q[rows + start], m[cols]))
+            keep = exact > cos_cut
+            rows_all.append(rows[keep] + start)
+            cols_all.append(cols[keep])
+            vals_all.append(np.interp(exact[keep], table_c, table_phi) / len(sym))
+    return coo_matrix((np.concatenate(vals_all), (np.concatenate(rows_all), np.concatenate(cols_all))),
+                      shape=(n, n)).tocsr()
+
+
 def j_index(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg: float = 10.0,
             chunk: int = 2048) -> float:
     """J-index (Bunge 1982) of the kernel ODF estimate; 1 for a uniform distribution.
@@ -274,8 +303,35 @@ def random_misorientation_histogram(symmetry_key: bytes, n_ops: int) -> np.ndarr
 
 
 def random_distribution(symmetry) -> np.ndarray:
-    sym = proper_symmetry_quaternions(symmetry)
-    return random_misorientation_histogram(np.ascontiguousarray(sym).tobytes(), len(sym))
+    """The random misorientation-angle histogram of a point group, cached in memory and on disk.
+
+    The disk cache (``$XDG_CACHE_HOME/fabric2seis``, default ``~/.cache/fabric2seis``) only saves
+    time; a missing or unwritable cache is recomputed, with the same fixed seed.
+    """
+    import hashlib
+    import os
+    from pathlib import Path
+
+    sym = np.ascontiguousarray(proper_symmetry_quaternions(symmetry))
+    key = hashlib.sha256(sym.round(10).tobytes() + f"{RANDOM_DISTRIBUTION_PAIRS}-{RANDOM_DISTRIBUTION_SEED}-"
+                         f"{M_INDEX_BIN_DEG}".encode()).hexdigest()[:20]
+    folder = Path(os.environ.get("XDG_CACHE_HOME", Path.home() / ".cache")) / "fabric2seis"
+    path = folder / f"random_misorientation_{key}.npy"
+    try:
+        cached = np.load(path)
+        if cached.shape == (int(round(180 / M_INDEX_BIN_DEG)),):
+            return cached
+    except (OSError, ValueError):
+        pass
+    hist = random_misorientation_histogram(sym.tobytes(), len(sym))
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        tmp = path.with_suffix(f".{os.getpid()}.tmp.npy")
+        np.save(tmp, hist)
+        os.replace(tmp, path)
+    except OSError:
+        pass
+    return hist
 
 
 def _random_unit_quaternions(n, rng):

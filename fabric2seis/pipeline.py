@@ -88,13 +88,20 @@ def orientation_sets(sample: Sample, weighting: str) -> list[tuple[object, np.nd
     ``area``: every pixel with its area (maps), or every row with its weight (grain lists);
     ``grain``: one vote per grain (the grain's mean orientation, weight 1). CONVENTIONS.md: tensors
     and velocities use ``area`` by default, fabric indices ``grain``.
+    ``grain_area`` (for the bootstrap): one orientation per grain, weighted by the grain's area.
     """
-    if weighting not in ("area", "grain"):
-        raise ValueError(f"weighting must be 'area' or 'grain', not {weighting!r}")
+    if weighting not in ("area", "grain", "grain_area"):
+        raise ValueError(f"weighting must be 'area', 'grain' or 'grain_area', not {weighting!r}")
     p, g = sample.points, sample.grains
     out = []
     for k, m in enumerate(p.minerals):
-        if weighting == "grain" and g is not None:
+        if weighting == "grain_area" and g is not None:
+            sel = g.mineral_index == k
+            out.append((m, g.quat[sel], g.area[sel]))
+        elif weighting == "grain_area":
+            sel = p.mineral_index == k
+            out.append((m, p.quat[sel], p.weights[sel]))
+        elif weighting == "grain" and g is not None:
             sel = g.mineral_index == k
             out.append((m, g.quat[sel], np.ones(int(sel.sum()))))
         elif weighting == "grain":
@@ -191,9 +198,40 @@ def seismic_stage(sample: Sample, progress=None) -> dict:
     from fabric2seis.decomposition import decomposition_summary
     summary["decomposition"] = decomposition_summary(agg.stiffness, agg.density_kg_m3)
     along_z = seismic.splitting_along(agg.stiffness, agg.density_kg_m3)
-    return {"aggregate": agg, "grid": grid, "seismic": summary,
+    return {"aggregate": agg, "grid": grid, "seismic": summary, "crystal_tensors": crystal,
             "splitting": {"along_z": {k: along_z[k] for k in ("fast_polarisation_from_x_deg", "delay_s_per_100km")},
                           "field": None}}
+
+
+def uncertainty_stage(sample: Sample, seis: dict, progress=None) -> dict:
+    """95 % bootstrap intervals (``bootstrap.n`` resamples of the grains, fixed seed)."""
+    from fabric2seis import uncertainty
+
+    n, seed = int(sample.settings["bootstrap"]["n"]), int(sample.settings["bootstrap"]["seed"])
+    if n == 0:
+        return {}
+    say = progress or (lambda _msg: None)
+    say(f"bootstrap: {n} resamples of the grains")
+    rng = np.random.default_rng(seed)
+    sets = [s for s in orientation_sets(sample, "grain_area") if len(s[1]) > 1]
+    counts = {m.name: uncertainty.resample_counts(len(q), n, rng) for m, q, _ in sets}
+    agg = seis["aggregate"]
+    values = uncertainty.seismic_bootstrap(sets, sample.fractions, agg.average, agg.density_kg_m3, counts,
+                                           seis.get("crystal_tensors"))
+    out = {k: uncertainty.interval(v) for k, v in values.items()}
+    main = max(sets, key=lambda s: sample.fractions[s[0].name])[0].name
+    halfwidth = float(sample.settings["odf"]["halfwidth_deg"])
+    for m, q, w in sets:
+        f = uncertainty.fabric_bootstrap(m, q, np.ones(len(q)), counts[m.name], halfwidth, rng)
+        for key, v in f.items():
+            if v is not None:
+                out[f"{m.name}.{key}"] = uncertainty.interval(v)
+                if m.name == main:
+                    out[key] = out[f"{m.name}.{key}"]
+    out["resamples"] = n
+    out["seed"] = seed
+    out["main_phase"] = main
+    return out
 
 
 def provenance(path: Path, sample: Sample) -> dict:
@@ -232,6 +270,7 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     report["conditions"] = dict(settings["conditions"])
     report["seismic"] = seis["seismic"]
     report["splitting"] = seis["splitting"]
+    report["uncertainty"] = uncertainty_stage(sample, seis, progress)
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
     try:

@@ -168,16 +168,21 @@ def crystal_to_sample(c_crystal: np.ndarray, g: np.ndarray, chunk: int = CHUNK) 
     Used where every grain's tensor is needed (the bootstrap); for averages use
     :func:`weighted_rotated_mean`, which never stores them.
     """
+    return kelvin_to_voigt(rotated_kelvin(voigt_to_kelvin(c_crystal), g, chunk))
+
+
+def rotated_kelvin(x_kelvin: np.ndarray, g: np.ndarray, chunk: int = CHUNK) -> np.ndarray:
+    """Crystal-frame Kelvin matrix rotated into the sample frame for every orientation (N, 6, 6)."""
     g = np.asarray(g, dtype=float)
     if g.ndim != 3 or g.shape[1:] != (3, 3):
         raise ValueError(f"orientation matrices must have shape (N, 3, 3), got {g.shape}")
-    x = voigt_to_kelvin(c_crystal)
+    x = np.asarray(x_kelvin, dtype=float)
     out = np.empty((len(g), 6, 6))
     for start in range(0, len(g), chunk):
         q = _kelvin_rotation_by_component(np.ascontiguousarray(g[start:start + chunk].transpose(2, 1, 0)))
-        a = x @ q
-        out[start:start + chunk] = np.einsum("ikn,lkn->nil", a, q)
-    return kelvin_to_voigt(out)
+        qn = np.ascontiguousarray(q.transpose(2, 0, 1))   # (n, 6, 6)
+        out[start:start + chunk] = qn @ x @ np.swapaxes(qn, 1, 2)
+    return out
 
 
 # --- matrix functions of symmetric positive-definite matrices ------------------------------

@@ -47,13 +47,50 @@ class PlaneWaves:
         return 200.0 * (self.vs1_km_s - self.vs2_km_s) / (self.vs1_km_s + self.vs2_km_s)
 
 
+def _christoffel_components(c_voigt: np.ndarray, n: np.ndarray) -> np.ndarray:
+    """The six independent components (M, 6) of Gamma, order 11 22 33 23 13 12.
+
+    Each is a quadratic form in n: one (M, 6) @ (6, 6) product over the monomials
+    nx^2, ny^2, nz^2, ny nz, nx nz, nx ny.
+    """
+    mono = np.column_stack([n[:, 0] ** 2, n[:, 1] ** 2, n[:, 2] ** 2,
+                            n[:, 1] * n[:, 2], n[:, 0] * n[:, 2], n[:, 0] * n[:, 1]])
+    return mono @ _component_coefficients(c_voigt)
+
+
+_PAIRS = ((0, 0), (1, 1), (2, 2), (1, 2), (0, 2), (0, 1))
+
+
+def _component_coefficients(c_voigt: np.ndarray) -> np.ndarray:
+    """(6, 6) matrix taking the monomials of n to the six components of Gamma."""
+    t = voigt_to_tensor(c_voigt)
+    coeff = np.zeros((6, 6))
+    for row, (j, l) in enumerate(_PAIRS):
+        for col, (i, k) in enumerate(_PAIRS):
+            coeff[row, col] = t[i, j, k, l] if j == l else t[i, j, k, l] + t[i, l, k, j]
+    return coeff
+
+
+def speeds_for_many_tensors(c_voigt: np.ndarray, density_kg_m3: float, directions: np.ndarray):
+    """Vp, Vs1, Vs2 (B, M) of B stiffnesses (B, 6, 6) in M directions, solved in one batch."""
+    n = _unit(directions)
+    mono = np.column_stack([n[:, 0] ** 2, n[:, 1] ** 2, n[:, 2] ** 2,
+                            n[:, 1] * n[:, 2], n[:, 0] * n[:, 2], n[:, 0] * n[:, 1]])
+    coeff = np.stack([_component_coefficients(c) for c in np.asarray(c_voigt, dtype=float)])
+    g = (mono[None] @ coeff).reshape(-1, 6)                 # (B*M, 6)
+    values, _ = _eigen_from_components(g)
+    v = np.sqrt(np.clip(values, 0.0, None) * _GPA_PER_DENSITY_TO_KM2_S2 / density_kg_m3)
+    shape = (len(coeff), len(n))
+    return v[:, 0].reshape(shape), v[:, 1].reshape(shape), v[:, 2].reshape(shape)
+
+
 def christoffel_matrices(c_voigt: np.ndarray, directions: np.ndarray) -> np.ndarray:
     """Christoffel matrices ``Gamma_ik = C_ijkl n_j n_l`` (M, 3, 3) in GPa."""
-    n = _unit(directions)
-    t = voigt_to_tensor(c_voigt)
-    # Gamma[m, i, k] = sum_jl T[i, j, k, l] n_j n_l, done as one (M, 9) @ (9, 9) product
-    nn = (n[:, :, None] * n[:, None, :]).reshape(-1, 9)
-    return (nn @ t.transpose(1, 3, 0, 2).reshape(9, 9)).reshape(-1, 3, 3)
+    g = _christoffel_components(c_voigt, _unit(directions))
+    full = np.empty((len(g), 3, 3))
+    for col, (i, k) in enumerate(((0, 0), (1, 1), (2, 2), (1, 2), (0, 2), (0, 1))):
+        full[:, i, k] = full[:, k, i] = g[:, col]
+    return full
 
 
 def plane_waves(c_voigt: np.ndarray, density_kg_m3: float, directions: np.ndarray) -> PlaneWaves:
@@ -61,11 +98,86 @@ def plane_waves(c_voigt: np.ndarray, density_kg_m3: float, directions: np.ndarra
     n = _unit(directions)
     if not density_kg_m3 > 0:
         raise ValueError(f"density must be positive, got {density_kg_m3}")
-    gamma = christoffel_matrices(c_voigt, n)
-    eigval, eigvec = np.linalg.eigh(gamma)  # ascending: S2, S1, P
+    eigval, pol = _eigen_from_components(_christoffel_components(c_voigt, n))
     v = np.sqrt(np.clip(eigval, 0.0, None) * _GPA_PER_DENSITY_TO_KM2_S2 / density_kg_m3)
-    pol = np.swapaxes(eigvec[:, :, ::-1], 1, 2)  # rows: P, S1, S2
-    return PlaneWaves(n, v[:, 2], v[:, 1], v[:, 0], pol)
+    return PlaneWaves(n, v[:, 0], v[:, 1], v[:, 2], pol)
+
+
+def christoffel_eigen(gamma: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Eigenvalues (M, 3) ordered P, S1, S2 and unit eigenvectors (M, 3, 3) of Christoffel matrices.
+
+    Vectorised closed form, accurate where the shear waves are nearly degenerate: the P root
+    (always separated from the shear roots in a stable solid) from the trigonometric solution of
+    the characteristic cubic (Smith 1961), its vector from cross products of the rows of
+    Gamma - lambda_P I and its value refined as the Rayleigh quotient; then the two shear roots
+    from the 2x2 matrix of Gamma in the plane normal to the P polarisation, whose discriminant is a
+    sum of squares and loses no accuracy when the roots meet (shear-wave singularities).
+    """
+    a = np.asarray(gamma, dtype=float)
+    comps = np.column_stack([a[:, 0, 0], a[:, 1, 1], a[:, 2, 2], a[:, 1, 2], a[:, 0, 2], a[:, 0, 1]])
+    return _eigen_from_components(comps)
+
+
+def _eigen_from_components(g: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """christoffel_eigen on the six components, every step a plain array operation."""
+    a00, a11, a22, a12, a02, a01 = (np.ascontiguousarray(g[:, k]) for k in range(6))
+    q = (a00 + a11 + a22) / 3.0
+    b00, b11, b22 = a00 - q, a11 - q, a22 - q
+    p = np.sqrt(np.maximum((b00 ** 2 + b11 ** 2 + b22 ** 2 + 2 * (a01 ** 2 + a02 ** 2 + a12 ** 2)) / 6.0, 1e-300))
+    det = (b00 * (b11 * b22 - a12 ** 2) - a01 * (a01 * b22 - a12 * a02) + a02 * (a01 * a12 - b11 * a02))
+    r = np.clip(det / (2.0 * p ** 3), -1.0, 1.0)
+    lam = q + 2.0 * p * np.cos(np.arccos(r) / 3.0)
+    # rows of Gamma - lam I; the P vector is the longest of their cross products
+    d0, d1, d2 = a00 - lam, a11 - lam, a22 - lam
+    x01, y01, z01 = a01 * a12 - a02 * d1, a02 * a01 - d0 * a12, d0 * d1 - a01 * a01      # r0 x r1
+    x02, y02, z02 = a01 * d2 - a02 * a12, a02 * a02 - d0 * d2, d0 * a12 - a01 * a02      # r0 x r2
+    x12, y12, z12 = d1 * d2 - a12 * a12, a12 * a02 - a01 * d2, a01 * a12 - d1 * a02      # r1 x r2
+    n01, n02, n12 = x01 ** 2 + y01 ** 2 + z01 ** 2, x02 ** 2 + y02 ** 2 + z02 ** 2, x12 ** 2 + y12 ** 2 + z12 ** 2
+    use02 = (n02 > n01) & (n02 >= n12)
+    use12 = (n12 > n01) & (n12 > n02)
+    px = np.where(use12, x12, np.where(use02, x02, x01))
+    py = np.where(use12, y12, np.where(use02, y02, y01))
+    pz = np.where(use12, z12, np.where(use02, z02, z01))
+    norm = np.sqrt(px ** 2 + py ** 2 + pz ** 2)
+    px, py, pz = px / norm, py / norm, pz / norm
+
+    def quad(ux, uy, uz, vx, vy, vz):
+        return (ux * (a00 * vx + a01 * vy + a02 * vz) + uy * (a01 * vx + a11 * vy + a12 * vz)
+                + uz * (a02 * vx + a12 * vy + a22 * vz))
+
+    lam_p = quad(px, py, pz, px, py, pz)
+    # u1: the P vector crossed with the coordinate axis it is least aligned with
+    ax, ay, az = np.abs(px), np.abs(py), np.abs(pz)
+    hx = ((ax <= ay) & (ax <= az)).astype(float)
+    hy = ((ay < ax) & (ay <= az)).astype(float)
+    hz = 1.0 - hx - hy
+    ux, uy, uz = py * hz - pz * hy, pz * hx - px * hz, px * hy - py * hx
+    norm = np.sqrt(ux ** 2 + uy ** 2 + uz ** 2)
+    ux, uy, uz = ux / norm, uy / norm, uz / norm
+    wx, wy, wz = py * uz - pz * uy, pz * ux - px * uz, px * uy - py * ux
+    m11, m22, m12 = quad(ux, uy, uz, ux, uy, uz), quad(wx, wy, wz, wx, wy, wz), quad(ux, uy, uz, wx, wy, wz)
+    diff = (m11 - m22) / 2.0
+    mean, half = (m11 + m22) / 2.0, np.sqrt(diff * diff + m12 * m12)
+    # rotation angle theta of the S1 vector in the (u, w) plane from cos 2theta and sin 2theta
+    safe = np.where(half > 0, half, 1.0)
+    cos2 = np.where(half > 0, diff / safe, 1.0)
+    c = np.sqrt(np.maximum((1.0 + cos2) / 2.0, 0.0))
+    s = np.copysign(np.sqrt(np.maximum((1.0 - cos2) / 2.0, 0.0)), m12)
+    values = np.empty((len(g), 3))
+    values[:, 0], values[:, 1], values[:, 2] = lam_p, mean + half, mean - half
+    vectors = np.empty((len(g), 3, 3))
+    vectors[:, 0, 0], vectors[:, 0, 1], vectors[:, 0, 2] = px, py, pz
+    vectors[:, 1, 0], vectors[:, 1, 1], vectors[:, 1, 2] = c * ux + s * wx, c * uy + s * wy, c * uz + s * wz
+    vectors[:, 2, 0], vectors[:, 2, 1], vectors[:, 2, 2] = c * wx - s * ux, c * wy - s * uy, c * wz - s * uz
+    bad = ~(values[:, 0] > values[:, 1])  # P not separated (not a stable solid): general solver
+    if np.any(bad):
+        full = np.empty((int(bad.sum()), 3, 3))
+        for col, (i, k) in enumerate(((0, 0), (1, 1), (2, 2), (1, 2), (0, 2), (0, 1))):
+            full[:, i, k] = full[:, k, i] = g[bad, col]
+        ev, evec = np.linalg.eigh(full)
+        values[bad] = ev[:, ::-1]
+        vectors[bad] = np.swapaxes(evec[:, :, ::-1], 1, 2)
+    return values, vectors
 
 
 def group_velocities(c_voigt: np.ndarray, density_kg_m3: float, waves: PlaneWaves) -> np.ndarray:
@@ -126,7 +238,7 @@ def to_lower_hemisphere(v: np.ndarray) -> np.ndarray:
 
 def _unit(v: np.ndarray) -> np.ndarray:
     v = np.atleast_2d(np.asarray(v, dtype=float))
-    norm = np.linalg.norm(v, axis=-1, keepdims=True)
+    norm = np.sqrt(np.einsum("...i,...i->...", v, v))[..., None]
     if np.any(norm == 0) or not np.all(np.isfinite(norm)):
         raise ValueError("directions must be finite, non-zero vectors")
     return v / norm

@@ -1,0 +1,123 @@
+"""Benchmark of the seismic stage.
+
+1. Velocities on the 1-degree lower-hemisphere grid (about 20,800 directions) for olivine, by the
+   vectorised closed-form Christoffel solution (``fabric2seis.waves.plane_waves``) against a plain
+   per-direction loop that builds each Christoffel matrix with ``numpy.einsum`` and solves it with
+   ``numpy.linalg.eigh``. Results must agree to 1e-10 (relative); target: at least 50x faster.
+2. The seismic stage on 100,000 olivine grains (aggregate tensor by the four averages, velocity
+   grid, symmetry decomposition, splitting along Z), without and with 200 bootstrap resamples of
+   the grains (``fabric2seis.uncertainty.seismic_bootstrap``). Target: with bootstrap at most 3x.
+
+Run from the project folder:  python benchmarks/seismic_stage.py [--grains 100000 --resamples 200]
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import time
+
+import numpy as np
+
+from fabric2seis import elastic, seismic, uncertainty, waves
+from fabric2seis.decomposition import decomposition_summary
+from fabric2seis.minerals import find_mineral
+from fabric2seis.synth import fabric_orientations
+
+
+def best_of(func, repeats=3):
+    best, out = float("inf"), None
+    for _ in range(repeats):
+        start = time.perf_counter()
+        out = func()
+        best = min(best, time.perf_counter() - start)
+    return best, out
+
+
+def velocities_part(olivine) -> bool:
+    c, rho = olivine.stiffness_gpa, olivine.density_kg_m3
+    dirs, _, _ = waves.hemisphere_grid(1.0)
+    fast_s, w = best_of(lambda: waves.plane_waves(c, rho, dirs), 7)
+    t = elastic.voigt_to_tensor(c)
+
+    def loop():
+        out = np.empty((len(dirs), 3))
+        for k, d in enumerate(dirs):
+            lam = np.linalg.eigh(np.einsum("ijkl,j,l->ik", t, d, d))[0]
+            out[k] = np.sqrt(1e3 * lam / rho)
+        return out
+    loop_s, ref = best_of(loop, 2)
+    diff = max(np.abs(ref[:, 2] - w.vp_km_s).max(), np.abs(ref[:, 1] - w.vs1_km_s).max(),
+               np.abs(ref[:, 0] - w.vs2_km_s).max()) / ref.max()
+    ratio = loop_s / fast_s
+    print(f"Velocities on the 1-degree hemisphere grid ({len(dirs):,} directions, olivine single crystal)")
+    print(f"  vectorised closed form        {fast_s * 1e3:8.2f} ms")
+    print(f"  per-direction einsum + eigh   {loop_s * 1e3:8.2f} ms")
+    print(f"  ratio                         {ratio:8.1f}x   (target >= 50x: {'met' if ratio >= 50 else 'NOT met'})")
+    print(f"  largest difference            {diff:.2e} relative (must be <= 1e-10: {'ok' if diff <= 1e-10 else 'FAILED'})")
+    return diff <= 1e-10
+
+
+def stage_part(olivine, n_grains: int, n_resamples: int) -> None:
+    q = fabric_orientations(olivine, "olivine-A", n_grains, 25.0, seed=1)
+    w = np.random.default_rng(2).lognormal(0, 0.5, n_grains)
+    sets, fractions = [(olivine, q, w)], {"olivine": 1.0}
+
+    def stage():
+        agg = seismic.aggregate(sets, fractions, "hill")
+        grid = seismic.velocity_grid(agg.stiffness, agg.density_kg_m3, 1.0)
+        s = seismic.seismic_summary(grid, "hill")
+        s["decomposition"] = decomposition_summary(agg.stiffness, agg.density_kg_m3)
+        s["along_z"] = seismic.splitting_along(agg.stiffness, agg.density_kg_m3)
+        return agg
+
+    plain_s, agg = best_of(stage, 3)
+
+    def with_bootstrap():
+        a = stage()
+        counts = uncertainty.resample_counts(n_grains, n_resamples, np.random.default_rng(1))
+        return uncertainty.seismic_bootstrap(sets, fractions, "hill", a.density_kg_m3, {"olivine": counts})
+    boot_s, values = best_of(with_bootstrap, 1)
+    ratio = boot_s / plain_s
+
+    import tempfile
+    from pathlib import Path
+    from fabric2seis.figures.velocities import velocity_figure
+
+    folder = Path(tempfile.mkdtemp(prefix="fabric2seis-bench-"))
+
+    def with_outputs(bootstrap: bool):
+        def run():
+            a = with_bootstrap() if bootstrap else stage()
+            a = stage() if bootstrap else a
+            seismic.velocity_grid(a.stiffness, a.density_kg_m3, 1.0).table().to_csv(folder / "v.csv", index=False)
+            velocity_figure(folder / "velocities", "benchmark", a.stiffness, a.density_kg_m3, "hill", n_grains)
+        return run
+    out_plain, _ = best_of(with_outputs(False), 1)
+    out_boot, _ = best_of(with_outputs(True), 1)
+    print(f"\nSeismic stage on {n_grains:,} olivine grains (A-type fabric, log-normal areas)")
+    print(f"  without bootstrap             {plain_s:8.2f} s")
+    print(f"  with {n_resamples} resamples            {boot_s:8.2f} s")
+    print(f"  ratio                         {ratio:8.2f}x   (target <= 3x: {'met' if ratio <= 3 else 'NOT met'})")
+    print(f"  95 % interval of AVp          {np.percentile(values['avp_pct'], [2.5, 97.5]).round(3)} %")
+    print("  the stage as the pipeline runs it, with its outputs (velocities.csv, velocity figure):")
+    print(f"  without bootstrap             {out_plain:8.2f} s")
+    print(f"  with {n_resamples} resamples            {out_boot:8.2f} s")
+    print(f"  ratio                         {out_boot / out_plain:8.2f}x   (target <= 3x: "
+          f"{'met' if out_boot / out_plain <= 3 else 'NOT met'})")
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("--grains", type=int, default=100_000)
+    parser.add_argument("--resamples", type=int, default=200)
+    args = parser.parse_args()
+    print(f"machine: {os.cpu_count()} logical CPUs, numpy {np.__version__}\n")
+    olivine = find_mineral("olivine")
+    ok = velocities_part(olivine)
+    stage_part(olivine, args.grains, args.resamples)
+    return 0 if ok else 1
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

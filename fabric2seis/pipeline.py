@@ -255,9 +255,22 @@ def default_out_dir(path: str | Path) -> Path:
 def run_sample(path: str | Path, settings_path: str | Path | None = None, out_dir: str | Path | None = None,
                progress=None) -> Path:
     """Process one EBSD export into ``out_dir``; returns the folder written."""
+    import time
+
     path = Path(path)
+    started = time.perf_counter()
+    log_lines: list[str] = []
+    report_progress = progress
+
+    def say(message: str) -> None:  # every step goes to run.log, and to the caller's progress
+        log_lines.append(f"{time.perf_counter() - started:8.2f} s  {message}")
+        if report_progress is not None:
+            report_progress(message)
+
     settings, settings_file = settings_for(path, settings_path)
+    say(f"fabric2seis {__version__}: {path} with settings {settings_file or 'defaults'}")
     out = Path(out_dir) if out_dir is not None else default_out_dir(path)
+    progress = say
     sample = ingest(path, settings, settings_file, progress)
     fabrics = fabric_stage(sample, progress)
     seis = seismic_stage(sample, progress)
@@ -275,6 +288,7 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
     try:
         _write_json(tmp / "summary.json", report)
+        say("writing tables and figures")
         fabric_figures(tmp, sample, fabrics)
         _write_json(tmp / "stiffness.json", {
             **{k: np.round(v, 6).tolist() for k, v in agg.tensors.items()},
@@ -287,6 +301,8 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
         _write_json(tmp / "provenance.json", provenance(path, sample))
         if sample.grains is not None:
             grains_mod.grains_table(sample.grains, sample.points.minerals).to_csv(tmp / "grains.csv", index=False)
+        say(f"done, results in {out}")
+        (tmp / "run.log").write_text("\n".join(log_lines) + "\n")
         if out.exists():
             shutil.rmtree(out)
         os.replace(tmp, out)

@@ -3,7 +3,9 @@
 Each resample draws the grains of every phase with replacement (fractions of the phases held as
 in the estimate). Resamples are weights, not recomputations: the Voigt, Reuss and geometric sums
 are linear in per-grain tensors rotated once (so all resamples are one matrix product), and the
-J-index of a resample is the quadratic form w^T A w over the kernel's neighbour pairs, found once.
+J-index of a resample is the quadratic form w^T A w over the kernel's neighbour pairs, found once;
+likewise the misorientation histogram of the M-index is a weighted histogram of the pairs of the
+original grains, measured once.
 Orientations are the grains' mean orientations weighted by grain area (maps) or by the file's
 weights (grain lists), so intervals describe the sampling of grains, the unit that is counted.
 """
@@ -18,8 +20,6 @@ from fabric2seis.orientations import to_matrices
 INTERVAL = (2.5, 97.5)
 #: direction grid of the velocity statistics of each resample (degrees)
 RESAMPLE_GRID_STEP_DEG = 3.0
-#: pairs per resample for the M-index
-RESAMPLE_M_PAIRS = 100_000
 #: above this many grains the J-index pair matrix is not built for the bootstrap
 MAX_J_GRAINS = 20_000
 
@@ -99,15 +99,29 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
         u = (counts * weights[None, :]).T
         u /= u.sum(axis=0, keepdims=True)
         j = np.einsum("nb,nb->b", u, a @ u)
-    sym = fabric.proper_symmetry_quaternions(mineral.symmetry)
+    # M: the uncorrelated pairs of the original grains are found and measured once; a resample
+    # weights pair (i, j) by how often both grains were drawn, c_i c_j (pairs of distinct grains)
     reference = fabric.random_distribution(mineral.symmetry)
-    m = []
-    n_pairs = min(RESAMPLE_M_PAIRS, len(quat) * (len(quat) - 1) // 2)
-    for row in counts:
-        pool = np.repeat(np.arange(len(quat)), row.astype(int))
-        i = rng.integers(0, len(pool), n_pairs)
-        k = (i + rng.integers(1, len(pool), n_pairs)) % len(pool)
-        angles = fabric.misorientation_angles(quat[pool[i]], quat[pool[k]], sym)
-        hist = fabric._histogram(angles)
-        m.append(0.5 * np.abs(hist / hist.sum() - reference).sum())
-    return {"J": j, "M": np.array(m)}
+    n = len(quat)
+    if n * (n - 1) // 2 <= fabric.M_INDEX_PAIRS:
+        i, k = np.triu_indices(n, k=1)
+    else:
+        i = rng.integers(0, n, fabric.M_INDEX_PAIRS)
+        k = (i + rng.integers(1, n, fabric.M_INDEX_PAIRS)) % n
+    angles = fabric.misorientation_angles(quat[i], quat[k], fabric.proper_symmetry_quaternions(mineral.symmetry))
+    bins = np.minimum((np.degrees(angles) / fabric.M_INDEX_BIN_DEG).astype(int), len(reference) - 1)
+    hist = np.zeros((len(counts), len(reference)))
+    for start in range(0, len(i), 100_000):
+        sl = slice(start, start + 100_000)
+        weight = counts[:, i[sl]] * counts[:, k[sl]]                  # (B, pairs)
+        one_hot = _one_hot(bins[sl], len(reference))
+        hist += (one_hot.T @ weight.T).T
+    hist /= hist.sum(axis=1, keepdims=True)
+    m = 0.5 * np.abs(hist - reference[None, :]).sum(axis=1)
+    return {"J": j, "M": m}
+
+
+def _one_hot(index: np.ndarray, size: int):
+    from scipy.sparse import csr_matrix
+
+    return csr_matrix((np.ones(len(index)), (np.arange(len(index)), index)), shape=(len(index), size))

@@ -222,9 +222,16 @@ def uncertainty_stage(sample: Sample, seis: dict, progress=None) -> dict:
     main = max(sets, key=lambda s: sample.fractions[s[0].name])[0].name
     halfwidth = float(sample.settings["odf"]["halfwidth_deg"])
     for m, q, w in sets:
+        if len(q) < uncertainty.MIN_GRAINS_FOR_FABRIC:
+            out[f"{m.name}.note"] = f"only {len(q)} grains: no fabric intervals"
+            continue
         f = uncertainty.fabric_bootstrap(m, q, np.ones(len(q)), counts[m.name], halfwidth, rng)
         for key, v in f.items():
-            if v is not None:
+            if v is None:
+                out[f"{m.name}.{key}"] = None
+                out[f"{m.name}.note"] = (f"{len(q)} grains: the J-index interval is not computed above "
+                                         f"{uncertainty.MAX_J_GRAINS} grains")
+            else:
                 out[f"{m.name}.{key}"] = uncertainty.interval(v)
                 if m.name == main:
                     out[key] = out[f"{m.name}.{key}"]

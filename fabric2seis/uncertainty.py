@@ -20,6 +20,8 @@ from fabric2seis.orientations import to_matrices
 INTERVAL = (2.5, 97.5)
 #: direction grid of the velocity statistics of each resample (degrees)
 RESAMPLE_GRID_STEP_DEG = 3.0
+#: phases with fewer grains get no fabric intervals (a resample would hold too few distinct grains)
+MIN_GRAINS_FOR_FABRIC = 10
 #: above this many grains the J-index pair matrix is not built for the bootstrap
 MAX_J_GRAINS = 20_000
 
@@ -32,7 +34,7 @@ def resample_counts(n: int, n_resamples: int, rng: np.random.Generator) -> np.nd
 
 
 def interval(values: np.ndarray) -> list[float]:
-    lo, hi = np.percentile(np.asarray(values, dtype=float), INTERVAL)
+    lo, hi = np.nanpercentile(np.asarray(values, dtype=float), INTERVAL)
     return [round(float(lo), 6), round(float(hi), 6)]
 
 
@@ -116,8 +118,10 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
         weight = counts[:, i[sl]] * counts[:, k[sl]]                  # (B, pairs)
         one_hot = _one_hot(bins[sl], len(reference))
         hist += (one_hot.T @ weight.T).T
-    hist /= hist.sum(axis=1, keepdims=True)
-    m = 0.5 * np.abs(hist - reference[None, :]).sum(axis=1)
+    total = hist.sum(axis=1, keepdims=True)
+    m = np.full(len(counts), np.nan)          # a resample of one distinct grain has no pairs
+    ok = total[:, 0] > 0
+    m[ok] = 0.5 * np.abs(hist[ok] / total[ok] - reference[None, :]).sum(axis=1)
     return {"J": j, "M": m}
 
 

@@ -32,6 +32,8 @@ def flatten(data: dict, prefix: str = "") -> dict:
         name = f"{prefix}{key}"
         if isinstance(value, dict):
             out.update(flatten(value, name + "."))
+        elif isinstance(value, list) and prefix.startswith("uncertainty") and len(value) == 2:
+            out[f"{name}.low"], out[f"{name}.high"] = value      # a 95 % interval
         elif not isinstance(value, list):
             out[name] = value
     return out

@@ -47,3 +47,15 @@ def test_bad_yaml_names_line(tmp_path):
     f.write_text("grains:\n  min_pixels: [1,\n")
     with pytest.raises(InputError, match="bad.yaml, line"):
         settings.read_yaml(f)
+
+
+def test_suite_table_flattens_scalars_and_intervals(tmp_path):
+    import json
+    from fabric2seis.suite import suite_table
+    f = tmp_path / "summary.json"
+    f.write_text(json.dumps({"sample": "a", "n_points": 3, "seismic": {"avp_pct": 5.0, "vp_max_direction": [1, 0, 0]},
+                             "uncertainty": {"avp_pct": [4.0, 6.0], "resamples": 200}}))
+    row = suite_table([f]).iloc[0]
+    assert row["status"] == "ok" and row["seismic.avp_pct"] == 5.0
+    assert row["uncertainty.avp_pct.low"] == 4.0 and row["uncertainty.avp_pct.high"] == 6.0
+    assert "seismic.vp_max_direction" not in row

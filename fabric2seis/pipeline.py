@@ -198,9 +198,15 @@ def seismic_stage(sample: Sample, progress=None) -> dict:
     from fabric2seis.decomposition import decomposition_summary
     summary["decomposition"] = decomposition_summary(agg.stiffness, agg.density_kg_m3)
     along_z = seismic.splitting_along(agg.stiffness, agg.density_kg_m3)
-    return {"aggregate": agg, "grid": grid, "seismic": summary, "crystal_tensors": crystal,
+    field, sweep = None, None
+    if st.get("field"):
+        from fabric2seis.splitting import field_summary
+
+        say("splitting of the layer in the ground")
+        field, sweep = field_summary(agg.stiffness, agg.density_kg_m3, st["field"], sample.settings_file)
+    return {"aggregate": agg, "grid": grid, "seismic": summary, "crystal_tensors": crystal, "sweep": sweep,
             "splitting": {"along_z": {k: along_z[k] for k in ("fast_polarisation_from_x_deg", "delay_s_per_100km")},
-                          "field": None}}
+                          "field": field}}
 
 
 def uncertainty_stage(sample: Sample, seis: dict, progress=None) -> dict:
@@ -302,6 +308,15 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
             "density_kg_m3": round(agg.density_kg_m3, 3), "units": "GPa, Voigt order 11 22 33 23 13 12",
             "frame": "structural (X lineation, Z foliation normal)", "used_for_velocities": agg.average})
         seis["grid"].table().to_csv(tmp / "velocities.csv", index=False)
+        if seis["sweep"] is not None:
+            import pandas as pd
+            from fabric2seis.figures.splitting import splitting_figure
+
+            sw = seis["sweep"]
+            pd.DataFrame({"back_azimuth_deg": sw["back_azimuth_deg"], "fast_azimuth_deg": sw["fast_azimuth_deg"].round(3),
+                          "delay_s": sw["delay_s"].round(5), "incidence_deg": seis["splitting"]["field"]["sweep_incidence_deg"]}
+                         ).to_csv(tmp / "splitting_vs_backazimuth.csv", index=False)
+            splitting_figure(tmp / "splitting_vs_backazimuth", sample.name, sw, seis["splitting"]["field"])
         from fabric2seis.figures.velocities import velocity_figure
         velocity_figure(tmp / "velocities", sample.name, agg.stiffness, agg.density_kg_m3, agg.average,
                         int(report["n_grains"]))

@@ -14,3 +14,4 @@ include: "workflow/rules/suite.smk"
 rule all:
     input:
         f"{RESULTS}/suite_summary.csv",
+        f"{RESULTS}/suite_comparison.png",

@@ -46,3 +46,16 @@ def suite_table(summary_files: list[str | Path]) -> pd.DataFrame:
         summary = json.loads(Path(f).read_text())
         rows.append({"sample": summary["sample"], "status": summary.get("status", "ok"), **flatten(summary)})
     return pd.DataFrame(rows)
+
+
+def suite_table_from_status(status_files: list[str | Path]) -> pd.DataFrame:
+    """The suite table from the workflow's per-sample status files (failed samples keep a row)."""
+    rows = []
+    for f in status_files:
+        status = json.loads(Path(f).read_text())
+        if status["status"] == "ok":
+            summary = json.loads(Path(status["summary"]).read_text())
+            rows.append({"sample": summary["sample"], "status": "ok", **flatten(summary)})
+        else:
+            rows.append({"sample": status["sample"], "status": status["status"]})
+    return pd.DataFrame(rows)

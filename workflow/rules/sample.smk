@@ -1,9 +1,14 @@
 rule sample:
-    """One EBSD export -> results/<sample>/ (the same library call as `fabric2seis sample`)."""
+    """One EBSD export -> results/<sample>/ (the same library call as `fabric2seis sample`).
+
+    The declared output is the sample's status file: "ok", or the one-line error of bad input, so
+    that one bad file does not stop the suite. The results folder is written by run_sample, whole
+    or not at all.
+    """
     input:
         sample_input,
     output:
-        summary=f"{RESULTS}/{{sample}}/summary.json",
+        status=f"{RESULTS}/status/{{sample}}.json",
     params:
         settings=settings_digest,
         out=lambda wildcards: f"{RESULTS}/{wildcards.sample}",
@@ -13,7 +18,7 @@ rule sample:
         f"{RESULTS}/benchmarks/sample/{{sample}}.tsv"
     threads: 1
     resources:
-        mem_mb=2000,
+        mem_mb=3000,
     conda:
         "../envs/fabric2seis.yaml"
     script:

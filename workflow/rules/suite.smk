@@ -1,16 +1,17 @@
 rule suite_summary:
-    """One row per sample: results/suite_summary.csv."""
+    """One row per sample (status "ok" or the sample's error), and the suite comparison figure."""
     input:
-        expand(f"{RESULTS}/{{sample}}/summary.json", sample=sorted(SAMPLES)),
+        expand(f"{RESULTS}/status/{{sample}}.json", sample=sorted(SAMPLES)),
     output:
-        f"{RESULTS}/suite_summary.csv",
+        table=report(f"{RESULTS}/suite_summary.csv", caption="../report/suite_summary.rst", category="Suite"),
+        figure=report(f"{RESULTS}/suite_comparison.png", caption="../report/suite_comparison.rst", category="Suite"),
     log:
         f"{RESULTS}/logs/suite_summary.log",
     benchmark:
         f"{RESULTS}/benchmarks/suite_summary.tsv"
     threads: 1
     resources:
-        mem_mb=500,
+        mem_mb=1000,
     conda:
         "../envs/fabric2seis.yaml"
     script:

@@ -1,4 +1,15 @@
-"""Snakemake shell around fabric2seis.suite.suite_table (no science here)."""
-from fabric2seis.suite import suite_table
+"""Snakemake shell around fabric2seis.suite (no science here)."""
+import logging
 
-suite_table(list(snakemake.input)).to_csv(snakemake.output[0], index=False)
+from fabric2seis.figures.suite import suite_figure
+from fabric2seis.suite import suite_table_from_status
+
+logging.basicConfig(filename=snakemake.log[0], level=logging.INFO, format="%(asctime)s %(message)s")
+try:
+    table = suite_table_from_status(list(snakemake.input))
+    table.to_csv(snakemake.output.table, index=False)
+    suite_figure(snakemake.output.figure[: -len(".png")], table)
+    logging.info("%d samples, %d ok", len(table), int((table["status"] == "ok").sum()))
+except Exception:
+    logging.exception("suite summary failed")
+    raise

@@ -298,6 +298,8 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     report["splitting"] = seis["splitting"]
     report["uncertainty"] = uncertainty_stage(sample, seis, progress)
     out.parent.mkdir(parents=True, exist_ok=True)
+    for stale in out.parent.glob(f".{out.name}.partial-*"):   # left by a run that was killed
+        shutil.rmtree(stale, ignore_errors=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
     try:
         _write_json(tmp / "summary.json", report)

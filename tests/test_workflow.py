@@ -65,3 +65,50 @@ def test_rerun_has_nothing_to_do_and_a_new_file_runs_alone(suite):
     jobs = [line.strip() for line in text.splitlines() if line.strip().startswith("wildcards: sample=")]
     assert jobs == ["wildcards: sample=three"], text[-1500:]
     (samples / "three.csv").unlink()
+
+
+def _small_suite(folder, n_samples=1):
+    samples = folder / "samples"
+    samples.mkdir()
+    ol = find_mineral("olivine")
+    for k in range(n_samples):
+        write_table(samples / f"s{k}.csv", fabric_orientations(ol, "olivine-A", 100, 20.0, seed=k), ["olivine"] * 100)
+        (samples / f"s{k}.yaml").write_text("bootstrap: {n: 20}\n")
+    return samples, folder / "results"
+
+
+def test_generic_cluster_executor_with_a_local_submit_script(tmp_path):
+    # The path a cluster takes: job scripts handed to a submit command (config/profiles/local-cluster)
+    samples, results = _small_suite(tmp_path)
+    run = subprocess.run([sys.executable, "-m", "snakemake", "--profile", "config/profiles/local-cluster",
+                          "--config", f"samples_dir={samples}", f"results_dir={results}", "-q"],
+                         cwd=ROOT, capture_output=True, text=True, timeout=900)
+    assert run.returncode == 0, run.stderr[-2000:]
+    assert pd.read_csv(results / "suite_summary.csv")["status"].tolist() == ["ok"]
+
+
+def test_killed_run_completes_on_rerun_without_half_written_outputs(tmp_path):
+    import signal
+    import time
+    samples, results = _small_suite(tmp_path, n_samples=3)
+    cmd = [sys.executable, "-m", "snakemake", "--cores", "1", "--config", f"samples_dir={samples}",
+           f"results_dir={results}", "-q"]
+    proc = subprocess.Popen(cmd, cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, start_new_session=True)
+    deadline = time.time() + 300
+    while time.time() < deadline:
+        if (results / "status").exists() and list((results / "status").glob("*.json")):
+            break
+        time.sleep(0.5)
+    time.sleep(2.0)                                   # part way through the next sample
+    import os
+    os.killpg(proc.pid, signal.SIGKILL)
+    proc.wait()
+    # what a user does after a crash (Snakemake's own advice): release the lock, rerun incomplete jobs
+    subprocess.run(cmd[:3] + ["--unlock"] + cmd[3:], cwd=ROOT, capture_output=True, timeout=300)
+    rerun = subprocess.run(cmd[:3] + ["--rerun-incomplete"] + cmd[3:], cwd=ROOT, capture_output=True, text=True,
+                           timeout=900)
+    assert rerun.returncode == 0, rerun.stderr[-2000:]
+    assert pd.read_csv(results / "suite_summary.csv")["status"].tolist() == ["ok"] * 3
+    assert not list(results.glob(".*partial*"))       # no temporary folders left behind
+    for k in range(3):
+        assert json.loads((results / f"s{k}" / "summary.json").read_text())["sample"] == f"s{k}"

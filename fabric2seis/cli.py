@@ -72,6 +72,18 @@ def _suite(args: argparse.Namespace, extra: list[str]) -> int:
     return subprocess.run(command).returncode
 
 
+def _field(args: argparse.Namespace) -> int:
+    from fabric2seis.field import CAUTIONS, run_field
+
+    if args.stack:
+        raise InputError("--stack (several layers) is not available yet; fit one layer per sample for now",
+                         args.stack)
+    out = run_field(args.result_dirs, args.measurements, args.out, set(args.fix or ()))
+    print(f"wrote {out}")
+    print(f"caution: {CAUTIONS}")
+    return 0
+
+
 def describe_mineral(m) -> str:
     """A full, human-readable account of one library entry."""
     def table(a: np.ndarray, fmt: str = "8.2f") -> str:
@@ -125,6 +137,17 @@ def build_parser() -> argparse.ArgumentParser:
                    "else config/config.yaml)")
     p.add_argument("--out", metavar="DIR", help="output folder (default results/<stem>)")
     p.set_defaults(run=_sample)
+
+    p = commands.add_parser("field", help="compare predicted splitting with field measurements and fit a layer")
+    p.add_argument("result_dirs", nargs="+", metavar="RESULT_DIR", help="results folders of 'fabric2seis sample'")
+    p.add_argument("--measurements", required=True, metavar="CSV",
+                   help="station, baz_deg, fast_azimuth_deg, delay_s [, fast_azimuth_err_deg, delay_err_s, null, "
+                        "incidence_deg]")
+    p.add_argument("--out", metavar="DIR", help="output folder (default results/field)")
+    p.add_argument("--fix", action="append", choices=["thickness", "azimuth", "foliation"],
+                   help="hold one parameter at the sample's own field settings; may be repeated")
+    p.add_argument("--stack", metavar="FILE", help="several layers (YAML, bottom to top): not available yet")
+    p.set_defaults(run=_field)
 
     from fabric2seis.synth import IDEAL_FABRICS
 

@@ -9,9 +9,11 @@ validate(config, "fabric2seis/settings_schema.yaml")
 include: "workflow/rules/common.smk"
 include: "workflow/rules/sample.smk"
 include: "workflow/rules/suite.smk"
+include: "workflow/rules/field.smk"
 
 
 rule all:
     input:
         f"{RESULTS}/suite_summary.csv",
         f"{RESULTS}/suite_comparison.png",
+        [f"{RESULTS}/field/field_fit.json"] if MEASUREMENTS else [],

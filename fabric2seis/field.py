@@ -159,7 +159,11 @@ def fit_station(sample: SampleTensor, data: pd.DataFrame, fixed: set[str], azimu
         "thickness_interval_km": [float(thick[inside.any(axis=(0, 1))].min()), float(thick[inside.any(axis=(0, 1))].max())],
         "lineation_azimuth_interval_deg": _azimuth_interval(azimuths[inside.any(axis=(0, 2))], azimuth_step_deg),
         "fixed": sorted(fixed),
+        "at_grid_edge": bool(len(thick) > 1 and best[2] in (0, len(thick) - 1)),
     }
+    if result["at_grid_edge"]:
+        result["warning"] = (f"best thickness at the edge of the searched range ({thick[0]:.0f}-{thick[-1]:.0f} km): "
+                             "this fabric cannot explain the measurements well")
     return result, {"misfit": misfit, "azimuths": azimuths, "thicknesses": thick, "attitudes": attitudes}
 
 

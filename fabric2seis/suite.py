@@ -11,12 +11,33 @@ from fabric2seis.io import is_supported
 from fabric2seis.pipeline import sample_name
 
 
+def is_measurements_file(path: Path) -> bool:
+    """A CSV whose header names the columns of field measurements (station, baz_deg ...)."""
+    if path.suffix.lower() != ".csv":
+        return False
+    try:
+        with path.open("r", errors="replace") as f:
+            header = {c.strip() for c in f.readline().split(",")}
+    except OSError:
+        return False
+    return {"station", "baz_deg"} <= header
+
+
+def discover_measurements(folder: str | Path) -> list[Path]:
+    folder = Path(folder)
+    return sorted(p for p in folder.iterdir() if p.is_file() and is_measurements_file(p)) if folder.is_dir() else []
+
+
 def discover_samples(folder: str | Path) -> dict[str, Path]:
-    """Every supported EBSD export in ``folder`` (not recursive), by sample name."""
+    """Every supported EBSD export in ``folder`` (not recursive), by sample name.
+
+    CSV files of field measurements (a header with ``station`` and ``baz_deg``) are not samples.
+    """
     folder = Path(folder)
     found: dict[str, Path] = {}
     for path in sorted(folder.iterdir()) if folder.is_dir() else []:
-        if path.is_file() and is_supported(path) and not path.name.startswith("."):
+        if (path.is_file() and is_supported(path) and not path.name.startswith(".")
+                and not is_measurements_file(path)):
             name = sample_name(path)
             if name in found:
                 raise ValueError(f"two files in {folder} give the sample name '{name}': "

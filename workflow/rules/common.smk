@@ -4,11 +4,12 @@ import json
 from pathlib import Path
 
 from fabric2seis.settings import sidecar_of
-from fabric2seis.suite import discover_samples
+from fabric2seis.suite import discover_measurements, discover_samples
 
 SAMPLES_DIR = config.get("samples_dir", "demo_samples")
 RESULTS = config.get("results_dir", "results")
 SAMPLES = discover_samples(SAMPLES_DIR)
+MEASUREMENTS = discover_measurements(SAMPLES_DIR)
 
 
 def sample_input(wildcards):

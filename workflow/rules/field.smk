@@ -1,0 +1,21 @@
+rule field:
+    """Fit a layer of every good sample to the field measurements in the samples folder."""
+    input:
+        status=expand(f"{RESULTS}/status/{{sample}}.json", sample=sorted(SAMPLES)),
+        measurements=MEASUREMENTS[0] if MEASUREMENTS else [],
+    output:
+        fits=report(f"{RESULTS}/field/field_fit.json", caption="../report/field.rst", category="Field"),
+        table=f"{RESULTS}/field/predictions.csv",
+    params:
+        out=f"{RESULTS}/field",
+    log:
+        f"{RESULTS}/logs/field.log",
+    benchmark:
+        f"{RESULTS}/benchmarks/field.tsv"
+    threads: 1
+    resources:
+        mem_mb=2000,
+    conda:
+        "../envs/fabric2seis.yaml"
+    script:
+        "../scripts/field.py"

@@ -98,7 +98,7 @@ def describe_mineral(m) -> str:
         f"alpha {lat['alpha']} beta {lat['beta']} gamma {lat['gamma']} degrees",
         f"  source          {m.source}",
         f"  from memory     {', '.join(m.from_memory) or 'nothing (all read in the source)'}",
-        f"  published axes  " + ", ".join(f"{k.upper()} || {v}" for k, v in sorted(m.published_axes.items())),
+        "  published axes  " + ", ".join(f"{k.upper()} || {v}" for k, v in sorted(m.published_axes.items())),
         "  Cij as published (GPa, Voigt order 11 22 33 23 13 12):",
         table(m.cij_published_gpa),
         "  Cij in orix's crystal frame, e1 || a, e3 || c* (GPa):",

@@ -32,7 +32,7 @@ import functools
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.special import betaln, eval_legendre
+from scipy.special import betaln
 from scipy.spatial import cKDTree
 
 from fabric2seis.orientations import (misorientation_angles, multiply, proper_symmetry_quaternions,

@@ -22,8 +22,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from fabric2seis import elastic, splitting, waves
+from fabric2seis import splitting, waves
 from fabric2seis.errors import InputError
+from fabric2seis.outputs import folder_written_whole
 
 REQUIRED = ("station", "baz_deg", "fast_azimuth_deg", "delay_s")
 DEFAULT_AZIMUTH_ERR_DEG = 10.0
@@ -197,10 +198,6 @@ def predictions_table(sample: SampleTensor, data: pd.DataFrame, model: dict) -> 
 def run_field(result_dirs: list[str | Path], measurements: str | Path, out_dir: str | Path | None = None,
               fixed: set[str] | None = None) -> Path:
     """``fabric2seis field``: fit every sample to every station; outputs written whole or not at all."""
-    import os
-    import shutil
-    import tempfile
-
     from fabric2seis.figures.field import data_and_predictions, fast_direction_rose, misfit_surface
 
     fixed = set(fixed or ())
@@ -213,9 +210,7 @@ def run_field(result_dirs: list[str | Path], measurements: str | Path, out_dir: 
         if fixed and not s.field:
             raise InputError("--fix needs the sample's own field settings, which it has none of", s.name, "key field")
     out = Path(out_dir) if out_dir else Path("results") / "field"
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
-    try:
+    with folder_written_whole(out) as tmp:
         fits, tables = {}, []
         for s in samples:
             fits[s.name] = {}
@@ -237,10 +232,4 @@ def run_field(result_dirs: list[str | Path], measurements: str | Path, out_dir: 
         fast_direction_rose(tmp / "fast_directions", predictions)
         (tmp / "field_fit.json").write_text(json.dumps({"fits": fits, "measurements": str(measurements),
                                                         "cautions": CAUTIONS}, indent=2) + "\n")
-        if out.exists():
-            shutil.rmtree(out)
-        os.replace(tmp, out)
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise
     return out

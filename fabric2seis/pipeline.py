@@ -10,10 +10,7 @@ from __future__ import annotations
 
 import hashlib
 import json
-import os
-import shutil
 import sys
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -21,6 +18,7 @@ import numpy as np
 
 from fabric2seis import __version__, frames, grains as grains_mod, phases as phases_mod
 from fabric2seis.io import read_ebsd
+from fabric2seis.outputs import folder_written_whole
 from fabric2seis.phases import PointSet
 from fabric2seis.settings import settings_for
 
@@ -297,11 +295,7 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     report["seismic"] = seis["seismic"]
     report["splitting"] = seis["splitting"]
     report["uncertainty"] = uncertainty_stage(sample, seis, progress)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    for stale in out.parent.glob(f".{out.name}.partial-*"):   # left by a run that was killed
-        shutil.rmtree(stale, ignore_errors=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
-    try:
+    with folder_written_whole(out) as tmp:
         _write_json(tmp / "summary.json", report)
         say("writing tables and figures")
         fabric_figures(tmp, sample, fabrics)
@@ -327,12 +321,6 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
             grains_mod.grains_table(sample.grains, sample.points.minerals).to_csv(tmp / "grains.csv", index=False)
         say(f"done, results in {out}")
         (tmp / "run.log").write_text("\n".join(log_lines) + "\n")
-        if out.exists():
-            shutil.rmtree(out)
-        os.replace(tmp, out)
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise
     return out
 
 

@@ -13,7 +13,6 @@ from dataclasses import dataclass
 import numpy as np
 
 from fabric2seis import elastic, waves
-from fabric2seis.errors import InputError
 from fabric2seis.orientations import to_matrices
 
 

@@ -10,7 +10,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from orix.quaternion import Rotation
 from scipy.spatial import cKDTree
 
 from fabric2seis.orientations import multiply

@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from fabric2seis import elastic, fabric, seismic, waves
+from fabric2seis import elastic, fabric, waves
 from fabric2seis.orientations import to_matrices
 
 INTERVAL = (2.5, 97.5)

@@ -6,7 +6,7 @@ from __future__ import annotations
 import numpy as np
 
 from fabric2seis import fabric
-from fabric2seis.figures.projection import disk_grid, frame_axes, plt, project, save
+from fabric2seis.figures.projection import disk_grid, frame_axes, plt, save
 from fabric2seis.synth import crystal_direction
 
 
@@ -86,7 +86,7 @@ def convergence_figure(stem, sample_name: str, results: dict) -> list[str]:
     for mineral, conv in results.items():
         n = [r["n"] for r in conv["rows"]]
         for ax, key, label in zip(axes, ("J", "M", "max_mud"),
-                                  ("J-index", "M-index", f"max pole density (m.u.d.)")):
+                                  ("J-index", "M-index", "max pole density (m.u.d.)")):
             ax.plot(n, [r[key] for r in conv["rows"]], marker="o", ms=3, label=f"{mineral} ({conv['pole']})"
                     if key == "max_mud" else mineral)
             ax.set_xscale("log")

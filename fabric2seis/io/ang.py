@@ -10,7 +10,6 @@ from __future__ import annotations
 
 from pathlib import Path
 
-import numpy as np
 from orix.io.plugins import ang as orix_ang
 
 from fabric2seis.errors import InputError

@@ -41,6 +41,28 @@ def density_at(rho0: float, pressure_gpa: float, temperature_c: float, k0_gpa: f
     return float(rho_t * x ** 3)
 
 
+def assumptions(mineral, pressure_gpa: float, temperature_c: float) -> list[str]:
+    """What had to be assumed to bring ``mineral`` to the conditions (empty at ambient)."""
+    notes = []
+    if pressure_gpa != 0:
+        if mineral.dcij_dp is None:
+            notes.append(f"{mineral.name}: no pressure derivatives, ambient constants used")
+        if not (mineral.eos or {}).get("k0_gpa"):
+            notes.append(f"{mineral.name}: no equation of state in the library; density from K0 = Reuss bulk "
+                         "modulus of the constants and K0' = 4")
+        if mineral.d2cij_dp2 is None and mineral.dcij_dp is not None:
+            notes.append(f"{mineral.name}: constants linear in pressure")
+    if temperature_c != AMBIENT_C:
+        if mineral.dcij_dt_gpa_per_k is None:
+            notes.append(f"{mineral.name}: no temperature derivatives, ambient constants used")
+        if (mineral.eos or {}).get("thermal_expansion_per_k") is None:
+            notes.append(f"{mineral.name}: no thermal expansion, density not corrected for temperature")
+    if "pressure_derivatives" in mineral.derivatives_from_memory or "temperature_derivatives" in mineral.derivatives_from_memory:
+        if pressure_gpa != 0 or temperature_c != AMBIENT_C:
+            notes.append(f"{mineral.name}: derivatives marked from memory ({', '.join(mineral.derivatives_from_memory)})")
+    return notes
+
+
 def at_conditions(mineral, pressure_gpa: float, temperature_c: float,
                   allow_ambient: bool = False) -> tuple[np.ndarray, float]:
     """(stiffness in orix's crystal frame, density) of ``mineral`` at P (GPa) and T (C)."""

@@ -292,6 +292,9 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     agg = seis["aggregate"]
     report["density_kg_m3"] = round(agg.density_kg_m3, 3)
     report["conditions"] = dict(settings["conditions"])
+    from fabric2seis.conditions import assumptions
+    report["conditions"]["assumptions"] = [note for m in sample.points.minerals for note in assumptions(
+        m, settings["conditions"]["pressure_gpa"], settings["conditions"]["temperature_c"])]
     report["seismic"] = seis["seismic"]
     report["splitting"] = seis["splitting"]
     report["uncertainty"] = uncertainty_stage(sample, seis, progress)

@@ -168,3 +168,13 @@ def test_same_inputs_give_byte_identical_summary_and_stiffness(tmp_path):
     assert {"vp_max_km_s", "avp_pct", "avs_max_pct", "vs1_max_km_s", "vs2_min_km_s"} <= set(s["seismic"])
     st = json.loads((a / "stiffness.json").read_text())
     assert {"voigt", "reuss", "hill", "geometric", "density_kg_m3"} <= set(st)
+
+
+def test_assumptions_under_non_ambient_conditions_are_stated():
+    # "Results are never silently wrong": fallbacks are listed (fabric2seis.conditions.assumptions)
+    notes = conditions.assumptions(find_mineral("pyrope"), 2.0, 800.0)
+    assert any("no pressure derivatives" in n for n in notes)
+    assert any("no equation of state" in n for n in notes)
+    assert any("no temperature derivatives" in n for n in notes)
+    assert conditions.assumptions(OLIVINE, 0.0, 25.0) == []
+    assert any("from memory" in n for n in conditions.assumptions(OLIVINE, 0.0, 900.0))

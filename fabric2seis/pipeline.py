@@ -172,20 +172,16 @@ def fabric_figures(folder: Path, sample: Sample, fabrics: dict) -> None:
 def seismic_stage(sample: Sample, progress=None) -> dict:
     """Aggregate tensor, velocity grid and the seismic part of the summary."""
     from fabric2seis import seismic
-    from fabric2seis.minerals import dauphine_average
 
     say = progress or (lambda _msg: None)
     st = sample.settings
     weighting = st.get("weighting") or "area"
     sets = orientation_sets(sample, weighting)
-    crystal = {}
-    if st.get("dauphine", "average") == "average":
-        crystal = {m.name: dauphine_average(m) for m, _, _ in sets if m.symmetry.laue.name in ("-3m", "-3")
-                   and (st["conditions"]["pressure_gpa"] == 0 and st["conditions"]["temperature_c"] == 25.0)}
     say(f"elastic tensor ({weighting} weighting, {st['averaging']} average)")
     cond = st["conditions"]
     agg = seismic.aggregate(sets, sample.fractions, st["averaging"], cond["pressure_gpa"], cond["temperature_c"],
-                            bool(cond.get("allow_ambient_constants", False)), crystal)
+                            bool(cond.get("allow_ambient_constants", False)),
+                            st.get("dauphine", "average") == "average")
     say("velocities on the hemisphere grid")
     grid = seismic.velocity_grid(agg.stiffness, agg.density_kg_m3, float(st.get("velocity_grid_step_deg", 1.0)))
     summary = seismic.seismic_summary(grid, agg.average)
@@ -202,7 +198,7 @@ def seismic_stage(sample: Sample, progress=None) -> dict:
 
         say("splitting of the layer in the ground")
         field, sweep = field_summary(agg.stiffness, agg.density_kg_m3, st["field"], sample.settings_file)
-    return {"aggregate": agg, "grid": grid, "seismic": summary, "crystal_tensors": crystal, "sweep": sweep,
+    return {"aggregate": agg, "grid": grid, "seismic": summary, "sweep": sweep,
             "splitting": {"along_z": {k: along_z[k] for k in ("fast_polarisation_from_x_deg", "delay_s_per_100km")},
                           "field": field}}
 
@@ -221,7 +217,7 @@ def uncertainty_stage(sample: Sample, seis: dict, progress=None) -> dict:
     counts = {m.name: uncertainty.resample_counts(len(q), n, rng) for m, q, _ in sets}
     agg = seis["aggregate"]
     values = uncertainty.seismic_bootstrap(sets, sample.fractions, agg.average, agg.density_kg_m3, counts,
-                                           seis.get("crystal_tensors"))
+                                           agg.crystal_tensors)
     out = {k: uncertainty.interval(v) for k, v in values.items()}
     main = max(sets, key=lambda s: sample.fractions[s[0].name])[0].name
     halfwidth = float(sample.settings["odf"]["halfwidth_deg"])

@@ -23,6 +23,7 @@ class Aggregate:
     tensors: dict[str, np.ndarray]
     density_kg_m3: float
     average: str
+    crystal_tensors: dict[str, np.ndarray] | None = None   # the single-crystal stiffnesses used
 
     @property
     def stiffness(self) -> np.ndarray:
@@ -45,17 +46,18 @@ def mineral_at_conditions(mineral, pressure_gpa: float = 0.0, temperature_c: flo
 
 def aggregate(orientation_sets, fractions: dict[str, float], average: str = "hill",
               pressure_gpa: float = 0.0, temperature_c: float = 25.0, allow_ambient: bool = False,
-              crystal_tensors: dict | None = None) -> Aggregate:
+              dauphine_average: bool = True) -> Aggregate:
     """Aggregate tensor of a rock from (mineral, quaternions, weights) per phase and volume fractions.
 
-    ``crystal_tensors`` may replace a mineral's crystal stiffness (e.g. the Dauphine average of
-    quartz); keys are mineral names.
+    Single-crystal constants are brought to the conditions first; trigonal minerals then take the
+    mean of their two Dauphine variants when ``dauphine_average`` (EBSD cannot tell them apart).
     """
-    parts, densities = [], []
+    parts, densities, used = [], [], {}
     for mineral, quat, weights in orientation_sets:
         c, rho = mineral_at_conditions(mineral, pressure_gpa, temperature_c, allow_ambient)
-        if crystal_tensors and mineral.name in crystal_tensors:
-            c = crystal_tensors[mineral.name]
+        if dauphine_average and mineral.symmetry.laue.name in ("-3m", "-3"):
+            c = (c + elastic.rotate_voigt(c, np.diag([-1.0, -1.0, 1.0]))) / 2.0
+        used[mineral.name] = c
         f = fractions[mineral.name]
         parts.append(elastic.PhaseOrientations(c, to_matrices(quat), weights, f))
         densities.append((f, rho))
@@ -64,7 +66,7 @@ def aggregate(orientation_sets, fractions: dict[str, float], average: str = "hil
         elastic.check_stiffness(t, where=f"{name} average")
     total = sum(f for f, _ in densities)
     rho = sum(f * r for f, r in densities) / total
-    return Aggregate(tensors=tensors, density_kg_m3=float(rho), average=average)
+    return Aggregate(tensors=tensors, density_kg_m3=float(rho), average=average, crystal_tensors=used)
 
 
 @dataclass

@@ -178,3 +178,16 @@ def test_assumptions_under_non_ambient_conditions_are_stated():
     assert any("no temperature derivatives" in n for n in notes)
     assert conditions.assumptions(OLIVINE, 0.0, 25.0) == []
     assert any("from memory" in n for n in conditions.assumptions(OLIVINE, 0.0, 900.0))
+
+
+def test_dauphine_average_also_applies_at_pressure():
+    # CONVENTIONS.md: the Dauphine twins of quartz (a 180 degree turn about c) are averaged, which
+    # removes c14, whatever the conditions the constants were brought to first.
+    quartz = find_mineral("quartz")
+    q = random_quaternions(50, np.random.default_rng(1))
+    agg = seismic.aggregate([(quartz, q, np.ones(50))], {"quartz": 1.0}, "hill", pressure_gpa=1.0)
+    c = agg.crystal_tensors["quartz"]
+    assert abs(c[0, 3]) < 1e-12 and c[0, 0] == pytest.approx(86.80 + 3.28, rel=1e-9)
+    raw = seismic.aggregate([(quartz, q, np.ones(50))], {"quartz": 1.0}, "hill", pressure_gpa=1.0,
+                            dauphine_average=False)
+    assert raw.crystal_tensors["quartz"][0, 3] == pytest.approx(-18.04 + 1.93)

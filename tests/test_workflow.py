@@ -112,3 +112,15 @@ def test_killed_run_completes_on_rerun_without_half_written_outputs(tmp_path):
     assert not list(results.glob(".*partial*"))       # no temporary folders left behind
     for k in range(3):
         assert json.loads((results / f"s{k}" / "summary.json").read_text())["sample"] == f"s{k}"
+
+
+def test_editing_one_sidecar_reruns_only_that_sample(tmp_path):
+    samples, results = _small_suite(tmp_path, n_samples=2)
+    cmd = [sys.executable, "-m", "snakemake", "--cores", "2", "--config", f"samples_dir={samples}",
+           f"results_dir={results}", "-q"]
+    assert subprocess.run(cmd, cwd=ROOT, capture_output=True, timeout=900).returncode == 0
+    (samples / "s1.yaml").write_text("bootstrap: {n: 20}\ngrains: {min_pixels: 3}\n")
+    dry = subprocess.run(cmd[:3] + ["-n"] + cmd[3:-1], cwd=ROOT, capture_output=True, text=True, timeout=300)
+    jobs = [line.strip() for line in (dry.stdout + dry.stderr).splitlines()
+            if line.strip().startswith("wildcards: sample=")]
+    assert jobs == ["wildcards: sample=s1"], (dry.stdout + dry.stderr)[-1500:]

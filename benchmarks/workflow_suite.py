@@ -1,0 +1,83 @@
+"""Benchmark of the batch workflow: a suite of small samples on one and on two cores.
+
+It writes N small synthetic grain lists (200 olivine grains each, 50 bootstrap resamples) into a
+temporary folder, runs the Snakemake workflow on it with ``--cores 1`` and then, from scratch,
+with ``--cores 2`` (after a one-sample warm-up run), and reports the wall times, their ratio (target at most 0.65), and the
+workflow's own overhead per sample: wall time with one core minus the summed time of the
+per-sample work (from each sample's run.log), divided by the number of samples.
+
+Run from the project folder:  python benchmarks/workflow_suite.py [--samples 24]
+"""
+
+from __future__ import annotations
+
+import argparse
+import re
+import shutil
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+from fabric2seis.io.write import write_table
+from fabric2seis.minerals import find_mineral
+from fabric2seis.synth import fabric_orientations
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def run(samples: Path, results: Path, cores: int) -> float:
+    if results.exists():
+        shutil.rmtree(results)
+    start = time.perf_counter()
+    subprocess.run([sys.executable, "-m", "snakemake", "--cores", str(cores), "--config",
+                    f"samples_dir={samples}", f"results_dir={results}", "-q"], cwd=ROOT, check=True,
+                   capture_output=True)
+    return time.perf_counter() - start
+
+
+def work_seconds(results: Path) -> float:
+    total = 0.0
+    for log in results.glob("*/run.log"):
+        last = log.read_text().strip().splitlines()[-1]
+        total += float(re.match(r"\s*([\d.]+) s", last).group(1))
+    return total
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("--samples", type=int, default=24)
+    args = parser.parse_args()
+    folder = Path(tempfile.mkdtemp(prefix="fabric2seis-suite-"))
+    samples = folder / "samples"
+    samples.mkdir()
+    olivine = find_mineral("olivine")
+    for k in range(args.samples):
+        fabric = ("olivine-A", "olivine-B", "olivine-C", "random")[k % 4]
+        write_table(samples / f"bench_{k:02d}.csv", fabric_orientations(olivine, fabric, 200, 20.0, seed=k),
+                    ["olivine"] * 200)
+        (samples / f"bench_{k:02d}.yaml").write_text("bootstrap: {n: 50}\n")
+    # warm-up on one sample, so that neither timed run pays for first-use caches
+    warm = folder / "warm"
+    warm.mkdir()
+    shutil.copy(samples / "bench_00.csv", warm)
+    shutil.copy(samples / "bench_00.yaml", warm)
+    run(warm, folder / "results_warm", 1)
+    one = run(samples, folder / "results1", 1)
+    work = work_seconds(folder / "results1")
+    two = run(samples, folder / "results2", 2)
+    ratio = two / one
+    print(f"{args.samples} samples of 200 grains (50 bootstrap resamples each)")
+    print(f"  --cores 1            {one:8.1f} s")
+    print(f"  --cores 2            {two:8.1f} s")
+    print(f"  ratio                {ratio:8.2f}   (target <= 0.65: {'met' if ratio <= 0.65 else 'NOT met'})")
+    print(f"  per-sample work      {work / args.samples:8.2f} s (from run.log)")
+    print(f"  workflow overhead    {(one - work) / args.samples:8.2f} s per sample (process start-up, imports, "
+          "Snakemake bookkeeping)")
+    shutil.rmtree(folder, ignore_errors=True)
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -63,30 +63,27 @@ def assumptions(mineral, pressure_gpa: float, temperature_c: float) -> list[str]
     return notes
 
 
+def _refuse_unless(allowed: bool, mineral, missing: str, target: str, key: str) -> None:
+    if not allowed:
+        raise InputError(f"mineral '{mineral.name}' has no {missing} in the library, so its constants cannot "
+                         f"be brought to {target}; set conditions.allow_ambient_constants: true to use ambient "
+                         "values for it", where=f"key conditions.{key}")
+
+
 def at_conditions(mineral, pressure_gpa: float, temperature_c: float,
                   allow_ambient: bool = False) -> tuple[np.ndarray, float]:
     """(stiffness in orix's crystal frame, density) of ``mineral`` at P (GPa) and T (C)."""
     c = mineral.stiffness_gpa.copy()
-    notes = []
     if pressure_gpa != 0:
         if mineral.dcij_dp is None:
-            if not allow_ambient:
-                raise InputError(f"mineral '{mineral.name}' has no pressure derivatives in the library, so "
-                                 f"its constants cannot be brought to {pressure_gpa} GPa; set "
-                                 "conditions.allow_ambient_constants: true to use ambient values for it",
-                                 where="key conditions.pressure_gpa")
-            notes.append("ambient constants")
+            _refuse_unless(allow_ambient, mineral, "pressure derivatives", f"{pressure_gpa} GPa", "pressure_gpa")
         else:
             c = c + mineral.dcij_dp * pressure_gpa
             if mineral.d2cij_dp2 is not None:
                 c = c + 0.5 * mineral.d2cij_dp2 * pressure_gpa ** 2
     if temperature_c != AMBIENT_C:
         if mineral.dcij_dt_gpa_per_k is None:
-            if not allow_ambient:
-                raise InputError(f"mineral '{mineral.name}' has no temperature derivatives in the library, so "
-                                 f"its constants cannot be brought to {temperature_c} C; set "
-                                 "conditions.allow_ambient_constants: true to use ambient values for it",
-                                 where="key conditions.temperature_c")
+            _refuse_unless(allow_ambient, mineral, "temperature derivatives", f"{temperature_c} C", "temperature_c")
         else:
             c = c + mineral.dcij_dt_gpa_per_k * (temperature_c - AMBIENT_C)
     c = check_stiffness(c, f"mineral {mineral.name} at {pressure_gpa} GPa, {temperature_c} C")

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fabric2seis import elastic, waves
+from fabric2seis import elastic, minerals, waves
 from fabric2seis.orientations import to_matrices
 
 
@@ -56,7 +56,7 @@ def aggregate(orientation_sets, fractions: dict[str, float], average: str = "hil
     for mineral, quat, weights in orientation_sets:
         c, rho = mineral_at_conditions(mineral, pressure_gpa, temperature_c, allow_ambient)
         if dauphine_average and mineral.symmetry.laue.name in ("-3m", "-3"):
-            c = (c + elastic.rotate_voigt(c, np.diag([-1.0, -1.0, 1.0]))) / 2.0
+            c = minerals.dauphine_average(mineral, c)
         used[mineral.name] = c
         f = fractions[mineral.name]
         parts.append(elastic.PhaseOrientations(c, to_matrices(quat), weights, f))

@@ -274,11 +274,12 @@ def find_mineral(name: str, library: dict[str, Mineral] | None = None) -> Minera
                      f"{', '.join(sorted(library))}")
 
 
-def dauphine_average(mineral: Mineral) -> np.ndarray:
+def dauphine_average(mineral: Mineral, stiffness_gpa: np.ndarray | None = None) -> np.ndarray:
     """Stiffness averaged over the two Dauphine twin variants (180 degrees about c).
 
     For trigonal quartz this zeroes c14 and its companions; EBSD cannot tell the variants
-    apart, so this is the common practice for quartz aggregates.
+    apart, so this is the common practice for quartz aggregates. ``stiffness_gpa`` (e.g. the
+    constants at pressure) replaces the library's ambient constants when given.
     """
-    turn = np.diag([-1.0, -1.0, 1.0])
-    return (mineral.stiffness_gpa + rotate_voigt(mineral.stiffness_gpa, turn)) / 2.0
+    c = mineral.stiffness_gpa if stiffness_gpa is None else np.asarray(stiffness_gpa, dtype=float)
+    return (c + rotate_voigt(c, np.diag([-1.0, -1.0, 1.0]))) / 2.0

@@ -16,6 +16,8 @@ self-convolution Phi at the angle between a and b,
 
 a sum over pairs closer than Phi's support (screened by a matrix product of quaternions). Phi
 comes from the kernel's expansion in SO(3) characters, whose coefficients convolution squares.
+The same integral is summed faster, in time linear in the number of grains, as the Parseval
+series of the ODF's Fourier coefficients (``j_index_harmonics``, the default).
 
 Pole figures: the density of an axial crystal direction h in the structural frame, normalised
 to 1 for uniform, smoothed by the pole figure image of the same kernel,
@@ -35,13 +37,16 @@ import numpy as np
 from scipy.special import betaln
 from scipy.spatial import cKDTree
 
-from fabric2seis.orientations import (misorientation_angles, multiply, proper_symmetry_quaternions,
+from fabric2seis import harmonics
+from fabric2seis.orientations import (conjugate, misorientation_angles, multiply, proper_symmetry_quaternions,
                                       to_matrices)
 
 M_INDEX_BIN_DEG = 1.0
 M_INDEX_PAIRS = 1_000_000
 RANDOM_DISTRIBUTION_PAIRS = 2_000_000
 RANDOM_DISTRIBUTION_SEED = 20050501
+J_SERIES_TOLERANCE = 1e-7       # bound on the J-index series left out
+HARMONIC_DEGREE_LIMIT = 100     # beyond it (halfwidth below about 3.5 degrees) J is summed over pairs
 
 
 # --- the kernel -------------------------------------------------------------------------------
@@ -71,8 +76,8 @@ class Kernel:
 
 
 @functools.lru_cache(maxsize=16)
-def _self_convolution_table(halfwidth_deg: float) -> tuple[np.ndarray, np.ndarray, float]:
-    """Phi = K * K tabulated on [0, pi], and the angle beyond which it is negligible.
+def _self_convolution_table(halfwidth_deg: float) -> tuple[np.ndarray, np.ndarray, float, np.ndarray]:
+    """Phi = K * K tabulated on [0, pi], the angle beyond which it is negligible, and the k_l.
 
     K = sum_l (2l+1) k_l chi_l with chi_l(w) = sin((2l+1) w/2) / sin(w/2) the characters of SO(3)
     and k_l = (1/(2l+1)) integral K chi_l dg; then K * K = sum_l (2l+1) k_l^2 chi_l.
@@ -93,11 +98,11 @@ def _self_convolution_table(halfwidth_deg: float) -> tuple[np.ndarray, np.ndarra
     phi = np.maximum(phi, 0.0)
     # support: where Phi has fallen below 1e-8 of its peak
     cutoff = float(grid[np.flatnonzero(phi > 1e-8 * phi[0])[-1]])
-    return grid, phi, cutoff
+    return grid, phi, cutoff, k_l
 
 
 def self_convolution(halfwidth_deg: float, angle_rad: np.ndarray) -> np.ndarray:
-    grid, phi, _ = _self_convolution_table(float(halfwidth_deg))
+    grid, phi, _, _ = _self_convolution_table(float(halfwidth_deg))
     return np.interp(angle_rad, grid, phi)
 
 
@@ -134,8 +139,98 @@ def j_pair_matrix(quat: np.ndarray, symmetry, halfwidth_deg: float = 10.0, chunk
 
 
 def j_index(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg: float = 10.0,
-            chunk: int = 2048) -> float:
+            method: str = "auto") -> float:
     """J-index (Bunge 1982) of the kernel ODF estimate; 1 for a uniform distribution.
+
+    ``method``: "harmonics" sums the ODF's SO(3) Fourier coefficients (cost linear in the number
+    of grains, see ``j_index_harmonics``), "pairs" sums Phi over close pairs of grains (cost
+    quadratic, exact to 1e-5 of Phi's mass); "auto" takes harmonics unless the kernel is so
+    narrow that its series needs more than HARMONIC_DEGREE_LIMIT degrees.
+    """
+    if method == "auto":
+        method = "harmonics" if len(_kernel_coefficients(float(halfwidth_deg))) <= HARMONIC_DEGREE_LIMIT + 1 else "pairs"
+    if method == "harmonics":
+        return j_index_harmonics(quat, weights, symmetry, halfwidth_deg)
+    if method == "pairs":
+        return j_index_pairs(quat, weights, symmetry, halfwidth_deg)
+    raise ValueError(f"unknown J-index method {method!r}")
+
+
+def j_index_harmonics(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg: float = 10.0) -> float:
+    """J = sum_l (2l+1) k_l^2 |P_l C_l|^2 (Bunge 1982, the Parseval form of the integral of f^2).
+
+    C_l = sum_i w_i D^l(g_i) are the Fourier coefficients of the grains, P_l the average of D^l
+    over the crystal's proper rotations (it projects on functions with the crystal's symmetry),
+    k_l the kernel's character coefficients. The series stops where the remaining terms, bounded
+    by sum (2l+1)^2 k_l^2 since |P_l C_l|^2 <= 2l+1, fall below J_SERIES_TOLERANCE (J >= 1).
+    Rows of C_l not fixed by the crystal's rotations about z are zero after P_l, so only those
+    rows are summed (the frame is first turned so that the highest-order axis lies along z).
+    """
+    k_l = _kernel_coefficients(float(halfwidth_deg))
+    degree = len(k_l) - 1
+    w = np.asarray(weights, dtype=float) / np.sum(weights)
+    turn, about_z = _symmetry_frame(symmetry)
+    q = multiply(conjugate(turn)[None], np.asarray(quat, dtype=float))
+    rows = np.arange(-(degree // about_z) * about_z, degree + 1, about_z)
+    sums = harmonics.fourier_sums(q, w, rows, degree)
+    total = 0.0
+    for l in range(degree + 1):
+        c, m = harmonics.degree_coefficients(sums, rows, degree, l)
+        block = _symmetry_projector(symmetry, l)[np.ix_(m, m)]
+        per_column = np.einsum("mn,mp,pn->n", c.conj(), block, c, optimize=True).real
+        total += (2 * l + 1) * k_l[l] ** 2 * (per_column[0] + 2.0 * per_column[1:].sum())
+    return float(total)
+
+
+@functools.lru_cache(maxsize=16)
+def _kernel_coefficients(halfwidth_deg: float) -> np.ndarray:
+    """k_l, l = 0..L, with L the last degree whose remaining series exceeds J_SERIES_TOLERANCE."""
+    _, _, _, k_l = _self_convolution_table(halfwidth_deg)
+    term = (2 * np.arange(len(k_l)) + 1) ** 2 * k_l ** 2
+    tail = np.cumsum(term[::-1])[::-1]
+    return k_l[:int(np.flatnonzero(tail > J_SERIES_TOLERANCE)[-1]) + 1]
+
+
+def _symmetry_key(symmetry):
+    return symmetry.name, np.asarray(symmetry.data).round(12).tobytes()
+
+
+_FRAMES: dict = {}
+_PROJECTORS: dict = {}
+
+
+def _symmetry_frame(symmetry) -> tuple[np.ndarray, int]:
+    """A turn r (quaternion) taking z to the crystal's highest-order rotation axis, and that order."""
+    key = _symmetry_key(symmetry)
+    if key not in _FRAMES:
+        sym = proper_symmetry_quaternions(symmetry)
+        axes = sym[:, 1:] / np.maximum(np.linalg.norm(sym[:, 1:], axis=1, keepdims=True), 1e-300)
+        moving = np.linalg.norm(sym[:, 1:], axis=1) > 1e-9
+        best, order = np.array([0.0, 0.0, 1.0]), 1
+        for a in axes[moving]:
+            n = int(np.sum(np.abs(np.abs(axes[moving] @ a) - 1.0) < 1e-9)) + 1
+            if n > order or (n == order and abs(a[2]) > abs(best[2]) + 1e-9):
+                best, order = a * np.sign(a[np.argmax(np.abs(a))]), n
+        tilt = np.cross([0.0, 0.0, 1.0], best)
+        angle = np.arctan2(np.linalg.norm(tilt), best[2])
+        axis = tilt / np.linalg.norm(tilt) if np.linalg.norm(tilt) > 1e-12 else np.array([0.0, 0.0, 1.0])
+        _FRAMES[key] = (np.concatenate([[np.cos(angle / 2)], np.sin(angle / 2) * axis]), order)
+    return _FRAMES[key]
+
+
+def _symmetry_projector(symmetry, l: int) -> np.ndarray:
+    """P_l = mean of D^l(r^-1 s r) over the proper rotations s, in the turned frame of ``_symmetry_frame``."""
+    key = (_symmetry_key(symmetry), l)
+    if key not in _PROJECTORS:
+        turn, _ = _symmetry_frame(symmetry)
+        sym = multiply(multiply(conjugate(turn)[None], proper_symmetry_quaternions(symmetry)), turn[None])
+        _PROJECTORS[key] = sum(harmonics.wigner_matrix(l, s) for s in sym) / len(sym)
+    return _PROJECTORS[key]
+
+
+def j_index_pairs(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg: float = 10.0,
+                  chunk: int = 2048) -> float:
+    """J as the pair sum over Phi (see the module docstring).
 
     Pairs are screened by |q_i . t q_j| = cos(angle/2) from one matrix product per block of
     grains and symmetry operation; only pairs within Phi's support (tail mass below 1e-5) are
@@ -165,7 +260,7 @@ def j_index(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg: floa
 @functools.lru_cache(maxsize=16)
 def _phi_by_cos_half(halfwidth_deg: float) -> tuple[np.ndarray, np.ndarray, float]:
     """Phi tabulated against cos(angle/2) (increasing), and the cos(angle/2) of its support edge."""
-    grid, phi, _ = _self_convolution_table(halfwidth_deg)
+    grid, phi, _, _ = _self_convolution_table(halfwidth_deg)
     density = phi * (2.0 / np.pi) * np.sin(grid / 2.0) ** 2
     mass = np.cumsum(density) * (grid[1] - grid[0])
     edge = grid[np.argmax(mass > 1.0 - 1e-5)]

@@ -60,7 +60,7 @@ def test_random_fabric_of_20000_grains():
     q = random_quaternions(n, np.random.default_rng(11))
     j = fabric.j_index(q, np.ones(n), OLIVINE.symmetry, 10.0)
     j1 = kernel_square_integral(10.0) / K_SYM
-    grid, phi, _ = fabric._self_convolution_table(10.0)
+    grid, phi, _, _ = fabric._self_convolution_table(10.0)
     haar = (2 / np.pi) * np.sin(grid / 2) ** 2
     var_phi_s = np.trapezoid(phi ** 2 * haar, grid) / K_SYM - 1.0     # Phi averaged over S, non-overlapping
     sigma = np.sqrt(2 * var_phi_s) / n
@@ -90,7 +90,40 @@ def test_j_agrees_with_brute_force_all_pairs_on_5000_grains():
             c = np.clip(np.abs(q[start:start + 1000] @ moved.T), 0, 1)
             total += wn[start:start + 1000] @ fabric.self_convolution(10.0, 2 * np.arccos(c)) @ wn
     brute = total / K_SYM
-    assert fast == pytest.approx(brute, rel=1e-3)
+    assert fast == pytest.approx(brute, rel=1e-4)      # the issue asks 1e-3; the series holds 1e-5
+
+
+@pytest.mark.parametrize("name", ["olivine", "quartz", "calcite", "pyrope", "diopside", "albite", "ice"])
+def test_j_by_harmonics_and_by_pairs_agree_for_every_point_group(name):
+    # Two independent sums of the same integral (Bunge 1982): the Parseval series over Wigner
+    # matrices with the symmetry projector, and the pair sum over the kernel's self-convolution.
+    # Point groups mmm, 32, -3m, m-3m, 2/m (2-fold along b: the frame is turned), -1 and 6/mmm.
+    mineral = find_mineral(name)
+    rng = np.random.default_rng(21)
+    n = 1500
+    clustered = multiply(random_quaternions(1, rng), random_quaternions(n, rng) * [1, 0.12, 0.12, 0.12])
+    clustered /= np.linalg.norm(clustered, axis=1, keepdims=True)
+    for q in (random_quaternions(n, rng), clustered):
+        w = rng.uniform(0.5, 2.0, n)
+        by_pairs = fabric.j_index(q, w, mineral.symmetry, 10.0, method="pairs")
+        by_series = fabric.j_index(q, w, mineral.symmetry, 10.0, method="harmonics")
+        assert by_series == pytest.approx(by_pairs, rel=2e-5)     # pairs leave 1e-5 of Phi's mass out
+
+
+def test_wigner_matrices_form_a_representation():
+    # D(ab) = D(a) D(b) and D unitary (common practice, e.g. Varshalovich et al. 1988); d(beta)
+    # against the closed forms d^1_00 = cos b, d^1_10 = -sin b / sqrt(2), d^1_11 = (1 + cos b)/2
+    # (Condon-Shortley convention, Varshalovich et al. 1988, table 4.3; from memory).
+    from fabric2seis import harmonics
+    a, b = random_quaternions(2, np.random.default_rng(8))
+    for l in (1, 4, 9):
+        da, db = harmonics.wigner_matrix(l, a), harmonics.wigner_matrix(l, b)
+        assert np.allclose(harmonics.wigner_matrix(l, multiply(a, b)), da @ db, atol=1e-12)
+        assert np.allclose(da @ da.conj().T, np.eye(2 * l + 1), atol=1e-12)
+    beta = 0.7
+    d = harmonics.wigner_matrix(1, np.array([np.cos(beta / 2), 0, np.sin(beta / 2), 0])).real
+    assert d[1, 1] == pytest.approx(np.cos(beta)) and d[2, 1] == pytest.approx(-np.sin(beta) / np.sqrt(2))
+    assert d[2, 2] == pytest.approx((1 + np.cos(beta)) / 2)
 
 
 def test_mackenzie_limits_of_random_misorientation_distributions():

@@ -59,6 +59,11 @@ are deleted at the end unless ``--keep`` is given. The exit status is 0 when eve
 
 from __future__ import annotations
 
+import sys as _sys
+from pathlib import Path as _Path
+
+_sys.path.insert(0, str(_Path(__file__).resolve().parents[1]))   # measure this checkout, not an installed copy
+
 import argparse
 import contextlib
 import io

@@ -43,6 +43,11 @@ speed targets are reported but do not change the exit status.
 
 from __future__ import annotations
 
+import sys as _sys
+from pathlib import Path as _Path
+
+_sys.path.insert(0, str(_Path(__file__).resolve().parents[1]))   # measure this checkout, not an installed copy
+
 import argparse
 import os
 import platform

@@ -46,6 +46,7 @@ M_INDEX_PAIRS = 1_000_000
 RANDOM_DISTRIBUTION_PAIRS = 2_000_000
 RANDOM_DISTRIBUTION_SEED = 20050501
 J_SERIES_TOLERANCE = 1e-7       # bound on the J-index series left out
+ODF_SUPPORT = 1e-10                # the ODF sums grains where K exceeds this fraction of K(0)
 HARMONIC_DEGREE_LIMIT = 100     # beyond it (halfwidth below about 3.5 degrees) J is summed over pairs
 
 
@@ -270,15 +271,31 @@ def _phi_by_cos_half(halfwidth_deg: float) -> tuple[np.ndarray, np.ndarray, floa
 
 def odf_values(quat_at: np.ndarray, quat: np.ndarray, weights: np.ndarray, symmetry,
                halfwidth_deg: float = 10.0) -> np.ndarray:
-    """f at orientations ``quat_at`` (m.u.d.), summing all grains (for checks and small sets)."""
+    """f at orientations ``quat_at`` (m.u.d.).
+
+    Only grains within the kernel's support (where K has fallen below ODF_SUPPORT of its peak)
+    are summed: the symmetry equivalents of all grains, with both signs of each quaternion, go
+    into one k-d tree and each point gathers its neighbours within the chord distance of the
+    support angle (the kernel is a function of |q_at . t q_i| = cos(angle/2) alone).
+    """
     sym = proper_symmetry_quaternions(symmetry)
     kernel = Kernel(halfwidth_deg)
     w = np.asarray(weights, dtype=float) / np.sum(weights)
-    out = np.zeros(len(quat_at))
-    for t in sym:
-        moved = multiply(t[None], quat)
-        cos_half = np.abs(quat_at @ moved.T)
-        out += (kernel.norm * np.clip(cos_half, 0, 1) ** (2.0 * kernel.kappa)) @ w
+    cos_cut = ODF_SUPPORT ** (1.0 / (2.0 * kernel.kappa))        # cos(angle/2) at the support edge
+    moved = multiply(sym[:, None, :], np.asarray(quat, dtype=float)[None]).reshape(-1, 4)
+    points = np.vstack([moved, -moved])
+    owner = np.tile(np.arange(len(quat)), 2 * len(sym))
+    at = np.asarray(quat_at, dtype=float)
+    out = np.zeros(len(at))
+    radius = np.sqrt(2.0 - 2.0 * cos_cut)
+    tree = cKDTree(points)
+    for start in range(0, len(at), 20_000):
+        block = at[start:start + 20_000]
+        near = cKDTree(block).sparse_distance_matrix(tree, radius, output_type="coo_matrix")
+        c = 1.0 - near.data ** 2 / 2.0                          # |q - p|^2 = 2 - 2 q.p
+        out[start:start + len(block)] = np.bincount(
+            near.row, weights=w[owner[near.col]] * kernel.norm * np.clip(c, 0, 1) ** (2.0 * kernel.kappa),
+            minlength=len(block))
     return out / len(sym)
 
 

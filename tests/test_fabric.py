@@ -37,6 +37,23 @@ def test_odf_estimate_integrates_to_one():
     assert f.mean() == pytest.approx(1.0, abs=4 * f.std() / np.sqrt(len(f)))
 
 
+def test_odf_by_neighbour_search_equals_the_sum_over_all_grains():
+    # f(g) = sum_i w_i (1/|S|) sum_t K(angle(g, t g_i)) (Schaeben 1997) summed here over every grain
+    # and operation, no support cut-off, against the neighbour-search estimate.
+    rng = np.random.default_rng(9)
+    grains = fabric_orientations(OLIVINE, "olivine-A", 400, 20.0, seed=4)
+    w = rng.uniform(0.5, 2.0, 400)
+    at = np.vstack([random_quaternions(300, rng), grains[:50]])
+    kernel = fabric.Kernel(10.0)
+    full = np.zeros(len(at))
+    for t in proper_symmetry_quaternions(OLIVINE.symmetry):
+        c = np.abs(at @ multiply(t[None], grains).T)
+        full += kernel.value(2 * np.arccos(np.clip(c, 0, 1))) @ (w / w.sum())
+    full /= K_SYM
+    assert np.allclose(fabric.odf_values(at, grains, w, OLIVINE.symmetry, 10.0), full, rtol=1e-9, atol=1e-8)
+    assert full.max() > 5      # the check includes points on the fabric's maximum
+
+
 def test_single_orientation_gives_the_j_of_the_kernel_and_m_near_one():
     # All grains identical: f is the kernel averaged over the |S| equivalents, so J is the integral
     # of K^2 divided by |S| (the equivalents of an orthorhombic crystal are 180 degrees apart and do

@@ -250,6 +250,12 @@ def test_field_without_stack_still_needs_measurements(result_folder, capsys):
     assert "--measurements" in capsys.readouterr().err
 
 
+def test_stack_takes_no_result_folders_on_the_command_line(result_folder, capsys):
+    stack = write_stack(result_folder, "layers:\n  - {fast_azimuth_deg: 20, delay_s: 0.8}\n")
+    assert main(["field", str(result_folder / "res"), "--stack", str(stack)]) == 2
+    assert "give no RESULT_DIR" in capsys.readouterr().err
+
+
 @pytest.mark.parametrize("text,expected", [
     ("period_s: 8\n", "key layers: missing key 'layers'"),
     ("layers: {fast_azimuth_deg: 10, delay_s: 1}\n", "key layers: layers must be a non-empty list"),

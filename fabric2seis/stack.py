@@ -110,7 +110,12 @@ def read_stack(path: str | Path) -> dict:
     from fabric2seis.settings import read_yaml
 
     path = Path(path)
-    data = read_yaml(path)
+    if not path.is_file():
+        raise InputError("no such stack file", path)
+    try:
+        data = read_yaml(path)
+    except InputError as exc:                     # read_yaml speaks of settings files
+        raise InputError(exc.message.replace("settings", "the stack file"), path, exc.where) from None
     _unknown(data, TOP_KEYS, path, "")
     if "layers" not in data:
         raise InputError("missing key 'layers' (a list of layers, bottom to top)", path, "key layers")

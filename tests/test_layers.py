@@ -270,6 +270,8 @@ def test_stack_takes_no_result_folders_on_the_command_line(result_folder, capsys
     ("layers:\n  - result: res\n    field: {foliation_strike_deg: 0, foliation_dip_deg: 95, lineation_pitch_deg: 0}\n",
      "key layers[0].field.foliation_dip_deg: foliation dip 95.0 is outside 0-90"),
     ("layers:\n  - {fast_azimuth_deg: ten, delay_s: 1}\n", "fast_azimuth_deg = 'ten' is not a number"),
+    ("- {fast_azimuth_deg: 10, delay_s: 1}\n", "the stack file must be a YAML mapping"),
+    ("layers: [\n", "not valid YAML"),
 ])
 def test_bad_stack_files_are_one_line_errors_with_exit_2_and_no_output(result_folder, capsys, text, expected):
     stack = write_stack(result_folder, text)

@@ -76,8 +76,19 @@ def _field(args: argparse.Namespace) -> int:
     from fabric2seis.field import CAUTIONS, run_field
 
     if args.stack:
-        raise InputError("--stack (several layers) is not available yet; fit one layer per sample for now",
-                         args.stack)
+        from fabric2seis.stack import run_stack
+
+        if args.result_dirs or args.fix:
+            raise InputError("with --stack the layers come from the stack file: give no RESULT_DIR and no --fix",
+                             args.stack)
+        out, cautions = run_stack(args.stack, args.measurements, args.out)
+        print(f"wrote {out}")
+        for note in cautions:
+            print(f"caution: {note}")
+        return 0
+    if not args.result_dirs or not args.measurements:
+        raise InputError("field needs RESULT_DIR... and --measurements CSV (or --stack FILE, where "
+                         "--measurements is optional)")
     out = run_field(args.result_dirs, args.measurements, args.out, set(args.fix or ()))
     print(f"wrote {out}")
     print(f"caution: {CAUTIONS}")
@@ -138,15 +149,18 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--out", metavar="DIR", help="output folder (default results/<stem>)")
     p.set_defaults(run=_sample)
 
-    p = commands.add_parser("field", help="compare predicted splitting with field measurements and fit a layer")
-    p.add_argument("result_dirs", nargs="+", metavar="RESULT_DIR", help="results folders of 'fabric2seis sample'")
-    p.add_argument("--measurements", required=True, metavar="CSV",
+    p = commands.add_parser("field", help="compare predicted splitting with field measurements and fit a layer; "
+                            "or predict the apparent splitting of several layers (--stack)")
+    p.add_argument("result_dirs", nargs="*", metavar="RESULT_DIR", help="results folders of 'fabric2seis sample' "
+                   "(not with --stack)")
+    p.add_argument("--measurements", metavar="CSV",
                    help="station, baz_deg, fast_azimuth_deg, delay_s [, fast_azimuth_err_deg, delay_err_s, null, "
-                        "incidence_deg]")
+                        "incidence_deg]; needed for the fit, optional with --stack (then drawn over the predictions)")
     p.add_argument("--out", metavar="DIR", help="output folder (default results/field)")
     p.add_argument("--fix", action="append", choices=["thickness", "azimuth", "foliation"],
                    help="hold one parameter at the sample's own field settings; may be repeated")
-    p.add_argument("--stack", metavar="FILE", help="several layers (YAML, bottom to top): not available yet")
+    p.add_argument("--stack", metavar="FILE", help="several layers (YAML, bottom to top): apparent splitting "
+                   "against back-azimuth, analytic and from synthetic waveforms, and the predicted nulls")
     p.set_defaults(run=_field)
 
     from fabric2seis.synth import IDEAL_FABRICS

@@ -82,7 +82,7 @@ def stage_part(olivine, n_grains: int, n_resamples: int) -> None:
         a = stage()
         counts = uncertainty.resample_counts(n_grains, n_resamples, np.random.default_rng(1))
         return uncertainty.seismic_bootstrap(sets, fractions, "hill", a.density_kg_m3, {"olivine": counts})
-    boot_s, values = best_of(with_bootstrap, 1)
+    boot_s, values = best_of(with_bootstrap, 3)
     ratio = boot_s / plain_s
 
     import tempfile

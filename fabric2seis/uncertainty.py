@@ -27,10 +27,15 @@ MAX_J_GRAINS = 20_000
 
 
 def resample_counts(n: int, n_resamples: int, rng: np.random.Generator) -> np.ndarray:
-    """How often each of n grains is drawn in each resample (n_resamples, n)."""
-    draws = rng.integers(0, n, size=(n_resamples, n), dtype=np.int64)
-    draws += (np.arange(n_resamples) * n)[:, None]
-    return np.bincount(draws.ravel(), minlength=n_resamples * n).reshape(n_resamples, n).astype(float)
+    """How often each of n grains is drawn in each resample (n_resamples, n).
+
+    One resample at a time: a count vector of n fits in cache, which makes this twice as fast
+    as one bincount over all resamples.
+    """
+    out = np.empty((n_resamples, n))
+    for row in out:
+        row[:] = np.bincount(rng.integers(0, n, size=n), minlength=n)
+    return out
 
 
 def interval(values: np.ndarray) -> list[float]:
@@ -38,22 +43,24 @@ def interval(values: np.ndarray) -> list[float]:
     return [round(float(lo), 6), round(float(hi), 6)]
 
 
-def _resampled_means(x_kelvin: np.ndarray, g: np.ndarray, weights: np.ndarray, counts: np.ndarray,
-                     cw: np.ndarray | None = None) -> np.ndarray:
+def _resampled_means(x_kelvin: np.ndarray, g: np.ndarray, weights: np.ndarray, counts: np.ndarray) -> np.ndarray:
     """Weighted means (B, 6, 6) of the rotated Kelvin matrix for every resample: one product.
 
-    ``cw`` (counts times weights, rows normalised) may be passed in when it is shared.
+    ``x_kelvin`` may be a stack (T, 6, 6) of single-crystal matrices; then the result is
+    (T, B, 6, 6). Mean_b = sum_i c_bi w_i X_i / sum_i c_bi w_i, so the weights multiply the
+    per-grain matrices once and the counts enter one matrix product.
     """
-    per_grain = elastic.rotated_kelvin(x_kelvin, g)
-    if cw is None:
-        cw = _normalised_weights(counts, weights)
-    return (cw @ per_grain.reshape(len(g), 36)).reshape(-1, 6, 6)
-
-
-def _normalised_weights(counts: np.ndarray, weights: np.ndarray) -> np.ndarray:
-    cw = counts * weights[None, :]
-    cw /= cw.sum(axis=1, keepdims=True)
-    return cw
+    stack = np.asarray(x_kelvin)
+    single = stack.ndim == 2
+    stack = stack[None] if single else stack
+    upper = np.triu_indices(6)                         # the matrices are symmetric: 21 entries
+    columns = [weights[:, None] * elastic.rotated_kelvin(x, g)[:, upper[0], upper[1]] for x in stack]
+    totals = counts @ np.column_stack(columns + [weights])                         # (B, 21 T + 1)
+    part = (totals[:, :-1] / totals[:, -1:]).reshape(len(counts), len(stack), 21)
+    means = np.empty((len(stack), len(counts), 6, 6))
+    means[:, :, upper[0], upper[1]] = part.swapaxes(0, 1)
+    means[:, :, upper[1], upper[0]] = part.swapaxes(0, 1)
+    return means[0] if single else means
 
 
 def seismic_bootstrap(grain_sets, fractions: dict, average: str, density_kg_m3: float,
@@ -64,16 +71,16 @@ def seismic_bootstrap(grain_sets, fractions: dict, average: str, density_kg_m3: 
     for mineral, quat, weights in grain_sets:
         c = (crystal_tensors or {}).get(mineral.name, mineral.stiffness_gpa)
         ck = elastic.voigt_to_kelvin(c)
-        g = to_matrices(quat)
         f = fractions[mineral.name] / total
-        k = counts[mineral.name]
-        cw = _normalised_weights(k, weights)
+        wanted = {"voigt": [ck], "reuss": [np.linalg.inv(ck)], "hill": [ck, np.linalg.inv(ck)],
+                  "geometric": [elastic.logm_spd(ck)]}[average]
+        means = _resampled_means(np.stack(wanted), to_matrices(quat), weights, counts[mineral.name])
         if average in ("voigt", "hill"):
-            stiff = stiff + f * _resampled_means(ck, g, weights, k, cw)
+            stiff = stiff + f * means[0]
         if average in ("reuss", "hill"):
-            comp = comp + f * _resampled_means(np.linalg.inv(ck), g, weights, k, cw)
+            comp = comp + f * means[-1]
         if average == "geometric":
-            logs = logs + f * _resampled_means(elastic.logm_spd(ck), g, weights, k, cw)
+            logs = logs + f * means[0]
     if average == "voigt":
         tensors = elastic.kelvin_to_voigt(stiff)
     elif average == "reuss":
@@ -85,7 +92,8 @@ def seismic_bootstrap(grain_sets, fractions: dict, average: str, density_kg_m3: 
     tensors = (tensors + np.swapaxes(tensors, 1, 2)) / 2
     dirs, _, _ = waves.hemisphere_grid(RESAMPLE_GRID_STEP_DEG)
     dirs = np.vstack([dirs, [[0.0, 0.0, -1.0]]])          # the last one: along Z, for the delay
-    vp, vs1, vs2 = waves.speeds_for_many_tensors(tensors, density_kg_m3, dirs)
+    # resampled aggregates lie close to their mean: velocities by perturbation about it
+    vp, vs1, vs2 = waves.speeds_near(tensors.mean(axis=0), tensors, density_kg_m3, dirs)
     avs = 200 * (vs1 - vs2) / (vs1 + vs2)
     return {"avp_pct": 200 * (vp.max(1) - vp.min(1)) / (vp.max(1) + vp.min(1)),
             "avs_max_pct": avs.max(1), "vp_max_km_s": vp.max(1),

@@ -93,7 +93,7 @@ def speeds_near(c_reference: np.ndarray, c_voigt: np.ndarray, density_kg_m3: flo
     lam_1 + D_11 + sum_s D_1s^2 / (lam_1 - lam_s), and the S roots are the eigenvalues of the 2x2
     block lam_s delta_ss' + D_ss' - D_s1 D_1s' / (lam_1 - lam_s) (second-order partitioning,
     common practice, e.g. Loewdin 1951): exact within the S plane, so near-degenerate S waves are
-    handled, with an error of third order in D_1s over the P-S gap. D is linear in the stiffness
+    handled, with an error of third order, about D_1s^2 |D| / gap^2 for the P-S gap. D is linear in the stiffness
     difference, so all B tensors take one matrix product. Entries whose third-order bound exceeds
     SPEEDS_NEAR_TOLERANCE of their root are solved exactly. The bootstrap uses this: resampled
     aggregates differ from the estimate by a small fraction.
@@ -124,7 +124,9 @@ def speeds_near(c_reference: np.ndarray, c_voigt: np.ndarray, density_kg_m3: flo
     s12 = d12 - d01 * d02 * 2.0 / (gap1 + gap2)
     mean, half = (s11 + s22) / 2.0, np.sqrt(((s11 - s22) / 2.0) ** 2 + s12 ** 2)
     values = np.stack([p, mean + half, mean - half], axis=-1)                     # (B, M, 3)
-    third_order = np.maximum(np.abs(d01), np.abs(d02)) ** 3 / np.minimum(gap1, gap2) ** 2
+    coupling = np.maximum(np.abs(d01), np.abs(d02))
+    size = np.maximum.reduce([coupling, np.abs(d00), np.abs(d11), np.abs(d22), np.abs(d12)])
+    third_order = coupling ** 2 * size / np.minimum(gap1, gap2) ** 2
     redo = ~(third_order <= SPEEDS_NEAR_TOLERANCE * np.abs(mean - half))
     if np.any(redo):
         exact, _ = _eigen_from_components((reference[None] + g)[redo])

@@ -122,3 +122,34 @@ def test_hemisphere_grid_is_near_uniform_and_covers_the_lower_hemisphere():
     assert np.allclose(waves.direction_from_angles(az, pl), dirs)
     below = dirs[dirs[:, 2] < -1e-9]  # on the horizon n and -n are both 'lower'
     assert np.allclose(waves.to_lower_hemisphere(-below), below)
+
+
+def test_speeds_near_a_reference_match_the_exact_solution():
+    # Perturbation about a reference tensor (used by the bootstrap) against numpy.linalg.eigh of
+    # each Christoffel matrix: bootstrap-like aggregates of 30 olivine crystals (large, uneven
+    # differences), and a transversely isotropic tensor along its axis, where Vs1 = Vs2 exactly
+    # (degenerate S waves: common practice, Thomsen 1986), perturbed slightly.
+    from fabric2seis.minerals import find_mineral
+    olivine = find_mineral("olivine")
+    rng = np.random.default_rng(5)
+    ck = el.voigt_to_kelvin(olivine.stiffness_gpa)
+    g = random_rotation_matrices(30, seed=3)
+    tensors = []
+    for _ in range(40):
+        counts = np.bincount(rng.integers(0, 30, 30), minlength=30).astype(float)
+        tensors.append(el.kelvin_to_voigt(el.weighted_rotated_mean(ck, g, counts)))
+    ti = np.zeros((6, 6))
+    ti[:3, :3] = [[220, 80, 70], [80, 220, 70], [70, 70, 180]]
+    ti[3, 3] = ti[4, 4] = 55.0
+    ti[5, 5] = 70.0
+    wobble = rng.normal(0, 0.3, (40, 6, 6))
+    sets = [np.array(tensors), ti[None] + (wobble + np.swapaxes(wobble, 1, 2)) / 2]
+    dirs = np.vstack([waves.hemisphere_grid(6.0)[0], [[0.0, 0.0, -1.0]]])
+    for many in sets:
+        reference = many.mean(axis=0)
+        near = waves.speeds_near(reference, many, 3300.0, dirs)
+        for b in range(0, len(many), 7):
+            gamma = waves.christoffel_matrices(many[b], dirs)
+            exact = np.sqrt(np.linalg.eigvalsh(gamma)[:, ::-1] * 1e3 / 3300.0)
+            for wave in range(3):
+                assert np.allclose(near[wave][b], exact[:, wave], rtol=1e-7)

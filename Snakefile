@@ -16,4 +16,5 @@ rule all:
     input:
         f"{RESULTS}/suite_summary.csv",
         f"{RESULTS}/suite_comparison.png",
+        expand(f"{RESULTS}/report_parts/{{sample}}", sample=sorted(SAMPLES)),
         [f"{RESULTS}/field/field_fit.json"] if MEASUREMENTS else [],

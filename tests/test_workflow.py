@@ -87,7 +87,7 @@ def test_report_holds_every_good_sample_with_captions_and_the_bad_one_as_a_statu
     for sample in ("one sample", "two"):
         for figure in FIGURES:
             entry = entries[(sample, f"{figure}.png")]
-            assert entry["mime_type"] == "image/png" and entry["data_uri"].startswith("data:image/png;base64,")
+            assert entry["mime_type"] == "image/png" and entry["data_uri"].startswith("data:image/png;")
             assert f"of sample {sample}" in entry["caption"]
         assert "structural frame" in entries[(sample, "pole_figures.png")]["caption"]
         assert "key_numbers.csv" in {name for s, name in entries if s == sample}

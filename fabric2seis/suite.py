@@ -145,3 +145,16 @@ def gather_report_files(status_file: str | Path, out_dir: str | Path) -> list[Pa
         if (results / f"{name}.csv").is_file():
             written.append(Path(shutil.copyfile(results / f"{name}.csv", out / f"{name}.csv")))
     return written
+
+
+def gather_field_report_files(field_dir: str | Path, out_dir: str | Path) -> list[Path]:
+    """Copy the field comparison's figures (PNG) and ``predictions.csv`` into ``out_dir``.
+
+    ``field_fit.json`` itself is reported from the field folder, so it is not copied.
+    """
+    import shutil
+
+    field_dir, out = Path(field_dir), Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    sources = sorted(field_dir.glob("*.png")) + [field_dir / "predictions.csv"]
+    return [Path(shutil.copyfile(f, out / f.name)) for f in sources if f.is_file()]

@@ -45,6 +45,7 @@ def suite(tmp_path_factory):
         (samples / f"{name}.yaml").write_text("bootstrap: {n: 20}\n")
     (samples / "one sample.yaml").write_text("bootstrap: {n: 20}\n" + PLACED)    # a splitting figure too
     (samples / "broken.ctf").write_bytes(b"\x00\x01\x02 not a ctf")
+    (samples / "measured.csv").write_text((ROOT / "demo_samples" / "field_measurements.csv").read_text())
     results = folder / "results"
     run = subprocess.run([sys.executable, "-m", "fabric2seis", "suite", "--samples", str(samples),
                           "--results", str(results), "--cores", "2", "-q"], cwd=ROOT, capture_output=True, text=True)
@@ -97,7 +98,10 @@ def test_report_holds_every_good_sample_with_captions_and_the_bad_one_as_a_statu
     assert {name for s, name in entries if s == "broken"} == {"key_numbers.csv"}
     status = base64.b64decode(entries[("broken", "key_numbers.csv")]["data_uri"].split(",", 1)[1]).decode()
     assert "not a text file" in status
-    numbers = pd.read_csv(results / "report_parts" / "two" / "key_numbers.csv")
+    field = {name for s, name in entries if s == "field"}
+    assert {"fast_directions.png", "predictions.csv"} <= field
+    assert {"splitting_one_sample_VLM-N.png", "misfit_two_VLM-S.png"} <= field
+    numbers = pd.read_csv(results / "report_parts" / "samples" / "two" / "key_numbers.csv")
     summary = json.loads((results / "two" / "summary.json").read_text())
     avs = numbers.set_index("quantity").loc["AVs max"]
     assert float(avs["value"]) == pytest.approx(summary["seismic"]["avs_max_pct"], rel=1e-12)

@@ -10,10 +10,12 @@ include: "workflow/rules/common.smk"
 include: "workflow/rules/sample.smk"
 include: "workflow/rules/suite.smk"
 include: "workflow/rules/field.smk"
+include: "workflow/rules/report.smk"
 
 
 rule all:
     input:
         f"{RESULTS}/suite_summary.csv",
         f"{RESULTS}/suite_comparison.png",
-        [f"{RESULTS}/field/field_fit.json"] if MEASUREMENTS else [],
+        expand(f"{RESULTS}/report_parts/samples/{{sample}}", sample=sorted(SAMPLES)),
+        [f"{RESULTS}/field/field_fit.json", f"{RESULTS}/report_parts/field"] if MEASUREMENTS else [],

@@ -80,3 +80,4 @@ def suite_table_from_status(status_files: list[str | Path]) -> pd.DataFrame:
         else:
             rows.append({"sample": status["sample"], "status": status["status"]})
     return pd.DataFrame(rows)
+

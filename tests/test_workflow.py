@@ -1,6 +1,9 @@
 """The Snakemake workflow on a small temporary suite (CONTRACT.md, outputs of the suite)."""
 
+import base64
 import json
+import os
+import re
 import subprocess
 import sys
 from pathlib import Path
@@ -13,6 +16,22 @@ from fabric2seis.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations
 
 ROOT = Path(__file__).resolve().parents[1]
+# Snakemake runs each rule's script in a new Python process: make it import this checkout of
+# fabric2seis, not whichever copy happens to be installed.
+os.environ["PYTHONPATH"] = os.pathsep.join(p for p in (str(ROOT), os.environ.get("PYTHONPATH")) if p)
+FIGURES = ("pole_figures", "inverse_pole_figures", "fabric_convergence", "velocities")
+PLACED = "field: {foliation_strike_deg: 30.0, foliation_dip_deg: 5.0, lineation_pitch_deg: 15.0, layer_thickness_km: 60.0}\n"
+
+
+def _planned_jobs(dry_run_text: str) -> list[tuple[str, str]]:
+    """(rule, sample) of every per-sample job in the text of a Snakemake dry run."""
+    jobs, rule = [], None
+    for line in dry_run_text.splitlines():
+        if m := re.match(r"\s*(?:local)?rule (\w+):", line):
+            rule = m.group(1)
+        elif m := re.match(r"\s*wildcards: sample=(.*)$", line):
+            jobs.append((rule, m.group(1).strip()))
+    return sorted(jobs)
 
 
 @pytest.fixture(scope="module")
@@ -24,7 +43,9 @@ def suite(tmp_path_factory):
     for name, fabric in (("one sample", "olivine-A"), ("two", "olivine-B")):   # a space in a name
         write_table(samples / f"{name}.csv", fabric_orientations(ol, fabric, 120, 20.0, seed=3), ["olivine"] * 120)
         (samples / f"{name}.yaml").write_text("bootstrap: {n: 20}\n")
+    (samples / "one sample.yaml").write_text("bootstrap: {n: 20}\n" + PLACED)    # a splitting figure too
     (samples / "broken.ctf").write_bytes(b"\x00\x01\x02 not a ctf")
+    (samples / "measured.csv").write_text((ROOT / "demo_samples" / "field_measurements.csv").read_text())
     results = folder / "results"
     run = subprocess.run([sys.executable, "-m", "fabric2seis", "suite", "--samples", str(samples),
                           "--results", str(results), "--cores", "2", "-q"], cwd=ROOT, capture_output=True, text=True)
@@ -52,6 +73,42 @@ def test_suite_outputs_agree_with_the_sample_command(suite, tmp_path):
     assert a == b
 
 
+def test_report_holds_every_good_sample_with_captions_and_the_bad_one_as_a_status(suite):
+    samples, results, _ = suite
+    report = results / "report.html"
+    run = subprocess.run([sys.executable, "-m", "snakemake", "--report", str(report), "--config",
+                          f"samples_dir={samples}", f"results_dir={results}"], cwd=ROOT, capture_output=True,
+                         text=True, timeout=600)
+    assert run.returncode == 0, run.stderr[-2000:]
+    html = report.read_text()
+    # the report's table of results: one entry per file, keyed by its path, with caption and data
+    entries = {}
+    for key, body in re.findall(r'"([^"]*report_parts/[^"]+)": (\{"name".*?"data_uri": "[^"]*"\})', html):
+        entries[tuple(Path(key).parts[-2:])] = json.loads(body)
+    for sample in ("one sample", "two"):
+        for figure in FIGURES:
+            entry = entries[(sample, f"{figure}.png")]
+            assert entry["mime_type"] == "image/png" and entry["data_uri"].startswith("data:image/png;")
+            assert f"of sample {sample}" in entry["caption"]
+        assert "structural frame" in entries[(sample, "pole_figures.png")]["caption"]
+        assert "key_numbers.csv" in {name for s, name in entries if s == sample}
+    assert (("one sample", "splitting_vs_backazimuth.png") in entries
+            and ("one sample", "splitting_vs_backazimuth.csv") in entries)
+    assert ("two", "splitting_vs_backazimuth.png") not in entries          # no field settings
+    assert {name for s, name in entries if s == "broken"} == {"key_numbers.csv"}
+    status = base64.b64decode(entries[("broken", "key_numbers.csv")]["data_uri"].split(",", 1)[1]).decode()
+    assert "not a text file" in status
+    field = {name for s, name in entries if s == "field"}
+    assert {"fast_directions.png", "predictions.csv"} <= field
+    assert {"splitting_one_sample_VLM-N.png", "misfit_two_VLM-S.png"} <= field
+    numbers = pd.read_csv(results / "report_parts" / "samples" / "two" / "key_numbers.csv")
+    summary = json.loads((results / "two" / "summary.json").read_text())
+    avs = numbers.set_index("quantity").loc["AVs max"]
+    assert float(avs["value"]) == pytest.approx(summary["seismic"]["avs_max_pct"], rel=1e-12)
+    assert [avs["low"], avs["high"]] == pytest.approx(summary["uncertainty"]["avs_max_pct"], rel=1e-12)
+    assert "suite_summary.csv" in html and "suite_comparison.png" in html
+
+
 def test_rerun_has_nothing_to_do_and_a_new_file_runs_alone(suite):
     samples, results, _ = suite
     cmd = [sys.executable, "-m", "snakemake", "-n", "--cores", "1", "--config", f"samples_dir={samples}",
@@ -62,8 +119,7 @@ def test_rerun_has_nothing_to_do_and_a_new_file_runs_alone(suite):
     write_table(samples / "three.csv", fabric_orientations(ol, "olivine-C", 50, 20.0, seed=1), ["olivine"] * 50)
     dry = subprocess.run(cmd, cwd=ROOT, capture_output=True, text=True)
     text = dry.stdout + dry.stderr
-    jobs = [line.strip() for line in text.splitlines() if line.strip().startswith("wildcards: sample=")]
-    assert jobs == ["wildcards: sample=three"], text[-1500:]
+    assert _planned_jobs(text) == [("sample", "three"), ("sample_report", "three")], text[-1500:]
     (samples / "three.csv").unlink()
 
 
@@ -121,6 +177,5 @@ def test_editing_one_sidecar_reruns_only_that_sample(tmp_path):
     assert subprocess.run(cmd, cwd=ROOT, capture_output=True, timeout=900).returncode == 0
     (samples / "s1.yaml").write_text("bootstrap: {n: 20}\ngrains: {min_pixels: 3}\n")
     dry = subprocess.run(cmd[:3] + ["-n"] + cmd[3:-1], cwd=ROOT, capture_output=True, text=True, timeout=300)
-    jobs = [line.strip() for line in (dry.stdout + dry.stderr).splitlines()
-            if line.strip().startswith("wildcards: sample=")]
-    assert jobs == ["wildcards: sample=s1"], (dry.stdout + dry.stderr)[-1500:]
+    text = dry.stdout + dry.stderr
+    assert _planned_jobs(text) == [("sample", "s1"), ("sample_report", "s1")], text[-1500:]

@@ -21,3 +21,8 @@ def settings_digest(wildcards):
     sidecar = sidecar_of(SAMPLES[wildcards.sample])
     text = sidecar.read_text() if sidecar.is_file() else ""
     return hashlib.sha256((text + json.dumps(config, sort_keys=True)).encode()).hexdigest()[:16]
+
+
+def report_labels(wildcards):
+    """Labels of a file in a sample's report folder: the sample, and its figure's or table's name."""
+    return {"sample": wildcards.sample, "content": wildcards.get("figure") or wildcards.get("table")}

@@ -7,7 +7,7 @@ rule field:
         fits=report(f"{RESULTS}/field/field_fit.json", caption="../report/field.rst", category="Field"),
         table=f"{RESULTS}/field/predictions.csv",
     params:
-        out=f"{RESULTS}/field",
+        out=lambda wildcards, output: str(Path(output.fits).parent),
     log:
         f"{RESULTS}/logs/field.log",
     benchmark:

@@ -23,3 +23,4 @@ rule sample:
         "../envs/fabric2seis.yaml"
     script:
         "../scripts/run_sample.py"
+

@@ -1,0 +1,87 @@
+"""Files gathered for the workflow report (``snakemake --report``): a sample's figures and small
+tables, and those of the field comparison.
+
+Kept apart from ``suite`` so that the workflow's gathering jobs import only pandas (a second,
+not three, per job).
+"""
+
+from __future__ import annotations
+
+import json
+import shutil
+from pathlib import Path
+
+import pandas as pd
+
+# What of a sample's results goes into the workflow report: its figures (PNG) and small tables.
+# velocities.csv and grains.csv stay in results/<sample>/: they would make the report tens of MB.
+REPORT_FIGURES = ("pole_figures", "inverse_pole_figures", "fabric_convergence", "velocities",
+                  "splitting_vs_backazimuth")
+REPORT_TABLES = ("splitting_vs_backazimuth",)
+
+
+def key_numbers(summary: dict) -> pd.DataFrame:
+    """A short table of one sample's main numbers: quantity, value, 95 % interval, unit."""
+    interval = summary.get("uncertainty") or {}
+    rows = [("points", summary["n_points"], None, ""), ("grains", summary["n_grains"], None, ""),
+            ("density", summary["density_kg_m3"], None, "kg/m^3")]
+    for mineral, phase in summary["phases"].items():
+        rows += [(f"{mineral} fraction", phase["fraction"], None, ""),
+                 (f"{mineral} J-index", phase["J"], f"{mineral}.J", ""),
+                 (f"{mineral} M-index", phase["M"], f"{mineral}.M", "")]
+        rows += [(f"{mineral} pfJ {pole}", value, None, "") for pole, value in phase["pfJ"].items()]
+    seis = summary["seismic"]
+    rows += [(f"Vp max ({seis['average']})", seis["vp_max_km_s"], "vp_max_km_s", "km/s"),
+             ("Vp min", seis["vp_min_km_s"], None, "km/s"),
+             ("AVp", seis["avp_pct"], "avp_pct", "%"),
+             ("AVs max", seis["avs_max_pct"], "avs_max_pct", "%"),
+             ("Vs1 max", seis["vs1_max_km_s"], None, "km/s"),
+             ("Vs2 min", seis["vs2_min_km_s"], None, "km/s")]
+    along_z = summary["splitting"]["along_z"]
+    rows += [("fast polarisation along Z, from X", along_z["fast_polarisation_from_x_deg"], None, "deg"),
+             ("delay along Z per 100 km", along_z["delay_s_per_100km"], "delay_s_per_100km", "s")]
+    field = summary["splitting"].get("field")
+    if field:
+        rows += [("fast azimuth in the ground", field["fast_azimuth_deg"], None, "deg from north"),
+                 ("delay in the ground", field["delay_s"], None, "s"),
+                 ("layer thickness", field["layer_thickness_km"], None, "km")]
+    table = [{"quantity": "status", "value": "ok", "low": None, "high": None, "unit": ""}]
+    for quantity, value, key, unit in rows:
+        low, high = interval.get(key, (None, None)) if key else (None, None)
+        table.append({"quantity": quantity, "value": value, "low": low, "high": high, "unit": unit})
+    return pd.DataFrame(table)
+
+
+def gather_report_files(status_file: str | Path, out_dir: str | Path) -> list[Path]:
+    """Copy one sample's figures and small tables into ``out_dir`` for the workflow report.
+
+    Always writes ``key_numbers.csv``: the sample's main numbers, or for a sample that failed one
+    row with its error, so a bad sample shows in the report without stopping it.
+    """
+    status = json.loads(Path(status_file).read_text())
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    written = [out / "key_numbers.csv"]
+    if status["status"] != "ok":
+        pd.DataFrame([{"quantity": "status", "value": status["status"]}]).to_csv(written[0], index=False)
+        return written
+    results = Path(status["summary"]).parent
+    key_numbers(json.loads(Path(status["summary"]).read_text())).to_csv(written[0], index=False)
+    for name in REPORT_FIGURES:
+        if (results / f"{name}.png").is_file():         # the splitting figure needs field settings
+            written.append(Path(shutil.copyfile(results / f"{name}.png", out / f"{name}.png")))
+    for name in REPORT_TABLES:
+        if (results / f"{name}.csv").is_file():
+            written.append(Path(shutil.copyfile(results / f"{name}.csv", out / f"{name}.csv")))
+    return written
+
+
+def gather_field_report_files(field_dir: str | Path, out_dir: str | Path) -> list[Path]:
+    """Copy the field comparison's figures (PNG) and ``predictions.csv`` into ``out_dir``.
+
+    ``field_fit.json`` itself is reported from the field folder, so it is not copied.
+    """
+    field_dir, out = Path(field_dir), Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    sources = sorted(field_dir.glob("*.png")) + [field_dir / "predictions.csv"]
+    return [Path(shutil.copyfile(f, out / f.name)) for f in sources if f.is_file()]

@@ -294,6 +294,17 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     report["seismic"] = seis["seismic"]
     report["splitting"] = seis["splitting"]
     report["uncertainty"] = uncertainty_stage(sample, seis, progress)
+    if report["uncertainty"]:
+        from fabric2seis.uncertainty import estimates_outside
+        estimates = {k: report["seismic"].get(k) for k in ("avp_pct", "avs_max_pct", "vp_max_km_s")}
+        estimates["delay_s_per_100km"] = report["splitting"]["along_z"]["delay_s_per_100km"]
+        for name, phase in report["phases"].items():
+            estimates.update({f"{name}.J": phase.get("J"), f"{name}.M": phase.get("M")})
+        outside = estimates_outside(report["uncertainty"], estimates)
+        if outside:
+            report["uncertainty"]["estimate_outside_interval"] = ", ".join(outside)
+            say(f"caution: the estimate lies outside its bootstrap interval for {', '.join(outside)} "
+                "(few grains, or grain-mean orientations differ from the pixels the estimate uses)")
     with folder_written_whole(out) as tmp:
         _write_json(tmp / "summary.json", report)
         say("writing tables and figures")

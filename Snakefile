@@ -3,7 +3,10 @@
 #   snakemake --cores 2 --config samples_dir=my_folder results_dir=my_results
 from snakemake.utils import validate
 
+from fabric2seis.settings import typed
+
 configfile: "config/config.yaml"
+config.update(typed(config))   # `--config odf={halfwidth_deg: 15}` arrives as strings
 validate(config, "fabric2seis/settings_schema.yaml")
 
 include: "workflow/rules/common.smk"

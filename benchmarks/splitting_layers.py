@@ -20,6 +20,11 @@ Run from the project folder:  python benchmarks/splitting_layers.py [--loop-baz 
 
 from __future__ import annotations
 
+import sys as _sys
+from pathlib import Path as _Path
+
+_sys.path.insert(0, str(_Path(__file__).resolve().parents[1]))   # measure this checkout, not an installed copy
+
 import argparse
 import os
 import time

@@ -156,7 +156,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--measurements", metavar="CSV",
                    help="station, baz_deg, fast_azimuth_deg, delay_s [, fast_azimuth_err_deg, delay_err_s, null, "
                         "incidence_deg]; needed for the fit, optional with --stack (then drawn over the predictions)")
-    p.add_argument("--out", metavar="DIR", help="output folder (default results/field)")
+    p.add_argument("--out", metavar="DIR", help="output folder (default results/field; with --stack results/stack)")
     p.add_argument("--fix", action="append", choices=["thickness", "azimuth", "foliation"],
                    help="hold one parameter at the sample's own field settings; may be repeated")
     p.add_argument("--stack", metavar="FILE", help="several layers (YAML, bottom to top): apparent splitting "

@@ -260,8 +260,12 @@ def default_out_dir(path: str | Path) -> Path:
 
 
 def run_sample(path: str | Path, settings_path: str | Path | None = None, out_dir: str | Path | None = None,
-               progress=None) -> Path:
-    """Process one EBSD export into ``out_dir``; returns the folder written."""
+               progress=None, defaults: dict | None = None) -> Path:
+    """Process one EBSD export into ``out_dir``; returns the folder written.
+
+    ``defaults``: settings under the sample's sidecar instead of config/config.yaml (the workflow
+    passes its config, so that ``snakemake --config key=value`` reaches every sample).
+    """
     import time
 
     path = Path(path)
@@ -274,7 +278,7 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
         if report_progress is not None:
             report_progress(message)
 
-    settings, settings_file = settings_for(path, settings_path)
+    settings, settings_file = settings_for(path, settings_path, defaults)
     say(f"fabric2seis {__version__}: {path} with settings {settings_file or 'defaults'}")
     out = Path(out_dir) if out_dir is not None else default_out_dir(path)
     progress = say

@@ -78,6 +78,27 @@ def _check_keys(data, node: dict, prefix: str, source) -> None:
         _check_keys(value, props[key], f"{prefix}{key}.", source)
 
 
+def typed(settings: dict) -> dict:
+    """Strings where the schema wants a number or a boolean, read as YAML scalars ("15" -> 15).
+
+    Snakemake's ``--config key={a: 15}`` hands nested values over as strings; this restores their
+    types before validation. Strings that do not read as the wanted type are left for the schema
+    to refuse with its message.
+    """
+    def walk(value, node):
+        if isinstance(value, dict):
+            props, extra = node.get("properties", {}), node.get("additionalProperties")
+            return {k: walk(v, props.get(k, extra if isinstance(extra, dict) else {})) for k, v in value.items()}
+        wanted = node.get("type")
+        wanted = set(wanted) if isinstance(wanted, list) else {wanted}
+        if isinstance(value, str) and wanted & {"number", "integer", "boolean", "null"} and "string" not in wanted:
+            read = yaml.safe_load(value)
+            if read is None or isinstance(read, (bool, int, float)):
+                return read
+        return value
+    return walk(settings, schema())
+
+
 def merge(base: dict, override: dict) -> dict:
     """Override ``base`` key by key, recursing into mappings (``field``, ``grains`` ...)."""
     out = copy.deepcopy(base)
@@ -102,9 +123,14 @@ def sidecar_of(input_path: str | Path) -> Path:
     return p.with_name(Path(name).stem + ".yaml")
 
 
-def settings_for(input_path: str | Path, settings_path: str | Path | None = None) -> tuple[dict, str | None]:
-    """Settings of one sample and the file they came from (None: defaults only)."""
-    base = defaults()
+def settings_for(input_path: str | Path, settings_path: str | Path | None = None,
+                 base: dict | None = None) -> tuple[dict, str | None]:
+    """Settings of one sample and the file they came from (None: defaults only).
+
+    ``base`` replaces the defaults (the workflow passes its config, ``--config`` values included),
+    merged over the defaults so that keys it leaves out keep their default values.
+    """
+    base = defaults() if base is None else validate(merge(defaults(), base), "the workflow's config")
     chosen = Path(settings_path) if settings_path else sidecar_of(input_path)
     if settings_path is None and not chosen.is_file():
         return base, None

@@ -239,7 +239,7 @@ def run_stack(stack_file: str | Path, measurements: str | Path | None = None,
               "layers_bottom_to_top": [_layer_record(layer) for layer in stack["layers"]],
               "nulls": nulls, "measurements": None if measurements is None else str(measurements),
               "cautions": cautions}
-    out = Path(out_dir) if out_dir else Path("results") / "field"
+    out = Path(out_dir) if out_dir else Path("results") / "stack"     # not results/field: the one-layer fit lives there
     with folder_written_whole(out) as tmp:
         table.to_csv(tmp / "stack_splitting.csv", index=False)
         if data is not None:

@@ -59,3 +59,16 @@ def test_suite_table_flattens_scalars_and_intervals(tmp_path):
     assert row["status"] == "ok" and row["seismic.avp_pct"] == 5.0
     assert row["uncertainty.avp_pct.low"] == 4.0 and row["uncertainty.avp_pct.high"] == 6.0
     assert "seismic.vp_max_direction" not in row
+
+
+def test_values_from_the_command_line_get_the_types_the_schema_wants():
+    # Snakemake reads nested --config values with YAML's base loader, as strings (its parse_config)
+    from fabric2seis.settings import typed, validate
+    given = {"odf": {"halfwidth_deg": "15"}, "bootstrap": {"n": "0", "seed": "3"},
+             "clean": {"quality_min": "null", "quality_field": "CI"}, "phases": {"Forsterite": "olivine"}}
+    out = typed(given)
+    assert out == {"odf": {"halfwidth_deg": 15}, "bootstrap": {"n": 0, "seed": 3},
+                   "clean": {"quality_min": None, "quality_field": "CI"}, "phases": {"Forsterite": "olivine"}}
+    validate(out)
+    with pytest.raises(Exception):
+        validate(typed({"odf": {"halfwidth_deg": "wide"}}))    # left for the schema to refuse

@@ -179,3 +179,15 @@ def test_editing_one_sidecar_reruns_only_that_sample(tmp_path):
     dry = subprocess.run(cmd[:3] + ["-n"] + cmd[3:-1], cwd=ROOT, capture_output=True, text=True, timeout=300)
     text = dry.stdout + dry.stderr
     assert _planned_jobs(text) == [("sample", "s1"), ("sample_report", "s1")], text[-1500:]
+
+
+def test_settings_given_with_config_on_the_command_line_reach_the_samples(tmp_path):
+    # `snakemake --config odf='{halfwidth_deg: 15}'` changes the defaults under every sidecar
+    samples, results = _small_suite(tmp_path)
+    run = subprocess.run([sys.executable, "-m", "snakemake", "--cores", "1", "--config", f"samples_dir={samples}",
+                          f"results_dir={results}", "odf={halfwidth_deg: 15}", "-q"],
+                         cwd=ROOT, capture_output=True, text=True, timeout=900)
+    assert run.returncode == 0, run.stderr[-2000:]
+    summary = json.loads((results / "s0" / "summary.json").read_text())
+    assert summary["phases"]["olivine"]["odf_halfwidth_deg"] == 15
+    assert summary["uncertainty"]["resamples"] == 20           # the sidecar still counts

@@ -14,7 +14,7 @@ from fabric2seis.pipeline import run_sample
 logging.basicConfig(filename=snakemake.log[0], level=logging.INFO, format="%(asctime)s %(message)s")
 out = Path(snakemake.params.out)
 try:
-    run_sample(snakemake.input[0], out_dir=out, progress=logging.info)
+    run_sample(snakemake.input[0], out_dir=out, progress=logging.info, defaults=dict(snakemake.config))
     status = {"sample": snakemake.wildcards.sample, "status": "ok", "summary": str(out / "summary.json")}
 except InputError as exc:
     logging.error(exc.one_line())

@@ -8,6 +8,9 @@
    grid, symmetry decomposition, splitting along Z), without and with 200 bootstrap resamples of
    the grains (``fabric2seis.uncertainty.seismic_bootstrap``). Target: with bootstrap at most 3x.
 
+Each pair of timings is taken in alternation (four rounds, the best of each counts), so that both
+sides of a ratio see the same machine: on a shared machine the clock and load change over seconds.
+
 Run from the project folder:  python benchmarks/seismic_stage.py [--grains 100000 --resamples 200]
 """
 
@@ -39,10 +42,21 @@ def best_of(func, repeats=3):
     return best, out
 
 
+def interleaved(funcs, rounds, repeats=None):
+    """Best time and last result of each function, run in alternation so that both see the same
+    machine (its load and clock change over seconds); ``repeats[k]`` calls per round for funcs[k]."""
+    repeats = repeats or [1] * len(funcs)
+    best, out = [float("inf")] * len(funcs), [None] * len(funcs)
+    for _ in range(rounds):
+        for k, func in enumerate(funcs):
+            t, out[k] = best_of(func, repeats[k])
+            best[k] = min(best[k], t)
+    return best, out
+
+
 def velocities_part(olivine) -> bool:
     c, rho = olivine.stiffness_gpa, olivine.density_kg_m3
     dirs, _, _ = waves.hemisphere_grid(1.0)
-    fast_s, w = best_of(lambda: waves.plane_waves(c, rho, dirs), 7)
     t = elastic.voigt_to_tensor(c)
 
     def loop():
@@ -51,7 +65,7 @@ def velocities_part(olivine) -> bool:
             lam = np.linalg.eigh(np.einsum("ijkl,j,l->ik", t, d, d))[0]
             out[k] = np.sqrt(1e3 * lam / rho)
         return out
-    loop_s, ref = best_of(loop, 2)
+    (fast_s, loop_s), (w, ref) = interleaved([lambda: waves.plane_waves(c, rho, dirs), loop], 4, [5, 1])
     diff = max(np.abs(ref[:, 2] - w.vp_km_s).max(), np.abs(ref[:, 1] - w.vs1_km_s).max(),
                np.abs(ref[:, 0] - w.vs2_km_s).max()) / ref.max()
     ratio = loop_s / fast_s
@@ -76,13 +90,11 @@ def stage_part(olivine, n_grains: int, n_resamples: int) -> None:
         s["along_z"] = seismic.splitting_along(agg.stiffness, agg.density_kg_m3)
         return agg
 
-    plain_s, agg = best_of(stage, 3)
-
     def with_bootstrap():
         a = stage()
         counts = uncertainty.resample_counts(n_grains, n_resamples, np.random.default_rng(1))
         return uncertainty.seismic_bootstrap(sets, fractions, "hill", a.density_kg_m3, {"olivine": counts})
-    boot_s, values = best_of(with_bootstrap, 3)
+    (plain_s, boot_s), (agg, values) = interleaved([stage, with_bootstrap], 4)
     ratio = boot_s / plain_s
 
     import tempfile

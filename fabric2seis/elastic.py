@@ -185,6 +185,29 @@ def rotated_kelvin(x_kelvin: np.ndarray, g: np.ndarray, chunk: int = CHUNK) -> n
     return out
 
 
+def rotated_kelvin_upper(x_stack: np.ndarray, g: np.ndarray, weights: np.ndarray | None = None,
+                         chunk: int = CHUNK) -> np.ndarray:
+    """The 21 upper-triangle entries of several rotated Kelvin matrices: (N, 21 T) for x (T, 6, 6).
+
+    Columns t*21 .. t*21+20 hold matrix t (``numpy.triu_indices(6)`` order), optionally times
+    ``weights`` per orientation. The rotation of each orientation is built once for all T
+    matrices (the bootstrap needs the stiffness and the compliance of every grain).
+    """
+    g = np.asarray(g, dtype=float)
+    xs = np.asarray(x_stack, dtype=float)
+    upper = np.triu_indices(6)
+    out = np.empty((len(g), 21 * len(xs)))
+    for start in range(0, len(g), chunk):
+        q = _kelvin_rotation_by_component(np.ascontiguousarray(g[start:start + chunk].transpose(2, 1, 0)))
+        qn = np.ascontiguousarray(q.transpose(2, 0, 1))
+        for t, x in enumerate(xs):
+            rotated = qn @ x @ np.swapaxes(qn, 1, 2)
+            out[start:start + chunk, 21 * t:21 * (t + 1)] = rotated[:, upper[0], upper[1]]
+    if weights is not None:
+        out *= np.asarray(weights, dtype=float)[:, None]
+    return out
+
+
 # --- matrix functions of symmetric positive-definite matrices ------------------------------
 
 

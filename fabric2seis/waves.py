@@ -20,6 +20,8 @@ from fabric2seis.elastic import voigt_to_tensor
 _GPA_PER_DENSITY_TO_KM2_S2 = 1.0e3
 #: largest third-order error of speeds_near, relative to the roots (else it solves exactly)
 SPEEDS_NEAR_TOLERANCE = 1e-8
+#: tensors per block of speeds_near
+NEAR_BLOCK = 16
 
 
 @dataclass(frozen=True)
@@ -55,9 +57,14 @@ def _christoffel_components(c_voigt: np.ndarray, n: np.ndarray) -> np.ndarray:
     Each is a quadratic form in n: one (M, 6) @ (6, 6) product over the monomials
     nx^2, ny^2, nz^2, ny nz, nx nz, nx ny.
     """
-    mono = np.column_stack([n[:, 0] ** 2, n[:, 1] ** 2, n[:, 2] ** 2,
-                            n[:, 1] * n[:, 2], n[:, 0] * n[:, 2], n[:, 0] * n[:, 1]])
-    return mono @ _component_coefficients(c_voigt)
+    return _component_rows(c_voigt, n).T
+
+
+def _component_rows(c_voigt: np.ndarray, n: np.ndarray) -> np.ndarray:
+    """The same components as rows (6, M), the layout the closed-form solution reads."""
+    x, y, z = n[:, 0], n[:, 1], n[:, 2]
+    mono = np.stack([x * x, y * y, z * z, y * z, x * z, x * y])
+    return _component_coefficients(c_voigt).T @ mono
 
 
 _PAIRS = ((0, 0), (1, 1), (2, 2), (1, 2), (0, 2), (0, 1))
@@ -109,28 +116,32 @@ def speeds_near(c_reference: np.ndarray, c_voigt: np.ndarray, density_kg_m3: flo
     project = np.stack([u[..., 0] * v[..., 0], u[..., 1] * v[..., 1], u[..., 2] * v[..., 2],
                         u[..., 1] * v[..., 2] + u[..., 2] * v[..., 1], u[..., 0] * v[..., 2] + u[..., 2] * v[..., 0],
                         u[..., 0] * v[..., 1] + u[..., 1] * v[..., 0]], axis=1)
-    # the linear map from the 36 Voigt entries of the difference to the (M, 6 components)
+    # linear maps from the 36 Voigt entries of the difference to the (M, 6) components of D and
+    # to its (6 pairs, M) projections on the reference polarisations
     basis = np.stack([mono @ _component_coefficients(np.eye(36)[k].reshape(6, 6)) for k in range(36)])
     gamma_map = basis.reshape(36, len(n), 6)                                         # (36, M, 6)
+    pair_map = np.einsum("kmc,mcp->kpm", gamma_map, project).reshape(36, -1)         # (36, 6 M)
     many = np.asarray(c_voigt, dtype=float)
     diff = (many - np.asarray(c_reference)[None]).reshape(len(many), 36)
-    g = (diff @ gamma_map.reshape(36, -1)).reshape(len(many), len(n), 6)          # (B, M, 6)
-    d = np.einsum("bmc,mcp->pbm", g, project, optimize=True)                      # (6 pairs, B, M)
-    d00, d11, d22, d01, d02, d12 = d
     gap1, gap2 = lam[:, 0] - lam[:, 1], lam[:, 0] - lam[:, 2]
-    p = lam[:, 0] + d00 + d01 ** 2 / gap1 + d02 ** 2 / gap2
-    s11 = lam[:, 1] + d11 - d01 ** 2 / gap1
-    s22 = lam[:, 2] + d22 - d02 ** 2 / gap2
-    s12 = d12 - d01 * d02 * 2.0 / (gap1 + gap2)
-    mean, half = (s11 + s22) / 2.0, np.sqrt(((s11 - s22) / 2.0) ** 2 + s12 ** 2)
-    values = np.stack([p, mean + half, mean - half], axis=-1)                     # (B, M, 3)
-    coupling = np.maximum(np.abs(d01), np.abs(d02))
-    size = np.maximum.reduce([coupling, np.abs(d00), np.abs(d11), np.abs(d22), np.abs(d12)])
-    third_order = coupling ** 2 * size / np.minimum(gap1, gap2) ** 2
-    redo = ~(third_order <= SPEEDS_NEAR_TOLERANCE * np.abs(mean - half))
-    if np.any(redo):
-        exact, _ = _eigen_from_components((reference[None] + g)[redo])
-        values[redo] = exact
+    values = np.empty((len(many), len(n), 3))
+    for start in range(0, len(many), NEAR_BLOCK):        # blocks of tensors, for the cache
+        part = slice(start, start + NEAR_BLOCK)
+        d00, d11, d22, d01, d02, d12 = (diff[part] @ pair_map).reshape(-1, 6, len(n)).transpose(1, 0, 2)
+        s11 = lam[:, 1] + d11 - d01 ** 2 / gap1
+        s22 = lam[:, 2] + d22 - d02 ** 2 / gap2
+        s12 = d12 - d01 * d02 * 2.0 / (gap1 + gap2)
+        mean, half = (s11 + s22) / 2.0, np.sqrt(((s11 - s22) / 2.0) ** 2 + s12 ** 2)
+        block = values[part]
+        block[..., 0] = lam[:, 0] + d00 + d01 ** 2 / gap1 + d02 ** 2 / gap2
+        block[..., 1], block[..., 2] = mean + half, mean - half
+        coupling = np.maximum(np.abs(d01), np.abs(d02))
+        size = np.maximum.reduce([coupling, np.abs(d00), np.abs(d11), np.abs(d22), np.abs(d12)])
+        redo = ~(coupling ** 2 * size / np.minimum(gap1, gap2) ** 2 <= SPEEDS_NEAR_TOLERANCE * np.abs(mean - half))
+        if np.any(redo):           # the full Christoffel components of those entries, solved exactly
+            g = (diff[part] @ gamma_map.reshape(36, -1)).reshape(-1, len(n), 6)
+            exact, _ = _eigen_from_components((reference[None] + g)[redo])
+            block[redo] = exact
     v = np.sqrt(np.clip(values, 0.0, None) * _GPA_PER_DENSITY_TO_KM2_S2 / density_kg_m3)
     return v[..., 0], v[..., 1], v[..., 2]
 
@@ -149,7 +160,7 @@ def plane_waves(c_voigt: np.ndarray, density_kg_m3: float, directions: np.ndarra
     n = _unit(directions)
     if not density_kg_m3 > 0:
         raise ValueError(f"density must be positive, got {density_kg_m3}")
-    eigval, pol = _eigen_from_components(_christoffel_components(c_voigt, n))
+    eigval, pol = _eigen_from_rows(_component_rows(c_voigt, n))
     v = np.sqrt(np.clip(eigval, 0.0, None) * _GPA_PER_DENSITY_TO_KM2_S2 / density_kg_m3)
     return PlaneWaves(n, v[:, 0], v[:, 1], v[:, 2], pol)
 
@@ -169,27 +180,60 @@ def christoffel_eigen(gamma: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return _eigen_from_components(comps)
 
 
+#: directions per block of the closed-form solution: its ~50 temporaries then stay in cache
+EIGEN_BLOCK = 4096
+
+
 def _eigen_from_components(g: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """christoffel_eigen on the six components, every step a plain array operation."""
-    a00, a11, a22, a12, a02, a01 = (np.ascontiguousarray(g[:, k]) for k in range(6))
+    """christoffel_eigen on the six components (M, 6), in blocks of EIGEN_BLOCK directions.
+
+    The results are filled component by component (contiguous rows) and returned as transposed
+    views, values (M, 3) and vectors (M, 3, 3), row k of vectors[m] the polarisation of root k.
+    """
+    return _eigen_from_rows(np.ascontiguousarray(np.asarray(g, dtype=float).T))
+
+
+def _eigen_from_rows(rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``_eigen_from_components`` on components given as rows (6, M)."""
+    g = rows.T
+    values, vectors = np.empty((3, rows.shape[1])), np.empty((3, 3, rows.shape[1]))
+    for start in range(0, rows.shape[1], EIGEN_BLOCK):
+        part = slice(start, start + EIGEN_BLOCK)
+        _eigen_block(rows[:, part], values[:, part], vectors[:, :, part])
+    values, vectors = values.T, vectors.transpose(2, 0, 1)
+    bad = ~(values[:, 0] > values[:, 1])  # P not separated (not a stable solid): general solver
+    if np.any(bad):
+        full = np.empty((int(bad.sum()), 3, 3))
+        for col, (i, k) in enumerate(((0, 0), (1, 1), (2, 2), (1, 2), (0, 2), (0, 1))):
+            full[:, i, k] = full[:, k, i] = g[bad, col]
+        ev, evec = np.linalg.eigh(full)
+        values[bad] = ev[:, ::-1]
+        vectors[bad] = np.swapaxes(evec[:, :, ::-1], 1, 2)
+    return values, vectors
+
+
+def _eigen_block(g: np.ndarray, values: np.ndarray, vectors: np.ndarray) -> None:
+    """The closed form on one block of components g (6, m), every step a plain array operation,
+    written into values (3, m) and vectors (3, 3, m)."""
+    a00, a11, a22, a12, a02, a01 = g
     q = (a00 + a11 + a22) / 3.0
     b00, b11, b22 = a00 - q, a11 - q, a22 - q
     p = np.sqrt(np.maximum((b00 ** 2 + b11 ** 2 + b22 ** 2 + 2 * (a01 ** 2 + a02 ** 2 + a12 ** 2)) / 6.0, 1e-300))
     det = (b00 * (b11 * b22 - a12 ** 2) - a01 * (a01 * b22 - a12 * a02) + a02 * (a01 * a12 - b11 * a02))
     r = np.clip(det / (2.0 * p ** 3), -1.0, 1.0)
     lam = q + 2.0 * p * np.cos(np.arccos(r) / 3.0)
-    # rows of Gamma - lam I; the P vector is the longest of their cross products
+    # Gamma - lam I has rank 2: its adjugate is (a multiple of) p p^T, so the P vector is the
+    # column of the adjugate with the largest diagonal cofactor (the cross products of its rows)
     d0, d1, d2 = a00 - lam, a11 - lam, a22 - lam
-    x01, y01, z01 = a01 * a12 - a02 * d1, a02 * a01 - d0 * a12, d0 * d1 - a01 * a01      # r0 x r1
-    x02, y02, z02 = a01 * d2 - a02 * a12, a02 * a02 - d0 * d2, d0 * a12 - a01 * a02      # r0 x r2
-    x12, y12, z12 = d1 * d2 - a12 * a12, a12 * a02 - a01 * d2, a01 * a12 - d1 * a02      # r1 x r2
-    n01, n02, n12 = x01 ** 2 + y01 ** 2 + z01 ** 2, x02 ** 2 + y02 ** 2 + z02 ** 2, x12 ** 2 + y12 ** 2 + z12 ** 2
-    use02 = (n02 > n01) & (n02 >= n12)
-    use12 = (n12 > n01) & (n12 > n02)
-    px = np.where(use12, x12, np.where(use02, x02, x01))
-    py = np.where(use12, y12, np.where(use02, y02, y01))
-    pz = np.where(use12, z12, np.where(use02, z02, z01))
-    norm = np.sqrt(px ** 2 + py ** 2 + pz ** 2)
+    c00, c11, c22 = d1 * d2 - a12 * a12, d0 * d2 - a02 * a02, d0 * d1 - a01 * a01
+    c01, c02, c12 = a02 * a12 - a01 * d2, a01 * a12 - a02 * d1, a01 * a02 - d0 * a12
+    e00, e11, e22 = np.abs(c00), np.abs(c11), np.abs(c22)
+    use0 = (e00 >= e11) & (e00 >= e22)
+    use1 = ~use0 & (e11 >= e22)
+    px = np.where(use0, c00, np.where(use1, c01, c02))
+    py = np.where(use0, c01, np.where(use1, c11, c12))
+    pz = np.where(use0, c02, np.where(use1, c12, c22))
+    norm = np.sqrt(px * px + py * py + pz * pz)
     px, py, pz = px / norm, py / norm, pz / norm
 
     def quad(ux, uy, uz, vx, vy, vz):
@@ -206,7 +250,11 @@ def _eigen_from_components(g: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     norm = np.sqrt(ux ** 2 + uy ** 2 + uz ** 2)
     ux, uy, uz = ux / norm, uy / norm, uz / norm
     wx, wy, wz = py * uz - pz * uy, pz * ux - px * uz, px * uy - py * ux
-    m11, m22, m12 = quad(ux, uy, uz, ux, uy, uz), quad(wx, wy, wz, wx, wy, wz), quad(ux, uy, uz, wx, wy, wz)
+    # the S block in the (u, w) plane: Gamma u once; m22 from the trace, which the P root leaves
+    gx, gy, gz = a00 * ux + a01 * uy + a02 * uz, a01 * ux + a11 * uy + a12 * uz, a02 * ux + a12 * uy + a22 * uz
+    m11 = ux * gx + uy * gy + uz * gz
+    m12 = wx * gx + wy * gy + wz * gz
+    m22 = 3.0 * q - lam_p - m11
     diff = (m11 - m22) / 2.0
     mean, half = (m11 + m22) / 2.0, np.sqrt(diff * diff + m12 * m12)
     # rotation angle theta of the S1 vector in the (u, w) plane from cos 2theta and sin 2theta
@@ -214,21 +262,10 @@ def _eigen_from_components(g: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     cos2 = np.where(half > 0, diff / safe, 1.0)
     c = np.sqrt(np.maximum((1.0 + cos2) / 2.0, 0.0))
     s = np.copysign(np.sqrt(np.maximum((1.0 - cos2) / 2.0, 0.0)), m12)
-    values = np.empty((len(g), 3))
-    values[:, 0], values[:, 1], values[:, 2] = lam_p, mean + half, mean - half
-    vectors = np.empty((len(g), 3, 3))
-    vectors[:, 0, 0], vectors[:, 0, 1], vectors[:, 0, 2] = px, py, pz
-    vectors[:, 1, 0], vectors[:, 1, 1], vectors[:, 1, 2] = c * ux + s * wx, c * uy + s * wy, c * uz + s * wz
-    vectors[:, 2, 0], vectors[:, 2, 1], vectors[:, 2, 2] = c * wx - s * ux, c * wy - s * uy, c * wz - s * uz
-    bad = ~(values[:, 0] > values[:, 1])  # P not separated (not a stable solid): general solver
-    if np.any(bad):
-        full = np.empty((int(bad.sum()), 3, 3))
-        for col, (i, k) in enumerate(((0, 0), (1, 1), (2, 2), (1, 2), (0, 2), (0, 1))):
-            full[:, i, k] = full[:, k, i] = g[bad, col]
-        ev, evec = np.linalg.eigh(full)
-        values[bad] = ev[:, ::-1]
-        vectors[bad] = np.swapaxes(evec[:, :, ::-1], 1, 2)
-    return values, vectors
+    values[0], values[1], values[2] = lam_p, mean + half, mean - half
+    vectors[0, 0], vectors[0, 1], vectors[0, 2] = px, py, pz
+    vectors[1, 0], vectors[1, 1], vectors[1, 2] = c * ux + s * wx, c * uy + s * wy, c * uz + s * wz
+    vectors[2, 0], vectors[2, 1], vectors[2, 2] = c * wx - s * ux, c * wy - s * uy, c * wz - s * uz
 
 
 def group_velocities(c_voigt: np.ndarray, density_kg_m3: float, waves: PlaneWaves) -> np.ndarray:

@@ -61,3 +61,12 @@ def test_fast_paths_agree_with_the_full_symmetry_search():
     near = nearest_equivalent(b, a, sym)
     plain = 2 * np.arccos(np.clip(np.abs(np.sum(near * a, axis=1)), 0, 1))
     assert np.allclose(plain, full, atol=1e-7)
+
+
+def test_matrices_of_quaternions_are_orix_matrices():
+    # orix Rotation.to_matrix is the reference (a general-purpose library)
+    from orix.quaternion import Rotation
+    from fabric2seis.orientations import to_matrices
+    q = np.random.default_rng(12).normal(size=(500, 4))
+    q /= np.linalg.norm(q, axis=1, keepdims=True)
+    assert np.allclose(to_matrices(q), Rotation(q).to_matrix().reshape(-1, 3, 3), atol=1e-14)

@@ -32,13 +32,14 @@ def test_resample_as_weights_equals_recomputing_on_the_drawn_grains():
     a = fabric.j_pair_matrix(q, OLIVINE.symmetry)
     for row in counts:
         drawn = np.repeat(np.arange(n), row.astype(int))
-        u = row / row.sum()
+        u = row.astype(float) / row.sum()
         assert u @ (a @ u) == pytest.approx(fabric.j_index(q[drawn], np.ones(len(drawn)), OLIVINE.symmetry, method="pairs"), rel=1e-9)
         means = uncertainty._resampled_means(elastic.voigt_to_kelvin(OLIVINE.stiffness_gpa),
                                              fabric.to_matrices(q), np.ones(n), row[None])[0]
         direct = elastic.weighted_rotated_mean(elastic.voigt_to_kelvin(OLIVINE.stiffness_gpa),
                                                fabric.to_matrices(q[drawn]), np.ones(len(drawn)))
-        assert np.allclose(means, direct, rtol=1e-10, atol=1e-9)
+        # the resampled means come from one single-precision product on deviations: ~1e-9
+        assert np.allclose(means, direct, rtol=1e-8, atol=1e-6)      # GPa; entries reach 274
 
 
 def test_resampled_j_leaves_out_pairs_of_a_grain_with_its_own_copies():

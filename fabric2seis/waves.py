@@ -236,11 +236,7 @@ def _eigen_block(g: np.ndarray, values: np.ndarray, vectors: np.ndarray) -> None
     norm = np.sqrt(px * px + py * py + pz * pz)
     px, py, pz = px / norm, py / norm, pz / norm
 
-    def quad(ux, uy, uz, vx, vy, vz):
-        return (ux * (a00 * vx + a01 * vy + a02 * vz) + uy * (a01 * vx + a11 * vy + a12 * vz)
-                + uz * (a02 * vx + a12 * vy + a22 * vz))
-
-    lam_p = quad(px, py, pz, px, py, pz)
+    lam_p = lam          # the largest root: the trigonometric form is well conditioned there
     # u1: the P vector crossed with the coordinate axis it is least aligned with
     ax, ay, az = np.abs(px), np.abs(py), np.abs(pz)
     hx = ((ax <= ay) & (ax <= az)).astype(float)

@@ -23,35 +23,14 @@ _sys.path.insert(0, str(_Path(__file__).resolve().parents[1]))   # measure this 
 
 import argparse
 import os
-import time
 
 import numpy as np
 
 from fabric2seis import elastic, seismic, uncertainty, waves
+from timing import best_of, interleaved
 from fabric2seis.decomposition import decomposition_summary
 from fabric2seis.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations
-
-
-def best_of(func, repeats=3):
-    best, out = float("inf"), None
-    for _ in range(repeats):
-        start = time.perf_counter()
-        out = func()
-        best = min(best, time.perf_counter() - start)
-    return best, out
-
-
-def interleaved(funcs, rounds, repeats=None):
-    """Best time and last result of each function, run in alternation so that both see the same
-    machine (its load and clock change over seconds); ``repeats[k]`` calls per round for funcs[k]."""
-    repeats = repeats or [1] * len(funcs)
-    best, out = [float("inf")] * len(funcs), [None] * len(funcs)
-    for _ in range(rounds):
-        for k, func in enumerate(funcs):
-            t, out[k] = best_of(func, repeats[k])
-            best[k] = min(best[k], t)
-    return best, out
 
 
 def velocities_part(olivine) -> bool:

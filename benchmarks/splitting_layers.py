@@ -33,17 +33,9 @@ import numpy as np
 import pandas as pd
 
 from fabric2seis import field, layers, seismic, splitting
+from timing import best_of
 from fabric2seis.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations
-
-
-def best_of(func, repeats=3):
-    best, out = float("inf"), None
-    for _ in range(repeats):
-        start = time.perf_counter()
-        out = func()
-        best = min(best, time.perf_counter() - start)
-    return best, out
 
 
 def looped_energy_grid(north, east, baz_deg, fast_grid, delay_grid) -> np.ndarray:

@@ -9,7 +9,6 @@ side of g, ``v_crystal = g v_sample``). These are checked against orix in tests/
 from __future__ import annotations
 
 import numpy as np
-from orix.quaternion import Rotation
 
 
 def multiply(a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -144,4 +143,6 @@ def to_matrices(q: np.ndarray) -> np.ndarray:
 
 
 def from_matrices(g: np.ndarray) -> np.ndarray:
+    from orix.quaternion import Rotation      # imported here: orix takes seconds to import
+
     return np.asarray(Rotation.from_matrix(np.asarray(g, dtype=float)).data, dtype=float).reshape(-1, 4)

@@ -114,7 +114,10 @@ def field_summary(c_structural: np.ndarray, density_kg_m3: float, field: dict, s
         "delay_s": round(float(vertical["delay_s"][0]), 5),
         "layer_thickness_km": thickness,
         "incidence_deg": 0.0,
-        "lineation_trend_deg": round(float(np.degrees(np.arctan2(lineation[1], lineation[0])) % 360.0), 3),
+        # a vertical lineation has no trend of its own: that of the foliation's dip direction
+        "lineation_trend_deg": round(float(np.degrees(np.arctan2(lineation[1], lineation[0])) % 360.0
+                                           if np.hypot(lineation[0], lineation[1]) > 1e-9
+                                           else (float(field["foliation_strike_deg"]) + 90.0) % 360.0), 3),
         "lineation_plunge_deg": round(float(np.degrees(np.arcsin(np.clip(lineation[2], -1, 1)))), 3),
         "sweep_incidence_deg": incidence_deg,
         "cautions": "coherent fabric over the whole layer, no melt or aligned cracks, plane waves and ray "

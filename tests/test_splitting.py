@@ -56,6 +56,25 @@ def test_a_type_layer_with_lineation_trending_045():
     assert len(sweep["back_azimuth_deg"]) == 72
 
 
+def test_vertical_foliation_is_fast_along_its_strike_and_slow_to_split_along_a_vertical_lineation():
+    # Common practice (e.g. Mainprice & Silver 1993, Silver 1996, from memory): a vertical foliation
+    # with a horizontal lineation gives vertical SKS fast along the lineation (= the strike); the
+    # same foliation with a vertical lineation sends the ray along olivine [100], where A-type
+    # splitting is smallest, and its fast direction lies in the foliation (along the strike).
+    q = fabric_orientations(OLIVINE, "olivine-A", 2000, 15.0, seed=4)
+    agg = seismic.aggregate([(OLIVINE, q, np.ones(2000))], {"olivine": 1.0})
+    flat = {"foliation_strike_deg": 30, "foliation_dip_deg": 90, "lineation_pitch_deg": 0, "layer_thickness_km": 100}
+    steep = dict(flat, lineation_pitch_deg=90)
+    s_flat, _ = splitting.field_summary(agg.stiffness, agg.density_kg_m3, flat)
+    s_steep, _ = splitting.field_summary(agg.stiffness, agg.density_kg_m3, steep)
+    assert s_flat["fast_azimuth_deg"] == pytest.approx(30, abs=5)
+    assert s_steep["fast_azimuth_deg"] == pytest.approx(30, abs=10)
+    assert s_steep["delay_s"] < 0.5 * s_flat["delay_s"]
+    r = splitting.placement(steep)
+    assert abs(r[2, 0]) == pytest.approx(1.0)                    # X (lineation) vertical
+    assert s_steep["lineation_trend_deg"] == pytest.approx(120.0)  # reported as the dip direction
+
+
 def test_lineation_out_of_the_foliation_plane_is_refused():
     with pytest.raises(InputError, match="out of the foliation plane"):
         splitting.placement({"foliation_strike_deg": 0, "foliation_dip_deg": 0,

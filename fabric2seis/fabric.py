@@ -110,6 +110,35 @@ def self_convolution(halfwidth_deg: float, angle_rad: np.ndarray) -> np.ndarray:
 # --- J-index ----------------------------------------------------------------------------------
 
 
+def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: float = 10.0,
+                      chunk: int = 1024) -> tuple[np.ndarray, np.ndarray]:
+    """v_b^T A v_b for the columns of v (N, B), and the diagonal of A, without storing A.
+
+    A is the matrix of ``j_pair_matrix``; it is built one block of rows at a time, dense, and
+    multiplied into all columns at once, so memory stays at a block (chunk x N) whatever the
+    fabric, and the cost is N^2 |S| like the pair sum plus one matrix product per block.
+    """
+    sym = proper_symmetry_quaternions(symmetry)
+    q = np.asarray(quat, dtype=float)
+    v = np.asarray(v, dtype=float)
+    table_c, table_phi, cos_cut = _phi_by_cos_half(float(halfwidth_deg))
+    table_phi = np.where(table_c < cos_cut, 0.0, table_phi)
+    moved = [multiply(t[None], q) for t in sym]
+    forms = np.zeros(v.shape[1])
+    diagonal = np.zeros(len(q))
+    for start in range(0, len(q), chunk):
+        block = q[start:start + chunk]
+        a = np.zeros((len(block), len(q)))
+        for m in moved:
+            c = np.abs(block @ m.T)
+            c[c < cos_cut] = 0.0               # outside Phi's support, as in j_pair_matrix
+            a += np.interp(c, table_c, table_phi)
+        a /= len(sym)
+        diagonal[start:start + len(block)] = a[np.arange(len(block)), np.arange(start, start + len(block))]
+        forms += np.einsum("ib,ib->b", v[start:start + chunk], a @ v)
+    return forms, diagonal
+
+
 def j_pair_matrix(quat: np.ndarray, symmetry, halfwidth_deg: float = 10.0, chunk: int = 2048):
     """Sparse matrix A (N, N) with A_ij = (1/|S|) sum_t Phi(angle(g_i, t g_j)) over pairs in Phi's
     support, so that J = w^T A w for normalised weights w (a quadratic form: a bootstrap resample

@@ -230,7 +230,7 @@ def uncertainty_stage(sample: Sample, seis: dict, progress=None) -> dict:
             if v is None:
                 out[f"{m.name}.{key}"] = None
                 out[f"{m.name}.note"] = (f"{len(q)} grains: the J-index interval is not computed above "
-                                         f"{uncertainty.MAX_J_GRAINS} grains")
+                                         f"{uncertainty.MAX_J_GRAINS:,} grains")
             else:
                 out[f"{m.name}.{key}"] = uncertainty.interval(v)
                 if m.name == main:

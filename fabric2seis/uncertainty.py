@@ -3,8 +3,8 @@
 Each resample draws the grains of every phase with replacement (fractions of the phases held as
 in the estimate). Resamples are weights, not recomputations: the Voigt, Reuss and geometric sums
 are linear in per-grain tensors rotated once (so all resamples are one matrix product), and the
-J-index of a resample is the quadratic form w^T A w over the kernel's neighbour pairs, found once
-(without the pairs of a grain's copies with each other, which would bias it up by about J_1/N);
+J-index of a resample is the quadratic form w^T A w over the kernel's neighbour pairs (A built a
+block of rows at a time and applied to all resamples at once; without the pairs of a grain's copies with each other, which would bias it up by about J_1/N);
 likewise the misorientation histogram of the M-index is a weighted histogram of the pairs of the
 original grains, measured once, and the M values are shifted by their bootstrap bias.
 Orientations are the grains' mean orientations weighted by grain area (maps) or by the file's
@@ -27,8 +27,9 @@ COUNT_STREAMS = 4
 RESAMPLE_GRID_STEP_DEG = 3.0
 #: phases with fewer grains get no fabric intervals (a resample would hold too few distinct grains)
 MIN_GRAINS_FOR_FABRIC = 10
-#: above this many grains the J-index pair matrix is not built for the bootstrap
-MAX_J_GRAINS = 20_000
+#: above this many grains the bootstrap leaves out the J-index interval (its cost grows as N^2:
+#: about a minute at 30,000 grains)
+MAX_J_GRAINS = 30_000
 
 
 def resample_counts(n: int, n_resamples: int, rng: np.random.Generator) -> np.ndarray:
@@ -139,15 +140,13 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
     """J (quadratic form over the pair matrix) and M (weighted pairs of distinct grains) of every resample."""
     j = None
     if len(quat) <= MAX_J_GRAINS:
-        a = fabric.j_pair_matrix(quat, mineral.symmetry, halfwidth_deg)
         v = (counts * weights[None, :]).T                            # (N, B), unnormalised
+        forms, diagonal = fabric.j_quadratic_forms(quat, v, mineral.symmetry, halfwidth_deg)
         # a grain drawn c times forms c (c - 1) pairs with its own copies: pairs at zero
         # misorientation that the sample never had, which raise J by about J_1 / N (J_1 the J of
         # one grain). They are left out of each resample's sum, and out of its normalisation.
         copies = (counts * (counts - 1.0) * (weights ** 2)[None, :]).T
-        diagonal = a.diagonal()[:, None]
-        j = ((np.einsum("nb,nb->b", v, a @ v) - (copies * diagonal).sum(axis=0))
-             / (v.sum(axis=0) ** 2 - copies.sum(axis=0)))
+        j = (forms - (copies * diagonal[:, None]).sum(axis=0)) / (v.sum(axis=0) ** 2 - copies.sum(axis=0))
     # M: the uncorrelated pairs of the original grains are found and measured once; a resample
     # weights pair (i, j) by how often both grains were drawn, c_i c_j (pairs of distinct grains)
     reference = fabric.random_distribution(mineral.symmetry)

@@ -76,3 +76,4 @@ def test_bootstrap_intervals_of_a_weak_fabric_hold_their_estimates():
     assert np.mean(plain) - j == pytest.approx((j1 - j) / n, rel=0.15)
     low, high = uncertainty.interval(boot["M"])
     assert low <= m <= high
+

@@ -4,8 +4,8 @@ Each resample draws the grains of every phase with replacement (fractions of the
 in the estimate). Resamples are weights, not recomputations: the Voigt, Reuss and geometric sums
 are linear in per-grain tensors rotated once (so all resamples are one matrix product), and the
 J-index of a resample is the quadratic form w^T A w over the kernel's neighbour pairs (A built a
-block of rows at a time and applied to all resamples at once; without the pairs of a grain's copies with each other, which would bias it up by about J_1/N);
-likewise the misorientation histogram of the M-index is a weighted histogram of the pairs of the
+block of rows at a time and applied to all resamples at once), without the pairs of a grain's
+copies with each other, which would bias it up by about J_1/N; likewise the misorientation histogram of the M-index is a weighted histogram of the pairs of the
 original grains, measured once, and the M values are shifted by their bootstrap bias.
 Orientations are the grains' mean orientations weighted by grain area (maps) or by the file's
 weights (grain lists), so intervals describe the sampling of grains, the unit that is counted.

@@ -323,6 +323,7 @@ def to_lower_hemisphere(v: np.ndarray) -> np.ndarray:
 def _unit(v: np.ndarray) -> np.ndarray:
     v = np.atleast_2d(np.asarray(v, dtype=float))
     norm = np.sqrt(np.einsum("...i,...i->...", v, v))[..., None]
-    if np.any(norm == 0) or not np.all(np.isfinite(norm)):
+    smallest = norm.min() if norm.size else 1.0
+    if not (smallest > 0 and np.isfinite(norm).all()):
         raise ValueError("directions must be finite, non-zero vectors")
     return v / norm

@@ -80,19 +80,6 @@ def _component_coefficients(c_voigt: np.ndarray) -> np.ndarray:
     return coeff
 
 
-def speeds_for_many_tensors(c_voigt: np.ndarray, density_kg_m3: float, directions: np.ndarray):
-    """Vp, Vs1, Vs2 (B, M) of B stiffnesses (B, 6, 6) in M directions, solved in one batch."""
-    n = _unit(directions)
-    mono = np.column_stack([n[:, 0] ** 2, n[:, 1] ** 2, n[:, 2] ** 2,
-                            n[:, 1] * n[:, 2], n[:, 0] * n[:, 2], n[:, 0] * n[:, 1]])
-    coeff = np.stack([_component_coefficients(c) for c in np.asarray(c_voigt, dtype=float)])
-    g = (mono[None] @ coeff).reshape(-1, 6)                 # (B*M, 6)
-    values, _ = _eigen_from_components(g)
-    v = np.sqrt(np.clip(values, 0.0, None) * _GPA_PER_DENSITY_TO_KM2_S2 / density_kg_m3)
-    shape = (len(coeff), len(n))
-    return v[:, 0].reshape(shape), v[:, 1].reshape(shape), v[:, 2].reshape(shape)
-
-
 def speeds_near(c_reference: np.ndarray, c_voigt: np.ndarray, density_kg_m3: float, directions: np.ndarray):
     """Vp, Vs1, Vs2 (B, M) of B stiffnesses close to ``c_reference``, by perturbation about it.
 

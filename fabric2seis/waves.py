@@ -93,9 +93,7 @@ def speeds_near(c_reference: np.ndarray, c_voigt: np.ndarray, density_kg_m3: flo
     aggregates differ from the estimate by a small fraction.
     """
     n = _unit(directions)
-    mono = np.column_stack([n[:, 0] ** 2, n[:, 1] ** 2, n[:, 2] ** 2,
-                            n[:, 1] * n[:, 2], n[:, 0] * n[:, 2], n[:, 0] * n[:, 1]])
-    reference = mono @ _component_coefficients(c_reference)                       # (M, 6)
+    reference = _christoffel_components(c_reference, n)                           # (M, 6)
     lam, vec = _eigen_from_components(reference)                                  # (M, 3), (M, 3, 3)
     pairs = ((0, 0), (1, 1), (2, 2), (0, 1), (0, 2), (1, 2))
     # (M, 6 components, 6 pairs): u^T G v from the components 11 22 33 23 13 12 of G
@@ -105,7 +103,7 @@ def speeds_near(c_reference: np.ndarray, c_voigt: np.ndarray, density_kg_m3: flo
                         u[..., 0] * v[..., 1] + u[..., 1] * v[..., 0]], axis=1)
     # linear maps from the 36 Voigt entries of the difference to the (M, 6) components of D and
     # to its (6 pairs, M) projections on the reference polarisations
-    basis = np.stack([mono @ _component_coefficients(np.eye(36)[k].reshape(6, 6)) for k in range(36)])
+    basis = np.stack([_christoffel_components(np.eye(36)[k].reshape(6, 6), n) for k in range(36)])
     gamma_map = basis.reshape(36, len(n), 6)                                         # (36, M, 6)
     pair_map = np.einsum("kmc,mcp->kpm", gamma_map, project).reshape(36, -1)         # (36, 6 M)
     many = np.asarray(c_voigt, dtype=float)

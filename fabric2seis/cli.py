@@ -67,9 +67,39 @@ def _suite(args: argparse.Namespace, extra: list[str]) -> int:
                          Path.cwd())
     if not Path(args.samples).is_dir():
         raise InputError("no such samples folder", args.samples)
+    user_config, rest = split_config_arguments(extra)
     command = [sys.executable, "-m", "snakemake", "--cores", str(args.cores),
-               "--config", f"samples_dir={args.samples}", f"results_dir={args.results}", *extra]
+               "--config", f"samples_dir={args.samples}", f"results_dir={args.results}", *user_config, *rest]
     return subprocess.run(command).returncode
+
+
+def split_config_arguments(extra: list[str]) -> tuple[list[str], list[str]]:
+    """The ``key=value`` items of every ``--config`` among Snakemake's arguments, and the rest.
+
+    Snakemake keeps only the last ``--config`` it is given, so the user's items are merged into
+    the one that carries ``--samples`` and ``--results``; setting ``samples_dir`` or
+    ``results_dir`` there is refused, since the options say where the samples and results are.
+    """
+    items, rest, k = [], [], 0
+    while k < len(extra):
+        word = extra[k]
+        if word == "--config" or word.startswith("--config="):
+            taken = [word.split("=", 1)[1]] if "=" in word else []
+            k += 1
+            while "=" not in word and k < len(extra) and not extra[k].startswith("-"):
+                taken.append(extra[k])
+                k += 1
+            items += taken
+            continue
+        rest.append(word)
+        k += 1
+    for item in items:
+        key = item.split("=", 1)[0].strip()
+        if key in ("samples_dir", "results_dir"):
+            option = "--samples" if key == "samples_dir" else "--results"
+            raise InputError(f"give the folder with {option}, not with --config {key}=...", None,
+                             f"argument --config {item}")
+    return items, rest
 
 
 def _field(args: argparse.Namespace) -> int:

@@ -24,7 +24,7 @@ import pandas as pd
 
 from fabric2seis import splitting, waves
 from fabric2seis.errors import InputError
-from fabric2seis.outputs import folder_written_whole
+from fabric2seis.outputs import check_destination, folder_written_whole
 
 REQUIRED = ("station", "baz_deg", "fast_azimuth_deg", "delay_s")
 DEFAULT_AZIMUTH_ERR_DEG = 10.0
@@ -196,21 +196,27 @@ def predictions_table(sample: SampleTensor, data: pd.DataFrame, model: dict) -> 
 
 
 def run_field(result_dirs: list[str | Path], measurements: str | Path, out_dir: str | Path | None = None,
-              fixed: set[str] | None = None) -> Path:
-    """``fabric2seis field``: fit every sample to every station; outputs written whole or not at all."""
+              fixed: set[str] | None = None, results_root: str | Path | None = "results") -> Path:
+    """``fabric2seis field``: fit every sample to every station; outputs written whole or not at all.
+
+    The destination is checked before any work (``outputs.check_destination``): never the results
+    root, a folder holding an input, or a folder fabric2seis did not write.
+    """
     from fabric2seis.figures.field import data_and_predictions, fast_direction_rose, misfit_surface
 
     fixed = set(fixed or ())
     unknown = fixed - {"thickness", "azimuth", "foliation"}
     if unknown:
         raise InputError(f"--fix takes thickness, azimuth or foliation, not {', '.join(sorted(unknown))}")
+    out = Path(out_dir) if out_dir else Path("results") / "field"
+    inputs = [*result_dirs, measurements]
+    check_destination(out, "field", inputs, results_root)
     data = read_measurements(measurements)
     samples = [read_result(d) for d in result_dirs]
     for s in samples:
         if fixed and not s.field:
             raise InputError("--fix needs the sample's own field settings, which it has none of", s.name, "key field")
-    out = Path(out_dir) if out_dir else Path("results") / "field"
-    with folder_written_whole(out) as tmp:
+    with folder_written_whole(out, "field", inputs, results_root) as tmp:
         fits, tables = {}, []
         for s in samples:
             fits[s.name] = {}

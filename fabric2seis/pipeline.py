@@ -17,8 +17,9 @@ from pathlib import Path
 import numpy as np
 
 from fabric2seis import __version__, frames, grains as grains_mod, phases as phases_mod
+from fabric2seis.errors import InputError
 from fabric2seis.io import read_ebsd
-from fabric2seis.outputs import folder_written_whole
+from fabric2seis.outputs import check_destination, folder_written_whole
 from fabric2seis.phases import PointSet
 from fabric2seis.settings import settings_for
 
@@ -39,10 +40,20 @@ class Sample:
 
 
 def sample_name(path: str | Path) -> str:
+    """The sample's name: the file name without its format suffix (and ``.gz``)."""
     name = Path(path).name
     if name.endswith(".gz"):
         name = name[:-3]
     return Path(name).stem
+
+
+def checked_sample_name(path: str | Path) -> str:
+    """:func:`sample_name`, refused (InputError) when it cannot name a results folder of its own."""
+    name = sample_name(path)
+    if name in ("", ".", "..") or name.strip(".") == "":
+        raise InputError(f"the file name gives the sample name '{name}', which cannot name a results "
+                         "folder; rename the file", path)
+    return name
 
 
 def ingest(path: str | Path, settings: dict, settings_file: str | None = None, progress=None) -> Sample:
@@ -66,7 +77,6 @@ def ingest(path: str | Path, settings: dict, settings_file: str | None = None, p
         grains, keep = grains_mod.keep_large(found, settings["grains"]["min_pixels"])
         small = int((~keep).sum())
         if grains.n_grains == 0:
-            from fabric2seis.errors import InputError
             raise InputError(f"no grain has grains.min_pixels = {settings['grains']['min_pixels']} pixels "
                              "or more", path, "key grains.min_pixels")
         if not keep.all():
@@ -75,7 +85,7 @@ def ingest(path: str | Path, settings: dict, settings_file: str | None = None, p
     measured = phases_mod.modal_fractions(points.mineral_index, points.weights, points.minerals)
     fractions = phases_mod.modal_fractions(points.mineral_index, points.weights, points.minerals,
                                            settings.get("modal_fractions"), settings_file)
-    return Sample(name=sample_name(path), settings=settings, settings_file=settings_file, points=points,
+    return Sample(name=checked_sample_name(path), settings=settings, settings_file=settings_file, points=points,
                   grains=grains, fractions=fractions, measured_fractions=measured, grid=data.grid,
                   n_small_grain_points=small)
 
@@ -256,15 +266,17 @@ def provenance(path: Path, sample: Sample) -> dict:
 
 
 def default_out_dir(path: str | Path) -> Path:
-    return Path("results") / sample_name(path)
+    return Path("results") / checked_sample_name(path)
 
 
 def run_sample(path: str | Path, settings_path: str | Path | None = None, out_dir: str | Path | None = None,
-               progress=None, defaults: dict | None = None) -> Path:
+               progress=None, defaults: dict | None = None, results_root: str | Path | None = "results") -> Path:
     """Process one EBSD export into ``out_dir``; returns the folder written.
 
     ``defaults``: settings under the sample's sidecar instead of config/config.yaml (the workflow
     passes its config, so that ``snakemake --config key=value`` reaches every sample).
+    ``results_root``: the suite's results folder, never replaced (outputs.check_destination).
+    The destination is checked before any work, and replaced only when the run succeeded.
     """
     import time
 
@@ -278,9 +290,12 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
         if report_progress is not None:
             report_progress(message)
 
+    checked_sample_name(path)
     settings, settings_file = settings_for(path, settings_path, defaults)
     say(f"fabric2seis {__version__}: {path} with settings {settings_file or 'defaults'}")
     out = Path(out_dir) if out_dir is not None else default_out_dir(path)
+    inputs = [path, *([settings_file] if settings_file else [])]
+    check_destination(out, "sample", inputs, results_root)
     progress = say
     sample = ingest(path, settings, settings_file, progress)
     fabrics = fabric_stage(sample, progress)
@@ -309,7 +324,7 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
             report["uncertainty"]["estimate_outside_interval"] = ", ".join(outside)
             say(f"caution: the estimate lies outside its bootstrap interval for {', '.join(outside)} "
                 "(few grains, or grain-mean orientations differ from the pixels the estimate uses)")
-    with folder_written_whole(out) as tmp:
+    with folder_written_whole(out, "sample", inputs, results_root) as tmp:
         _write_json(tmp / "summary.json", report)
         say("writing tables and figures")
         fabric_figures(tmp, sample, fabrics)

@@ -33,7 +33,7 @@ def read_yaml(path: str | Path) -> dict:
     """A YAML mapping from a file; an empty file is an empty mapping."""
     path = Path(path)
     try:
-        data = yaml.safe_load(path.read_text())
+        data = yaml.safe_load(settings_text(path))
     except OSError as exc:
         raise InputError(f"cannot read settings ({exc.strerror})", path) from None
     except yaml.YAMLError as exc:
@@ -45,6 +45,25 @@ def read_yaml(path: str | Path) -> dict:
     if not isinstance(data, dict):
         raise InputError("settings must be a YAML mapping of keys to values", path)
     return data
+
+
+def settings_text(path: Path) -> str:
+    """The text of a settings file: UTF-8 (with or without a byte-order mark) or UTF-16 with its mark.
+
+    Any other encoding is refused with the place of the first byte that is not UTF-8.
+    """
+    raw = path.read_bytes()
+    if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
+        try:
+            return raw.decode("utf-16")
+        except UnicodeDecodeError:
+            raise InputError("not readable as UTF-16 text, though it starts like it", path) from None
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw[:exc.start].count(b"\n") + 1
+        raise InputError(f"not UTF-8 text (byte 0x{raw[exc.start]:02x}); save the file as UTF-8", path,
+                         f"line {line}") from None
 
 
 def validate(settings: dict, source: str | Path | None = None) -> dict:

@@ -31,7 +31,7 @@ import pandas as pd
 
 from fabric2seis import layers, splitting
 from fabric2seis.errors import InputError, nearest
-from fabric2seis.outputs import folder_written_whole
+from fabric2seis.outputs import check_destination, folder_written_whole
 
 TOP_KEYS = {"layers", "period_s", "incidence_deg", "back_azimuth_step_deg"}
 SAMPLE_KEYS = {"result", "thickness_km", "field", "name"}
@@ -223,7 +223,11 @@ def run_stack(stack_file: str | Path, measurements: str | Path | None = None,
     from fabric2seis.field import read_measurements
     from fabric2seis.figures.stack import stack_figure
 
+    out = Path(out_dir) if out_dir else Path("results") / "stack"     # not results/field: the one-layer fit lives there
     stack = read_stack(stack_file)
+    inputs = [stack_file, *([measurements] if measurements else []),
+              *(layer["result"] for layer in stack["layers"] if layer.get("kind") == "sample")]
+    check_destination(out, "stack", inputs)
     data = read_measurements(measurements) if measurements else None
     table, nulls = stack_sweep(stack)
     cautions = stack_cautions(stack)
@@ -239,8 +243,7 @@ def run_stack(stack_file: str | Path, measurements: str | Path | None = None,
               "layers_bottom_to_top": [_layer_record(layer) for layer in stack["layers"]],
               "nulls": nulls, "measurements": None if measurements is None else str(measurements),
               "cautions": cautions}
-    out = Path(out_dir) if out_dir else Path("results") / "stack"     # not results/field: the one-layer fit lives there
-    with folder_written_whole(out) as tmp:
+    with folder_written_whole(out, "stack", inputs) as tmp:
         table.to_csv(tmp / "stack_splitting.csv", index=False)
         if data is not None:
             predictions, misfit = measurement_predictions(stack, data)

@@ -7,8 +7,22 @@ from pathlib import Path
 
 import pandas as pd
 
+from fabric2seis.errors import InputError
 from fabric2seis.io import is_supported
-from fabric2seis.pipeline import sample_name
+from fabric2seis.pipeline import checked_sample_name, sample_name
+
+# folders and files the workflow itself keeps in the results folder: no sample may take their names
+WORKFLOW_NAMES = ("status", "logs", "benchmarks", "report_parts", "field", "stack", "suite_summary",
+                  "suite_comparison", "report")
+
+
+def check_workflow_sample_name(name: str, path: str | Path) -> str:
+    """Refuse (InputError) a sample name that cannot be a folder of its own in the results folder."""
+    checked_sample_name(path)
+    if name.lower() in WORKFLOW_NAMES:
+        raise InputError(f"the sample name '{name}' is the name of one of the workflow's own folders or "
+                         f"files ({', '.join(WORKFLOW_NAMES)}); rename the file", path)
+    return name
 
 
 def is_measurements_file(path: Path) -> bool:
@@ -74,7 +88,9 @@ def suite_table_from_status(status_files: list[str | Path]) -> pd.DataFrame:
     rows = []
     for f in status_files:
         status = json.loads(Path(f).read_text())
-        if status["status"] == "ok":
+        if status["status"] == "ok" and not Path(status["summary"]).is_file():
+            rows.append({"sample": status["sample"], "status": f"results missing: no {status['summary']}"})
+        elif status["status"] == "ok":
             summary = json.loads(Path(status["summary"]).read_text())
             rows.append({"sample": summary["sample"], "status": "ok", **flatten(summary)})
         else:

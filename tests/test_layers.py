@@ -211,7 +211,7 @@ def test_stack_command_writes_table_record_and_figure(result_folder, capsys):
     table = pd.read_csv(out / "stack_splitting.csv")
     record = json.loads((out / "stack.json").read_text())
     assert {p.name for p in out.iterdir()} == {"stack_splitting.csv", "stack.json", "stack_splitting.png",
-                                               "stack_splitting.pdf"}
+                                               "stack_splitting.pdf", ".fabric2seis-results"}
     assert len(table) == 72 and record["settings"]["period_s"] == 10.0
     assert [layer["kind"] for layer in record["layers_bottom_to_top"]] == ["sample", "splitting"]
     assert record["layers_bottom_to_top"][0]["thickness_km"] == 70.0

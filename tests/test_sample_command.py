@@ -259,9 +259,3 @@ def test_hexagonal_ang_header_is_honoured(tmp_path):
     assert main(["sample", str(f), "--out", str(tmp_path / "o")]) == 0
 
 
-def test_folder_left_by_a_killed_run_is_cleared(tmp_path, small_map):
-    f = write_good_ang(tmp_path / "k.ang", small_map)
-    (tmp_path / ".res.partial-old").mkdir()                  # as a SIGKILL would leave it
-    (tmp_path / "k.yaml").write_text("bootstrap: {n: 0}\n")
-    assert main(["sample", str(f), "--out", str(tmp_path / "res")]) == 0
-    assert not (tmp_path / ".res.partial-old").exists() and (tmp_path / "res" / "summary.json").exists()

@@ -1,39 +1,72 @@
-"""Turn an orix CrystalMap into the common record (shared by the .ang, .ctf and .h5 readers)."""
+"""What the readers take from orix: the phases of a file's header, and HDF5 crystal maps.
+
+The .ang and .ctf readers parse the numbers themselves (one pass, every row checked) and ask
+orix only for what the header says about the phases: orix reads a copy of the header with the
+first data row, so its own header parsing (names, point groups, vendor columns) is used through
+its public reader and nothing is read twice.
+"""
 
 from __future__ import annotations
+
+import tempfile
+from pathlib import Path
 
 import numpy as np
 
 from fabric2seis.errors import InputError
 from fabric2seis.io.record import EBSDData, check_map
+from fabric2seis.io.text import quiet
 
 
-def from_crystal_map(xmap, source, grid: str, step: float | None, first_data_line: int | None,
-                     quality_names: dict[str, str]) -> EBSDData:
-    """Build an EBSDData from ``xmap`` (all points, indexed or not)."""
-    # every point of a freshly read map is "in data"; orix's public .rotations would copy them
-    # through a mask, so take the stored rotations directly when that is the case
-    rotations = getattr(xmap, "_rotations", None)
-    if rotations is None or not np.all(xmap.is_in_data) or rotations.size != xmap.size:
-        rotations = xmap.rotations
-    quat = np.asarray(rotations.data, dtype=float).reshape(-1, 4)
-    phase_id = np.asarray(xmap.phase_id, dtype=int).copy()
-    bad = np.flatnonzero(~np.all(np.isfinite(quat), axis=1))
-    if len(bad):
-        where = f"line {first_data_line + bad[0]}" if first_data_line else f"point {bad[0] + 1}"
-        raise InputError("Euler angle is not a number (NaN or infinite)", source, where)
+def header_phases(file_reader, header: list[str], rows: np.ndarray, source: Path, suffix: str
+                  ) -> tuple[dict[int, str], dict[int, str | None], list[str]]:
+    """Phase names and point groups by id, and the names of the extra columns, as orix reads them.
+
+    ``file_reader`` is orix's reader of the format, ``header`` the header lines, ``rows`` one data
+    row (as numbers) for each phase id that occurs in the file, so that orix matches the header's
+    phases to the ids exactly as it would reading the whole file.
+    """
+    if len(rows) == 1:
+        rows = np.repeat(rows, 2, axis=0)      # orix's text loading needs two rows to see a table
+    with tempfile.TemporaryDirectory(prefix="fabric2seis-") as tmp:
+        head = Path(tmp) / f"header{suffix}"
+        body = "".join("\t".join(repr(float(v)) for v in row) + "\n" for row in rows)
+        head.write_text("".join(header) + body)
+        try:
+            xmap = quiet(file_reader, str(head))
+        except Exception as exc:  # orix raises several types for a header it cannot read
+            raise InputError(f"the header cannot be read ({type(exc).__name__}: {str(exc)[:120]})", source) from None
+    names, groups = _phases(xmap)
+    return names, groups, list(xmap.prop)
+
+
+def one_row_per_phase(phase_id: np.ndarray) -> np.ndarray:
+    """Index of the first row of every distinct phase id (-1 included)."""
+    return np.unique(phase_id, return_index=True)[1]
+
+
+def _phases(xmap) -> tuple[dict[int, str], dict[int, str | None]]:
     names, groups = {}, {}
     for pid, phase in xmap.phases:
         if pid < 0:
             continue
         names[int(pid)] = phase.name or f"phase {pid}"
         groups[int(pid)] = phase.point_group.name if phase.point_group is not None else None
+    return names, groups
+
+
+def from_crystal_map(xmap, source, quality_names: dict[str, str]) -> EBSDData:
+    """Build an EBSDData from an orix CrystalMap read from an HDF5 file (all points)."""
+    quat = np.asarray(xmap.rotations.data, dtype=float).reshape(-1, 4)
+    bad = np.flatnonzero(~np.all(np.isfinite(quat), axis=1))
+    if len(bad):
+        raise InputError("orientation is not a number (NaN or infinite)", source, f"point {bad[0] + 1}")
+    names, groups = _phases(xmap)
     x = np.asarray(xmap.x, dtype=float)
     y = np.asarray(xmap.y, dtype=float) if xmap.y is not None else np.zeros_like(x)
-    check_map(x, y, source)
-    quality = {}
-    for name, key in quality_names.items():
-        if key in xmap.prop:
-            quality[name] = np.asarray(xmap.prop[key], dtype=float)
-    return EBSDData(source=str(source), quat=quat, phase_id=phase_id, phase_names=names,
-                    phase_point_groups=groups, x=x, y=y, step=step, grid=grid, quality=quality)
+    grid, step = check_map(x, y, source)
+    quality = {name: np.asarray(xmap.prop[key], dtype=float) for name, key in quality_names.items()
+               if key in xmap.prop}
+    return EBSDData(source=str(source), quat=quat, phase_id=np.asarray(xmap.phase_id, dtype=int).copy(),
+                    phase_names=names, phase_point_groups=groups, x=x, y=y, step=step, grid=grid,
+                    quality=quality)

@@ -1,21 +1,27 @@
-"""Reader of .ang files (EDAX TSL layout, also written by orix and others), through orix.
+"""Reader of .ang files (EDAX TSL layout, also written by orix and others).
 
 Euler angles are Bunge angles in radians, as the format stores them; orientations are taken
-as stored, with respect to the map's x, y axes, with no vendor correction. Points with
-confidence index -1 are not indexed (orix's convention). ``# GRID: HexGrid`` marks a hexagonal
-grid.
+as stored, with respect to the map's x, y axes, with no vendor correction. Columns 1-5 are
+phi1, Phi, phi2, x, y and column 8 the phase id in every vendor's layout; the other columns'
+names (ci, iq, fit ...) and the phases of the header are read by orix. Points with confidence
+index -1 are not indexed (orix's convention). Every row is checked: angle ranges, the point count
+against NROWS / NCOLS_ODD / NCOLS_EVEN, the grid against ``# GRID:`` and ``# XSTEP:``, points off
+the grid.
 """
 
 from __future__ import annotations
 
 from pathlib import Path
 
+import numpy as np
 from orix.io.plugins import ang as orix_ang
+from orix.quaternion import Rotation
 
-from fabric2seis.errors import InputError
-from fabric2seis.io._crystal_map import from_crystal_map
-from fabric2seis.io.record import EBSDData, check_angles
-from fabric2seis.io.text import find_bad_row, first_rows, plain_text_file, quiet
+from fabric2seis.io._crystal_map import header_phases, one_row_per_phase
+from fabric2seis.io.record import EBSDData, check_angles, check_map
+from fabric2seis.io.text import line_of_row, plain_text_file, read_numbers
+
+CORE_COLUMNS = (0, 1, 2, 3, 4, 7)      # phi1, Phi, phi2, x, y, phase id
 
 
 def _header(path: Path) -> list[str]:
@@ -32,21 +38,25 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
     with plain_text_file(path, compressed) as plain:
         header = _header(plain)
         first_line = len(header) + 1
-        sample = first_rows(plain, len(header))
-        if sample.size == 0:
-            problem = find_bad_row(plain, first_line, None)
-            raise InputError(problem or "the file has a header but no data rows", path)
-        try:
-            xmap = quiet(orix_ang.file_reader, str(plain))
-        except Exception as exc:  # orix raises several types; find the line for the user
-            problem = find_bad_row(plain, first_line, sample.shape[1])
-            raise InputError(problem or f"not a readable .ang file ({exc})", path) from None
-    check_angles(sample[:, :3], "radians", path, first_line)
-    text = "".join(header)
-    grid = "hex" if "HexGrid" in text else "square"
-    step = _header_value(header, "XSTEP")
-    return from_crystal_map(xmap, path, grid, step, first_line,
-                            {"ci": "ci", "iq": "iq", "fit": "fit"})
+        values = read_numbers(plain, first_line, path, comment="#", min_columns=8)
+
+        def where(row: int) -> str:
+            return line_of_row(plain, first_line, row, "#")
+
+        check_angles(values[:, :3], "radians", path, where)
+        extra = [c for c in range(values.shape[1]) if c not in CORE_COLUMNS]
+        phase_id = values[:, 7].astype(int)
+        names, groups, props = header_phases(orix_ang.file_reader, header, values[one_row_per_phase(phase_id)],
+                                             path, ".ang")
+        columns = dict(zip(props, extra))
+        if "ci" in columns:
+            phase_id[values[:, columns["ci"]] == -1] = -1
+        grid, step = check_map(values[:, 3], values[:, 4], path, _declared_grid(header),
+                               _header_value(header, "XSTEP"), _expected_points(header), where)
+    quality = {name: values[:, columns[name]].copy() for name in ("ci", "iq", "fit") if name in columns}
+    return EBSDData(source=str(path), quat=Rotation.from_euler(values[:, :3]).data, phase_id=phase_id,
+                    phase_names=names, phase_point_groups=groups, x=values[:, 3].copy(), y=values[:, 4].copy(),
+                    step=step, grid=grid, quality=quality)
 
 
 def _header_value(header: list[str], key: str) -> float | None:
@@ -58,3 +68,23 @@ def _header_value(header: list[str], key: str) -> float | None:
             except ValueError:
                 return None
     return None
+
+
+def _declared_grid(header: list[str]) -> str | None:
+    for line in header:
+        parts = line.lstrip("#").split(":")
+        if len(parts) == 2 and parts[0].strip() == "GRID":
+            return {"hexgrid": "hex", "sqrgrid": "square"}.get(parts[1].strip().lower())
+    return None
+
+
+def _expected_points(header: list[str]) -> tuple[int, str] | None:
+    """Points announced by NROWS, NCOLS_ODD and NCOLS_EVEN (hexagonal rows alternate odd, even)."""
+    rows, odd, even = (_header_value(header, k) for k in ("NROWS", "NCOLS_ODD", "NCOLS_EVEN"))
+    if not rows or not odd or rows <= 0 or odd <= 0:
+        return None
+    rows, odd = int(rows), int(odd)
+    even = int(even) if even else odd
+    if _declared_grid(header) == "hex":
+        return (rows + 1) // 2 * odd + rows // 2 * even, f"NROWS {rows}, NCOLS_ODD {odd}, NCOLS_EVEN {even}"
+    return rows * odd, f"NROWS {rows} x NCOLS_ODD {odd}"

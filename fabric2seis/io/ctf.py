@@ -1,58 +1,72 @@
-"""Reader of .ctf files (Oxford Instruments channel text layout), through orix.
+"""Reader of .ctf files (Oxford Instruments channel text layout).
 
 Columns: Phase, X, Y, Bands, Error, Euler1, Euler2, Euler3 (Bunge, degrees), MAD, BC, BS.
 Phase 0 is not indexed. Orientations are taken as stored, with respect to the map's x, y axes,
-with no vendor correction. CTF maps are square grids.
+with no vendor correction. CTF maps are square grids. The phases of the header are read by orix;
+every row is checked: angle ranges, the point count against XCells x YCells, the step against
+XStep, points off the grid.
 """
 
 from __future__ import annotations
 
 from pathlib import Path
 
+import numpy as np
 from orix.io.plugins import ctf as orix_ctf
+from orix.quaternion import Rotation
 
 from fabric2seis.errors import InputError
-from fabric2seis.io._crystal_map import from_crystal_map
-from fabric2seis.io.record import EBSDData, check_angles
-from fabric2seis.io.text import find_bad_row, first_rows, plain_text_file, quiet
+from fabric2seis.io._crystal_map import header_phases, one_row_per_phase
+from fabric2seis.io.record import EBSDData, check_angles, check_map
+from fabric2seis.io.text import line_of_row, plain_text_file, read_numbers
 
 
-def _data_start(path: Path) -> int:
-    """1-based number of the first data line: the line after the 'Phase X Y ...' column names."""
-    with path.open("r", errors="replace") as f:
-        for number, line in enumerate(f, start=1):
-            if line.startswith("Phase\tX\tY") or line.split()[:3] == ["Phase", "X", "Y"]:
-                return number + 1
-    return 0
-
-
-def _step(path: Path) -> float | None:
+def _header(path: Path) -> list[str]:
+    """The lines up to and including the 'Phase X Y ...' column names (empty if there is none)."""
+    lines = []
     with path.open("r", errors="replace") as f:
         for line in f:
-            parts = line.split()
-            if len(parts) == 2 and parts[0] == "XStep":
+            lines.append(line)
+            if line.startswith("Phase\tX\tY") or line.split()[:3] == ["Phase", "X", "Y"]:
+                return lines
+    return []
+
+
+def _header_number(header: list[str], key: str) -> float | None:
+    for line in header:
+        parts = line.split()
+        if len(parts) == 2 and parts[0] == key:
+            try:
                 return float(parts[1])
-            if parts[:3] == ["Phase", "X", "Y"]:
-                break
+            except ValueError:
+                return None
     return None
 
 
 def read(path: Path, compressed: bool = False) -> EBSDData:
     with plain_text_file(path, compressed) as plain:
-        start = _data_start(plain)
-        if start == 0:
+        header = _header(plain)
+        if not header:
             raise InputError("no 'Phase X Y ...' column line: not a .ctf file", path)
-        sample = first_rows(plain, start - 1, comment="\x00")
-        if sample.size == 0:
-            problem = find_bad_row(plain, start, None, comment="\x00")
-            raise InputError(problem or "the file has a header but no data rows", path)
-        if sample.shape[1] < 11:
-            raise InputError(f"line {start}: {sample.shape[1]} columns, a .ctf row has 11", path)
-        try:
-            xmap = quiet(orix_ctf.file_reader, str(plain))
-        except Exception as exc:
-            problem = find_bad_row(plain, start, sample.shape[1], comment="\x00")
-            raise InputError(problem or f"not a readable .ctf file ({exc})", path) from None
-        step = _step(plain)
-    check_angles(sample[:, 5:8], "degrees", path, start)
-    return from_crystal_map(xmap, path, "square", step, start, {"bc": "BC", "bs": "BS", "mad": "MAD"})
+        start = len(header) + 1
+        values = read_numbers(plain, start, path, comment=None, min_columns=11)
+
+        def where(row: int) -> str:
+            return line_of_row(plain, start, row, None)
+
+        check_angles(values[:, 5:8], "degrees", path, where)
+        phase_id = values[:, 0].astype(int)
+        phase_id[phase_id == 0] = -1
+        names, groups, _ = header_phases(orix_ctf.file_reader, header, values[one_row_per_phase(phase_id)],
+                                         path, ".ctf")
+        cells = [_header_number(header, k) for k in ("XCells", "YCells")]
+        expected = None
+        if all(c and c > 0 for c in cells):
+            nx, ny = int(cells[0]), int(cells[1])
+            expected = (nx * ny, f"XCells {nx} x YCells {ny}")
+        grid, step = check_map(values[:, 1], values[:, 2], path, "square", _header_number(header, "XStep"),
+                               expected, where)
+    quality = {"mad": values[:, 8].copy(), "bc": values[:, 9].copy(), "bs": values[:, 10].copy()}
+    return EBSDData(source=str(path), quat=Rotation.from_euler(np.radians(values[:, 5:8])).data,
+                    phase_id=phase_id, phase_names=names, phase_point_groups=groups, x=values[:, 1].copy(),
+                    y=values[:, 2].copy(), step=step, grid=grid, quality=quality)

@@ -8,7 +8,7 @@ from orix import io as orix_io
 
 from fabric2seis.errors import InputError
 from fabric2seis.io._crystal_map import from_crystal_map
-from fabric2seis.io.record import EBSDData, infer_grid
+from fabric2seis.io.record import EBSDData
 from fabric2seis.io.text import quiet
 
 
@@ -22,6 +22,4 @@ def read(path: Path) -> EBSDData:
                          f"{str(exc)[:120]})", path) from None
     if xmap.size < 2:
         raise InputError(f"a map needs at least two points, this one has {xmap.size}", path)
-    grid, step = infer_grid(xmap.x, xmap.y if xmap.y is not None else 0 * xmap.x)
-    quality = {k: k for k in ("ci", "iq", "fit", "bc", "bs", "mad") if k in xmap.prop}
-    return from_crystal_map(xmap, path, grid, step, None, quality)
+    return from_crystal_map(xmap, path, {k: k for k in ("ci", "iq", "fit", "bc", "bs", "mad")})

@@ -67,60 +67,146 @@ class EBSDData:
         return self.step ** 2 * (np.sqrt(3.0) / 2.0 if self.grid == "hex" else 1.0)
 
 
-def check_angles(euler: np.ndarray, units: str, source, first_line: int | None = None) -> None:
-    """Refuse NaN angles, and angles whose range contradicts the declared units.
+OFF_GRID_TOLERANCE = 0.1     # of a step: farther from a grid node than this, a point is off the grid
+RADIANS_TOLERANCE = 1e-3     # 2 pi plus rounding of written angles
 
-    Bunge angles span phi1, phi2 in [0, 360) and Phi in [0, 180] degrees. Angles that never exceed
-    2 pi in a set of more than 20 points look like radians declared as degrees; angles beyond
-    2 pi (plus rounding) cannot be radians. Both are refused rather than guessed.
+
+def _row_place(where, row: int) -> str:
+    return where(row) if where is not None else f"point {row + 1}"
+
+
+def check_angles(euler: np.ndarray, units: str, source, where=None) -> None:
+    """Refuse NaN angles, angles out of the Bunge ranges, and angles that contradict the units.
+
+    Every row is checked. Bunge angles span phi1, phi2 in [0, 360) and Phi in [0, 180] degrees
+    (common practice; negative phi1, phi2 down to -360 are accepted, as some programs write
+    them). Angles that never exceed 2 pi look like radians declared as degrees, however few rows
+    there are (only an all-zero set is not suspect: it is the same rotation in either unit);
+    angles beyond 2 pi (plus rounding) cannot be radians. Both are refused rather than guessed.
+
+    ``where(row) -> str`` names the place of a 0-based data row in the file ("line 12").
     """
-    bad = np.flatnonzero(~np.all(np.isfinite(euler), axis=1))
-    if len(bad):
-        where = f"line {first_line + bad[0]}" if first_line is not None else f"point {bad[0] + 1}"
-        raise InputError("Euler angle is not a number (NaN or infinite)", source, where)
+    euler = np.asarray(euler, dtype=float)
     if len(euler) == 0:
         return
-    largest = np.abs(euler).max()
-    if units == "degrees" and len(euler) > 20 and largest <= 2 * np.pi + 1e-3:
-        raise InputError(f"the Euler angles look like radians (largest {largest:.3f}) but degrees are "
-                         "declared; set table.angle_units: radians in the settings if they are",
+    bad = np.flatnonzero(~np.all(np.isfinite(euler), axis=1))
+    if len(bad):
+        raise InputError("Euler angle is not a number (NaN or infinite)", source, _row_place(where, int(bad[0])))
+    largest = float(np.abs(euler).max())
+    if units == "degrees" and 0.0 < largest <= 2 * np.pi + RADIANS_TOLERANCE:
+        raise InputError(f"the Euler angles look like radians (largest {largest:.3f} in {len(euler)} rows) but "
+                         "degrees are declared; set table.angle_units: radians in the settings if they are",
                          source)
     if units == "radians" and largest > 2 * np.pi + 1e-2:
-        raise InputError(f"the Euler angles look like degrees (largest {largest:.1f}) but this format "
-                         "stores radians", source)
+        row = int(np.flatnonzero(np.abs(euler).max(axis=1) > 2 * np.pi + 1e-2)[0])
+        raise InputError(f"the Euler angles look like degrees (largest {largest:.1f}) but radians are "
+                         "expected here", source, _row_place(where, row))
+    full_turn, half_turn = (2 * np.pi, np.pi) if units == "radians" else (360.0, 180.0)
+    slack = 1e-6 * full_turn + (RADIANS_TOLERANCE if units == "radians" else 0.05)
+    phi = euler[:, 1]
+    wrong_phi = np.flatnonzero((phi < -slack) | (phi > half_turn + slack))
+    if len(wrong_phi):
+        row = int(wrong_phi[0])
+        raise InputError(f"Phi = {phi[row]:g} {units} lies outside 0-{half_turn:g}; Bunge's second angle "
+                         "spans half a turn", source, _row_place(where, row))
+    outer = np.abs(euler[:, [0, 2]]).max(axis=1)
+    wrong = np.flatnonzero(outer > full_turn + slack)
+    if len(wrong):
+        row = int(wrong[0])
+        raise InputError(f"phi1 or phi2 = {outer[row]:g} {units} lies beyond a full turn", source,
+                         _row_place(where, row))
 
 
-def check_map(x: np.ndarray, y: np.ndarray, source) -> None:
-    """Refuse maps of one point and maps with repeated coordinates."""
-    if len(x) < 2:
-        raise InputError(f"a map needs at least two points, this one has {len(x)}", source)
-    if not (np.all(np.isfinite(x)) and np.all(np.isfinite(y))):
-        raise InputError("map coordinates are not all numbers", source)
-    # coordinates to integers at a resolution far below any step, then one sort of int64 keys
-    scale = 1e5 / max(np.ptp(x), np.ptp(y), 1e-12)
-    ix = np.rint((x - x.min()) * scale).astype(np.int64)
-    iy = np.rint((y - y.min()) * scale).astype(np.int64)
-    key = np.sort(iy * (int(ix.max()) + 1) + ix)
-    if np.any(key[1:] == key[:-1]):
-        dup_key = key[1:][key[1:] == key[:-1]][0]
-        i = int(np.flatnonzero(iy * (int(ix.max()) + 1) + ix == dup_key)[1])
-        raise InputError(f"duplicate map coordinates x = {x[i]:g}, y = {y[i]:g} (point {i + 1}); "
-                         "each point of a map must be at its own place", source)
+def _levels(values: np.ndarray, tol: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Distinct values (closer than ``tol`` merged), each point's level and each level's count."""
+    order = np.argsort(values, kind="stable")
+    ordered = values[order]
+    new = np.ones(len(ordered), dtype=bool)
+    new[1:] = np.diff(ordered) > tol
+    level_sorted = np.cumsum(new) - 1
+    level = np.empty(len(values), dtype=np.int64)
+    level[order] = level_sorted
+    return ordered[new], level, np.bincount(level_sorted)
 
 
-def infer_grid(x: np.ndarray, y: np.ndarray) -> tuple[str, float]:
-    """Grid type and step of a map from its coordinates.
+def _spacing(levels: np.ndarray, counts: np.ndarray, only_shared: bool) -> float | None:
+    """The grid spacing: median gap between levels (those shared by two or more points if asked)."""
+    used = levels[counts >= 2] if only_shared else levels
+    if len(used) < 2:
+        return None
+    return float(np.median(np.diff(used)))
 
-    A hexagonal grid has rows sqrt(3)/2 steps apart with every other row shifted by half a step.
+
+def check_map(x: np.ndarray, y: np.ndarray, source, declared_grid: str | None = None,
+              declared_step: float | None = None, expected_points: tuple[int, str] | None = None,
+              where=None) -> tuple[str, float]:
+    """Check a map's coordinates and return its grid type and step.
+
+    Refused: fewer than two points, coordinates that are not numbers, a point count other than the
+    header announces (``expected_points`` = (count, how the header gives it)), coordinates that are
+    not on a grid (no two points share a row or a column), points farther than
+    ``OFF_GRID_TOLERANCE`` of a step from the nearest node, repeated coordinates, unequal x and y
+    steps on a square grid, a grid type or step other than the header declares, and points that
+    fill less than an eighth of their bounding grid. A hexagonal grid has rows sqrt(3)/2 steps
+    apart with every other row shifted by half a step.
     """
-    xs = np.unique(np.round(x, 6))
-    ys = np.unique(np.round(y, 6))
-    dx = np.diff(xs)
-    dy = np.diff(ys)
-    step_x = float(np.min(dx[dx > 0])) if np.any(dx > 0) else float(np.min(dy[dy > 0]))
-    if len(ys) > 1:
-        row_gap = float(np.min(dy[dy > 0]))
-        # a hexagonal map has half-step offsets between rows: the x spacing seen is step/2
-        if abs(row_gap - step_x * np.sqrt(3.0)) < 1e-3 * row_gap:
-            return "hex", 2 * step_x
-    return "square", step_x
+    x = np.asarray(x, dtype=float)
+    y = np.asarray(y, dtype=float)
+    n = len(x)
+    if n < 2:
+        raise InputError(f"a map needs at least two points, this one has {n}", source)
+    for name, v in (("x", x), ("y", y)):
+        bad = np.flatnonzero(~np.isfinite(v))
+        if len(bad):
+            raise InputError(f"map coordinate {name} is not a number", source, _row_place(where, int(bad[0])))
+    if expected_points is not None and expected_points[0] != n:
+        raise InputError(f"the header announces {expected_points[0]:,} points ({expected_points[1]}) but the file "
+                         f"has {n:,} (truncated, or rows added?)", source)
+    span = max(float(np.ptp(x)), float(np.ptp(y)))
+    if span == 0.0:
+        raise InputError(f"every point of the map is at x = {x[0]:g}, y = {y[0]:g}; each point of a map must "
+                         "be at its own place", source)
+    tol = 1e-7 * span
+    xv, ix, x_counts = _levels(x, tol)
+    yv, iy, y_counts = _levels(y, tol)
+    if n >= 4 and x_counts.max() < 2 and y_counts.max() < 2:
+        raise InputError("map coordinates are not on a grid: no two points share a row or a column", source)
+    dx = _spacing(xv, x_counts, only_shared=len(yv) > 1)
+    dy = _spacing(yv, y_counts, only_shared=len(xv) > 1)
+    if dx is None and dy is None:
+        raise InputError("map coordinates are not on a grid: no row or column holds two points", source)
+    dx = dy if dx is None else dx
+    dy = dx if dy is None else dy
+    fx, fy = (x - xv[0]) / dx, (y - yv[0]) / dy
+    kx, ky = np.rint(fx), np.rint(fy)
+    off = np.flatnonzero((np.abs(fx - kx) > OFF_GRID_TOLERANCE) | (np.abs(fy - ky) > OFF_GRID_TOLERANCE))
+    if len(off):
+        i = int(off[0])
+        raise InputError(f"point off the grid: x = {x[i]:g}, y = {y[i]:g} lies between the grid's nodes "
+                         f"(spacing {dx:g} along x, {dy:g} along y; {len(off):,} such points)", source,
+                         _row_place(where, i))
+    cell = ky.astype(np.int64) * (int(kx.max()) + 1) + kx.astype(np.int64)
+    order = np.argsort(cell, kind="stable")
+    repeated = np.flatnonzero(cell[order][1:] == cell[order][:-1])
+    if len(repeated):
+        i = int(order[repeated[0] + 1])
+        raise InputError(f"duplicate map coordinates x = {x[i]:g}, y = {y[i]:g}; each point of a map must be "
+                         "at its own place", source, _row_place(where, i))
+    hexagonal = (len(yv) > 1 and len(xv) > 1 and abs(dy / dx - np.sqrt(3.0)) < 1e-3 * np.sqrt(3.0)
+                 and len(np.unique((kx + ky).astype(np.int64) % 2)) == 1)
+    grid, step = ("hex", 2.0 * dx) if hexagonal else ("square", dx)
+    if grid == "square" and len(xv) > 1 and len(yv) > 1 and abs(dx - dy) > 1e-3 * max(dx, dy):
+        raise InputError(f"the map's steps differ along x ({dx:g}) and y ({dy:g}); fabric2seis needs a square "
+                         "grid with equal steps or a hexagonal grid", source)
+    if declared_grid is not None and declared_grid != grid and len(yv) > 1:
+        said = {"hex": "hexagonal", "square": "square"}
+        raise InputError(f"the header declares a {said[declared_grid]} grid but the coordinates lie on a "
+                         f"{said[grid]} grid", source)
+    if declared_step is not None and declared_step > 0 and abs(declared_step - step) > 0.01 * step:
+        raise InputError(f"the header declares a step of {declared_step:g} but the points lie {step:g} apart",
+                         source)
+    cells = (int(kx.max()) + 1) * (int(ky.max()) + 1)
+    if cells > 8 * n + 1024:
+        raise InputError(f"the map's {n:,} points fill only {100 * n / cells:.1f} % of the grid they span; "
+                         "is the step or a coordinate column wrong?", source)
+    return grid, step

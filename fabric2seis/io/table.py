@@ -15,7 +15,7 @@ import pandas as pd
 from orix.quaternion import Rotation
 
 from fabric2seis.errors import InputError
-from fabric2seis.io.record import EBSDData, check_angles, check_map, infer_grid
+from fabric2seis.io.record import EBSDData, check_angles, check_map
 from fabric2seis.io.text import plain_text_file
 
 REQUIRED = ("phase", "phi1", "Phi", "phi2")
@@ -40,7 +40,7 @@ def read(path: Path, compressed: bool = False, angle_units: str = "degrees") -> 
         raise InputError("the table has a header but no data rows", path)
     numbers = {c: _numeric(frame, c, path) for c in ("phi1", "Phi", "phi2", *OPTIONAL) if c in frame.columns}
     euler = np.column_stack([numbers["phi1"], numbers["Phi"], numbers["phi2"]])
-    check_angles(euler, angle_units, path, first_line=2)
+    check_angles(euler, angle_units, path, lambda row: f"line {row + 2}")
     if angle_units == "degrees":
         euler = np.radians(euler)
     names = frame["phase"].str.strip()
@@ -54,8 +54,7 @@ def read(path: Path, compressed: bool = False, angle_units: str = "degrees") -> 
         raise InputError("a map needs both x and y columns; a grain list has neither", path, "line 1")
     grid = step = None
     if x is not None:
-        check_map(x, y, path)
-        grid, step = infer_grid(x, y)
+        grid, step = check_map(x, y, path, where=lambda row: f"line {row + 2}")
     weights = numbers.get("weight")
     if weights is not None and np.any(weights < 0):
         row = int(np.flatnonzero(weights < 0)[0]) + 2

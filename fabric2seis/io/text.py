@@ -78,17 +78,46 @@ def quiet(func, *args, **kwargs):
         return func(*args, **kwargs)
 
 
-def first_rows(path: Path, skip: int, count: int = 2000, comment: str = "#") -> np.ndarray:
-    """The first ``count`` data rows as numbers (for quick range checks of the angle columns)."""
+def line_of_row(path: Path, first_data_line: int, row: int, comment: str | None = "#") -> str:
+    """``"line N"`` of the 0-based data row ``row`` (blank and comment lines skipped, as when reading)."""
+    count = -1
     with path.open("r", errors="replace") as f:
-        lines = []
         for number, line in enumerate(f, start=1):
-            if number <= skip or not line.strip() or line.lstrip().startswith(comment):
+            if number < first_data_line or not line.strip() or (comment and line.lstrip().startswith(comment)):
                 continue
-            lines.append(line)
-            if len(lines) >= count:
-                break
+            count += 1
+            if count == row:
+                return f"line {number}"
+    return f"data row {row + 1}"
+
+
+def read_numbers(path: Path, first_data_line: int, source: Path, comment: str | None = "#",
+                 min_columns: int = 1) -> np.ndarray:
+    """Every data row from ``first_data_line`` (1-based) on, as an (N, C) float array.
+
+    One pass of pandas' C parser over whitespace-separated numbers. A row with another count of
+    values than the first, a value that is not a number, or no data rows at all raise
+    InputError naming ``source`` and the line.
+    """
+    import pandas as pd
+
     try:
-        return np.loadtxt(lines, ndmin=2) if lines else np.empty((0, 0))
-    except ValueError:
-        return np.empty((0, 0))
+        frame = pd.read_csv(path, sep=r"\s+", header=None, skiprows=first_data_line - 1, comment=comment,
+                            dtype=np.float64, engine="c", skip_blank_lines=True)
+    except pd.errors.EmptyDataError:
+        raise InputError("the file has a header but no data rows", source) from None
+    except (ValueError, pd.errors.ParserError):
+        problem = find_bad_row(path, first_data_line, None, comment or "\x00")
+        raise InputError(problem or "the data rows are not all numbers", source) from None
+    values = frame.to_numpy()
+    if values.shape[0] == 0:
+        raise InputError("the file has a header but no data rows", source)
+    if values.shape[1] < min_columns:
+        raise InputError(f"{values.shape[1]} columns, a row of this format has at least {min_columns}", source,
+                         line_of_row(path, first_data_line, 0, comment))
+    short = np.flatnonzero(np.isnan(values).any(axis=1))
+    if len(short):      # a short row is filled with NaN by the parser; so is a written 'nan'
+        problem = find_bad_row(path, first_data_line, values.shape[1], comment or "\x00")
+        where = line_of_row(path, first_data_line, int(short[0]), comment)
+        raise InputError(problem or "a value is not a number (nan)", source, None if problem else where)
+    return values

@@ -19,8 +19,8 @@ def sample_input(wildcards):
 def settings_digest(wildcards):
     """Digest of the sidecar text and the defaults: Snakemake reruns a sample when it changes."""
     sidecar = sidecar_of(SAMPLES[wildcards.sample])
-    text = sidecar.read_text() if sidecar.is_file() else ""
-    return hashlib.sha256((text + json.dumps(config, sort_keys=True)).encode()).hexdigest()[:16]
+    text = sidecar.read_bytes() if sidecar.is_file() else b""   # bytes: a sidecar in any encoding
+    return hashlib.sha256(text + json.dumps(config, sort_keys=True).encode()).hexdigest()[:16]
 
 
 def report_labels(wildcards):

@@ -8,6 +8,7 @@ rule field:
         table=f"{RESULTS}/field/predictions.csv",
     params:
         out=lambda wildcards, output: str(Path(output.fits).parent),
+        results_root=RESULTS,
     log:
         f"{RESULTS}/logs/field.log",
     benchmark:

@@ -1,9 +1,9 @@
 rule sample:
     """One EBSD export -> results/<sample>/ (the same library call as `fabric2seis sample`).
 
-    The declared output is the sample's status file: "ok", or the one-line error of bad input, so
-    that one bad file does not stop the suite. The results folder is written by run_sample, whole
-    or not at all.
+    The declared output is the sample's status file: "ok", or the one-line error of bad input or
+    of a program error, so that one bad file does not stop the suite. The results folder is
+    written by run_sample, whole or not at all, and only over a folder fabric2seis wrote.
     """
     input:
         sample_input,
@@ -12,6 +12,7 @@ rule sample:
     params:
         settings=settings_digest,
         out=lambda wildcards: f"{RESULTS}/{wildcards.sample}",
+        results_root=RESULTS,
     log:
         f"{RESULTS}/logs/sample/{{sample}}.log",
     benchmark:

@@ -11,7 +11,8 @@ for f in snakemake.input.status:
     if status["status"] == "ok":
         good.append(status["summary"].rsplit("/", 1)[0])
 try:
-    run_field(good, snakemake.input.measurements, snakemake.params.out)
+    run_field(good, snakemake.input.measurements, snakemake.params.out,
+              results_root=snakemake.params.results_root)
     logging.info("fitted %d samples to %s", len(good), snakemake.input.measurements)
 except Exception:
     logging.exception("field comparison failed")

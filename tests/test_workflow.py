@@ -191,3 +191,53 @@ def test_settings_given_with_config_on_the_command_line_reach_the_samples(tmp_pa
     summary = json.loads((results / "s0" / "summary.json").read_text())
     assert summary["phases"]["olivine"]["odf_halfwidth_deg"] == 15
     assert summary["uncertainty"]["resamples"] == 20           # the sidecar still counts
+
+
+SITE_HOOK = '''
+import os
+if os.environ.get("FABRIC2SEIS_TEST_FAIL_SAMPLE"):
+    import fabric2seis.pipeline as pipeline
+    _ingest = pipeline.ingest
+
+    def ingest(path, *args, **kwargs):        # a program error in one sample, injected for the test
+        if os.environ["FABRIC2SEIS_TEST_FAIL_SAMPLE"] in str(path):
+            raise RuntimeError("injected failure")
+        return _ingest(path, *args, **kwargs)
+
+    pipeline.ingest = ingest
+'''
+
+
+def test_unreadable_sidecar_and_program_error_become_status_rows(tmp_path):
+    samples, results = _small_suite(tmp_path, n_samples=3)
+    (samples / "s1.yaml").write_bytes("bootstrap: {n: 20}\n# carotte r\xe2p\xe9e\n".encode("latin-1"))
+    hook = tmp_path / "hook"
+    hook.mkdir()
+    (hook / "sitecustomize.py").write_text(SITE_HOOK)
+    env = {**os.environ, "FABRIC2SEIS_TEST_FAIL_SAMPLE": "s2.csv",
+           "PYTHONPATH": os.pathsep.join([str(hook), os.environ["PYTHONPATH"]])}
+    run = subprocess.run([sys.executable, "-m", "snakemake", "--cores", "2", "--config", f"samples_dir={samples}",
+                          f"results_dir={results}", "-q"], cwd=ROOT, capture_output=True, text=True, timeout=900,
+                         env=env)
+    assert run.returncode == 0, run.stderr[-2000:]
+    status = pd.read_csv(results / "suite_summary.csv").set_index("sample")["status"]
+    assert status["s0"] == "ok"
+    assert "s1.yaml" in status["s1"] and "not UTF-8" in status["s1"]
+    assert status["s2"].startswith("program error (RuntimeError: injected failure)")
+    assert "Traceback" in (results / "logs" / "sample" / "s2.log").read_text()
+    assert not (results / "s1").exists() and not (results / "s2").exists()
+
+
+def test_suite_merges_the_users_config_with_samples_and_results(tmp_path):
+    samples, results = _small_suite(tmp_path)
+    run = subprocess.run([sys.executable, "-m", "fabric2seis", "suite", "--samples", str(samples), "--results",
+                          str(results), "--cores", "1", "--config", "odf={halfwidth_deg: 15}", "-q"],
+                         cwd=ROOT, capture_output=True, text=True, timeout=900)
+    assert run.returncode == 0, run.stderr[-2000:]
+    summary = json.loads((results / "s0" / "summary.json").read_text())
+    assert summary["phases"]["olivine"]["odf_halfwidth_deg"] == 15
+    refused = subprocess.run([sys.executable, "-m", "fabric2seis", "suite", "--samples", str(samples),
+                              "--config", f"results_dir={tmp_path / 'elsewhere'}"],
+                             cwd=ROOT, capture_output=True, text=True, timeout=300)
+    assert refused.returncode == 2 and "give the folder with --results" in refused.stderr
+    assert "Traceback" not in refused.stderr and not (tmp_path / "elsewhere").exists()

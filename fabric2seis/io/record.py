@@ -97,10 +97,10 @@ def check_angles(euler: np.ndarray, units: str, source, where=None) -> None:
         raise InputError(f"the Euler angles look like radians (largest {largest:.3f} in {len(euler)} rows) but "
                          "degrees are declared; set table.angle_units: radians in the settings if they are",
                          source)
-    if units == "radians" and largest > 2 * np.pi + 1e-2:
-        row = int(np.flatnonzero(np.abs(euler).max(axis=1) > 2 * np.pi + 1e-2)[0])
+    beyond = np.flatnonzero(np.abs(euler).max(axis=1) > 2 * np.pi + 1e-2) if units == "radians" else []
+    if len(beyond) > max(1, 0.05 * len(euler)):
         raise InputError(f"the Euler angles look like degrees (largest {largest:.1f}) but radians are "
-                         "expected here", source, _row_place(where, row))
+                         "expected here", source, _row_place(where, int(beyond[0])))
     full_turn, half_turn = (2 * np.pi, np.pi) if units == "radians" else (360.0, 180.0)
     slack = 1e-6 * full_turn + (RADIANS_TOLERANCE if units == "radians" else 0.05)
     phi = euler[:, 1]
@@ -130,11 +130,14 @@ def _levels(values: np.ndarray, tol: float) -> tuple[np.ndarray, np.ndarray, np.
 
 
 def _spacing(levels: np.ndarray, counts: np.ndarray, only_shared: bool) -> float | None:
-    """The grid spacing: median gap between levels (those shared by two or more points if asked)."""
+    """The grid spacing: the smallest gap between levels (those shared by two or more points if asked,
+    so that a few stray points do not set it; all levels where fewer than two are shared)."""
     used = levels[counts >= 2] if only_shared else levels
     if len(used) < 2:
+        used = levels
+    if len(used) < 2:
         return None
-    return float(np.median(np.diff(used)))
+    return float(np.min(np.diff(used)))
 
 
 def check_map(x: np.ndarray, y: np.ndarray, source, declared_grid: str | None = None,
@@ -180,6 +183,9 @@ def check_map(x: np.ndarray, y: np.ndarray, source, declared_grid: str | None = 
     fx, fy = (x - xv[0]) / dx, (y - yv[0]) / dy
     kx, ky = np.rint(fx), np.rint(fy)
     off = np.flatnonzero((np.abs(fx - kx) > OFF_GRID_TOLERANCE) | (np.abs(fy - ky) > OFF_GRID_TOLERANCE))
+    if len(off) > n // 2:
+        raise InputError(f"map coordinates are not on a grid: {len(off):,} of {n:,} points lie between the "
+                         "nodes of any grid their rows and columns suggest", source)
     if len(off):
         i = int(off[0])
         raise InputError(f"point off the grid: x = {x[i]:g}, y = {y[i]:g} lies between the grid's nodes "

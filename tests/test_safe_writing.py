@@ -1,0 +1,166 @@
+"""The commands never delete or change a user's files (issue: never delete user data).
+
+Each case runs a command as a careless user might and checks three things: the exit status, the
+one-line message, and that every file outside the results folder it was allowed to write is
+byte-identical before and after (sha256 of every file under the project folder).
+"""
+
+import hashlib
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+from fabric2seis.cli import main
+from fabric2seis.io.write import write_ang, write_table
+from fabric2seis.minerals import find_mineral
+from fabric2seis.outputs import MARKER
+from fabric2seis.synth import fabric_orientations, voronoi_map
+
+ROOT = Path(__file__).resolve().parents[1]
+FAST = "bootstrap: {n: 0}\n"
+
+
+def snapshot(folder: Path, leave_out: Path | None = None) -> dict[str, str]:
+    """sha256 of every file under ``folder`` (not following links), by relative path."""
+    out = {}
+    for path in sorted(folder.rglob("*")):
+        if leave_out is not None and (path == leave_out or leave_out in path.parents):
+            continue
+        if path.is_file() and not path.is_symlink():
+            out[str(path.relative_to(folder))] = hashlib.sha256(path.read_bytes()).hexdigest()
+    return out
+
+
+@pytest.fixture()
+def project(tmp_path, monkeypatch):
+    """A user's project folder: a sample with its sidecar, notes, measurements and old results."""
+    monkeypatch.chdir(tmp_path)
+    data = tmp_path / "data"
+    data.mkdir()
+    ol = find_mineral("olivine")
+    write_table(data / "s1.csv", fabric_orientations(ol, "olivine-A", 60, 20.0, seed=1), ["olivine"] * 60)
+    (data / "s1.yaml").write_text(FAST)
+    (tmp_path / "notes.txt").write_text("field notes, not to be lost\n")
+    (tmp_path / "measurements.csv").write_text(
+        "station,baz_deg,fast_azimuth_deg,delay_s\nST1,30,40,1.0\nST1,120,45,1.1\n")
+    assert main(["sample", "data/s1.csv", "--out", "results/s1"]) == 0
+    (tmp_path / "results" / "suite_summary.csv").write_text("sample,status\ns1,ok\n")
+    return tmp_path
+
+
+def refused(argv, capsys, *fragments):
+    code = main(argv)
+    err = capsys.readouterr().err
+    assert code == 2, err
+    assert err.count("\n") == 1 and "Traceback" not in err, err
+    for fragment in fragments:
+        assert fragment in err, err
+    return err
+
+
+@pytest.mark.parametrize("out, fragment", [
+    (".", "current folder"),
+    ("..", "current folder"),
+    ("data", "holds the input"),
+    ("results", "results root"),
+    ("elsewhere/new", None),             # allowed: a new folder of its own
+])
+def test_sample_output_that_would_destroy_files_is_refused(project, capsys, out, fragment):
+    before = snapshot(project)
+    if fragment is None:
+        assert main(["sample", "data/s1.csv", "--out", "elsewhere/new"]) == 0
+        assert snapshot(project, project / "elsewhere") == before
+        return
+    refused(["sample", "data/s1.csv", "--out", out], capsys, fragment, "--out")
+    assert snapshot(project) == before
+
+
+def test_output_above_the_input_and_a_users_own_folder_are_refused(project, capsys):
+    before = snapshot(project)
+    refused(["sample", str(project / "data" / "s1.csv"), "--out", str(project)], capsys, "current folder")
+    (project / "mine").mkdir()
+    (project / "mine" / "thesis.tex").write_text("chapter 1\n")
+    before = snapshot(project)
+    refused(["sample", "data/s1.csv", "--out", "mine"], capsys, "not written by fabric2seis")
+    assert snapshot(project) == before
+
+
+def test_settings_file_folder_is_protected_too(project, capsys):
+    (project / "conf").mkdir()
+    (project / "conf" / "s.yaml").write_text(FAST)
+    before = snapshot(project)
+    refused(["sample", "data/s1.csv", "--settings", "conf/s.yaml", "--out", "conf"], capsys, "holds the input")
+    assert snapshot(project) == before
+
+
+@pytest.mark.parametrize("name", ["...csv", "..csv"])
+def test_sample_names_dot_and_dotdot_are_refused(project, capsys, name):
+    (project / "data" / name).write_bytes((project / "data" / "s1.csv").read_bytes())
+    before = snapshot(project)
+    refused(["sample", f"data/{name}"], capsys, "cannot name a results folder", name)
+    assert snapshot(project) == before
+
+
+def test_field_output_on_the_results_root_or_a_sample_is_refused(project, capsys):
+    before = snapshot(project)
+    refused(["field", "results/s1", "--measurements", "measurements.csv", "--out", "results"], capsys,
+            "results root")
+    refused(["field", "results/s1", "--measurements", "measurements.csv", "--out", "results/s1"], capsys,
+            "holds the input")
+    refused(["field", "results/s1", "--measurements", "measurements.csv", "--out", "."], capsys, "current folder")
+    assert snapshot(project) == before
+
+
+def test_stack_output_on_the_results_root_is_refused(project, capsys):
+    (project / "stack.yaml").write_text("period_s: 8\nlayers:\n  - {fast_azimuth_deg: 30, delay_s: 1.0}\n")
+    before = snapshot(project)
+    refused(["field", "--stack", "stack.yaml", "--out", "results"], capsys, "results root")
+    refused(["field", "--stack", "stack.yaml", "--out", "results/s1"], capsys, "sample results")
+    assert snapshot(project) == before
+
+
+def test_rerun_replaces_own_results_and_nothing_else(project, capsys):
+    (project / "results" / "s1" / "leftover.txt").write_text("from the earlier run")
+    before = snapshot(project, project / "results" / "s1")
+    assert main(["sample", "data/s1.csv", "--out", "results/s1"]) == 0
+    assert not (project / "results" / "s1" / "leftover.txt").exists()
+    assert (project / "results" / "s1" / MARKER).is_file()
+    assert snapshot(project, project / "results" / "s1") == before
+    assert sorted(p.name for p in (project / "results").iterdir()) == ["s1", "suite_summary.csv"]
+
+
+def test_sigkill_at_any_moment_leaves_old_or_new_results_never_partial(tmp_path):
+    # A larger map so the run lasts a few seconds; killed at several moments, the destination is
+    # always a whole results folder (its summary, its marker and its run.log, which is written last).
+    m = voronoi_map(400, 150, 100, step=1.0, n_phases=2, seed=5)
+    f = tmp_path / "big.ang"
+    write_ang(f, m.x, m.y, m.quat, m.phase, ["olivine", "enstatite"], ["mmm", "mmm"])
+    (tmp_path / "big.yaml").write_text("bootstrap: {n: 30}\n")
+    out = tmp_path / "res"
+    cmd = [sys.executable, "-m", "fabric2seis", "sample", str(f), "--out", str(out)]
+    env = {**os.environ, "PYTHONPATH": os.pathsep.join(p for p in (str(ROOT), os.environ.get("PYTHONPATH")) if p)}
+    first = subprocess.run(cmd, env=env, capture_output=True, text=True, timeout=600)
+    assert first.returncode == 0, first.stderr
+    start = time.perf_counter()
+    subprocess.run(cmd, env=env, capture_output=True, timeout=600)
+    whole_run = time.perf_counter() - start
+    (out / "summary.json").write_text(json.dumps({"version": "old"}))     # tell old from new
+    seen = set()
+    for fraction in (0.3, 0.6, 0.8, 0.9, 0.95, 0.99):
+        proc = subprocess.Popen(cmd, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+        time.sleep(fraction * whole_run)
+        proc.send_signal(signal.SIGKILL)
+        proc.wait()
+        assert {"summary.json", "run.log", MARKER} <= {p.name for p in out.iterdir()}
+        seen.add("old" if "version" in json.loads((out / "summary.json").read_text()) else "new")
+        if seen == {"new"}:
+            (out / "summary.json").write_text(json.dumps({"version": "old"}))
+    again = subprocess.run(cmd, env=env, capture_output=True, text=True, timeout=600)
+    assert again.returncode == 0, again.stderr
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["big.ang", "big.yaml", "res"]   # no temporaries left

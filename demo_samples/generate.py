@@ -65,7 +65,7 @@ def main() -> None:
     sidecar("VM02_harzburgite", "Vallmora massif (invented): hydrated harzburgite, B-type olivine",
             {"field": {**field_flat, "foliation_dip_deg": 80.0, "foliation_strike_deg": 120.0}})
 
-    # 3. lherzolite: olivine A-type, enstatite with [001] along the lineation, diopside weak
+    # 3. lherzolite: olivine A-type; enstatite and diopside randomly oriented (no fabric of their own)
     m = make_map([("olivine", 0.6, "olivine-A", 18.0), ("enstatite", 0.25, None, 0.0),
                   ("diopside", 0.15, None, 0.0)], 150, 120, 300, seed=303)
     write_ang(HERE / "VM03_lherzolite.ang", m.x, m.y, m.quat, m.phase, ["olivine", "enstatite", "diopside"],

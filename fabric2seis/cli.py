@@ -19,13 +19,14 @@ def _minerals(args: argparse.Namespace) -> int:
 
     library = load_library(args.library_dir or ())
     if args.name is None:
-        print(f"{'name':<12} {'point group':<11} {'density':>12}  {'checked':<8} source")
+        print(f"{'name':<12} {'point group':<11} {'density':>12}  {'checked':<8} {'constants':<26} source")
         for m in library.values():
             checked = "yes" if not m.from_memory else "partly"
             print(f"{m.name:<12} {m.point_group:<11} {m.density_kg_m3:>7.0f} kg/m3  {checked:<8} "
-                  f"{m.source.split(';')[0]}")
+                  f"{constants_status(m):<26} {m.source.split(';')[0]}")
         print("\n'checked: partly' means some fields were recalled without the source at hand; "
-              "'fabric2seis minerals NAME' lists which.")
+              "'fabric2seis minerals NAME' lists which. 'constants': read in the source, or recalled and "
+              "compared with published aggregate moduli (Hill average; DISPUTED beyond 8 %).")
         return 0
     print(describe_mineral(find_mineral(args.name, library)))
     return 0
@@ -122,7 +123,23 @@ def _field(args: argparse.Namespace) -> int:
     out = run_field(args.result_dirs, args.measurements, args.out, set(args.fix or ()))
     print(f"wrote {out}")
     print(f"caution: {CAUTIONS}")
+    import json
+    from pathlib import Path
+
+    for poor in json.loads((Path(out) / "field_fit.json").read_text()).get("poor_fits", []):
+        print(f"caution: poor fit: {poor}")
     return 0
+
+
+def constants_status(m) -> str:
+    """How far to trust a library entry's constants, in a few words."""
+    if not m.constants_recalled:
+        return "read in the source"
+    check = m.aggregate_comparison()
+    if check is None:
+        return "recalled, unchecked"
+    verdict = "DISPUTED" if check["disputed"] else "recalled, agrees"
+    return f"{verdict} {100 * check['largest_difference']:.1f} %"
 
 
 def describe_mineral(m) -> str:
@@ -151,6 +168,16 @@ def describe_mineral(m) -> str:
         lines += [f"  dCij/dT (GPa/K), {m.temperature_source}:", table(m.dcij_dt_gpa_per_k, "8.4f")]
     if m.derivatives_from_memory:
         lines.append(f"  derivatives from memory: {', '.join(m.derivatives_from_memory)}")
+    lines.append(f"  measured at     {m.reference_temperature_c:g} C, {m.reference_pressure_gpa:g} GPa "
+                 "(corrections to a sample's conditions start here)")
+    for twin in m.twins:
+        lines.append(f"  twin law        {twin['name']}: {twin['angle_deg']:g} degrees about {twin['axis']} "
+                     f"({twin['source']})")
+    check = m.aggregate_comparison()
+    if check is not None:
+        lines.append(f"  aggregate check Hill K {check['k_hill_gpa']:g}, G {check['g_hill_gpa']:g} GPa against "
+                     f"K {check['k_published_gpa']:g}, G {check['g_published_gpa']:g} GPa ({check['source']}): "
+                     f"{constants_status(m)}")
     if m.notes:
         lines.append(f"  notes           {m.notes}")
     lines.append(f"  file            {m.file}")

@@ -8,6 +8,8 @@ part the projection of what the previous parts left, in the symmetry frame: its 
 axis whose transversely isotropic projection is largest (a search over directions, refined), its
 1-axis the direction about it that makes the orthorhombic part largest. The parts are orthogonal,
 so their shares of the squared norm add up to 100 percent; the shares are reported in percent.
+Browaeys & Chevrot quote shares of the norm itself (|part| / |C|, from memory); the square root of
+a share here gives theirs, and ``decomposition_summary`` says so beside the numbers.
 """
 
 from __future__ import annotations
@@ -140,5 +142,9 @@ def decomposition_summary(c: np.ndarray, density_kg_m3: float) -> dict:
         "symmetry_frame": [[round(float(x), 6) for x in row] for row in d["frame"]],
         "thomsen": {k: (round(v, 6) if isinstance(v, float) else {kk: round(vv, 4) for kk, vv in v.items()})
                     for k, v in thomsen_parameters(ti, d["hexagonal_axis"], density_kg_m3).items()},
-        "definition": "shares of the squared norm of the tensor (the parts are orthogonal and add to 100 %)",
+        "definition": ("percent: shares of the squared Euclidean norm of the tensor in Kelvin form, "
+                       "|part|^2 / |C|^2; the parts are orthogonal, so the shares add to 100 %. Decomposition of "
+                       "Browaeys & Chevrot (2004), Geophys. J. Int. 159, 667; they quote shares of the norm "
+                       "itself, |part| / |C|, which do not add to 100 % (from memory): the square root of a share "
+                       "here gives theirs"),
     }

@@ -246,6 +246,23 @@ class PhaseOrientations:
     g: np.ndarray
     weights: np.ndarray
     fraction: float = 1.0
+    variants: tuple = ()
+
+
+def crystal_kelvin_matrices(stiffness_gpa: np.ndarray, variants=()) -> dict[str, np.ndarray]:
+    """A crystal's Kelvin stiffness, compliance and matrix logarithm, each its mean over twin variants.
+
+    ``variants`` are crystal-frame rotations (3, 3) to the twin variants that stand in equal parts
+    with the crystal for every measured orientation (``Mineral.twin_rotations``). A mean over
+    variants is a weighted sum over orientations, so it is taken in each average's own linear
+    space: stiffness for Voigt, compliance for Reuss, the matrix logarithm for the geometric mean.
+    Averaging the stiffness first and inverting it would give a wrong Reuss average.
+    """
+    tensors = [np.asarray(stiffness_gpa, dtype=float)] + [rotate_voigt(stiffness_gpa, r) for r in variants]
+    kelvin = [voigt_to_kelvin(c) for c in tensors]
+    return {"stiffness": np.mean(kelvin, axis=0),
+            "compliance": np.mean([np.linalg.inv(k) for k in kelvin], axis=0),
+            "log": np.mean([logm_spd(k) for k in kelvin], axis=0)}
 
 
 def weighted_rotated_mean(x_kelvin: np.ndarray, g: np.ndarray, weights: np.ndarray,
@@ -296,7 +313,8 @@ def average_tensors(phases: Sequence[PhaseOrientations]) -> dict[str, np.ndarray
       (Matthies & Humbert 1993); it is the inverse of the same mean taken over compliances.
 
     Orientations within a phase are weighted by ``weights``; phases by ``fraction``
-    (renormalised to sum to 1).
+    (renormalised to sum to 1). A phase's twin ``variants`` enter each average in its own space
+    (:func:`crystal_kelvin_matrices`).
     """
     if not phases:
         raise ValueError("an aggregate needs at least one phase")
@@ -310,10 +328,10 @@ def average_tensors(phases: Sequence[PhaseOrientations]) -> dict[str, np.ndarray
     for f, p in zip(fractions, phases):
         if f == 0:
             continue
-        ck = voigt_to_kelvin(p.stiffness_gpa)
-        stiff += f * weighted_rotated_mean(ck, p.g, p.weights)
-        comp += f * weighted_rotated_mean(np.linalg.inv(ck), p.g, p.weights)
-        logs += f * weighted_rotated_mean(logm_spd(ck), p.g, p.weights)
+        x = crystal_kelvin_matrices(p.stiffness_gpa, p.variants)
+        stiff += f * weighted_rotated_mean(x["stiffness"], p.g, p.weights)
+        comp += f * weighted_rotated_mean(x["compliance"], p.g, p.weights)
+        logs += f * weighted_rotated_mean(x["log"], p.g, p.weights)
     voigt = kelvin_to_voigt(stiff)
     reuss = kelvin_to_voigt(np.linalg.inv(comp))
     reuss = (reuss + reuss.T) / 2.0

@@ -611,3 +611,174 @@ def convergence(mineral, quat: np.ndarray, weights: np.ndarray, halfwidth_deg: f
                      "max_mud": pf_j(vectors, weights[sel], halfwidth_deg)[1]})
     levelled = len(rows) > 1 and abs(rows[-1]["J"] - rows[-2]["J"]) < 0.05 * rows[-1]["J"]
     return {"pole": pole, "rows": rows, "j_levelled": bool(levelled)}
+
+
+# --- the floor of a random set of the same size -----------------------------------------------
+
+#: random orientation sets simulated for the floor of J, M and pfJ (their 2.5 and 97.5 percentiles
+#: give the 95 % range)
+RANDOM_FLOOR_SETS = 100
+RANDOM_FLOOR_SEED = 20110611
+#: larger sets are simulated at this size and scaled (see ``random_floor``)
+RANDOM_FLOOR_MAX_GRAINS = 200
+_RANDOM_FLOORS: dict = {}
+
+
+@functools.lru_cache(maxsize=16)
+def _pole_self_convolution_table(halfwidth_deg: float) -> tuple[np.ndarray, np.ndarray]:
+    """Psi, the axial pole kernel convolved with itself on the sphere, against the angle (0 to 90 degrees).
+
+    The axial kernel (Kp(t) + Kp(-t))/2 = sum_l (2l+1) a_l P_l(t) (even l) with
+    a_l = (1/2) integral Kp P_l dt; then the mean over the sphere of Ka(u.p) Ka(u.q) is
+    Psi(p.q) = sum_l (2l+1) a_l^2 P_l(p.q) (Funk-Hecke, common practice).
+    """
+    kernel = Kernel(halfwidth_deg)
+    degree = int(12 * np.sqrt(kernel.kappa)) + 20
+    t, wq = np.polynomial.legendre.leggauss(max(800, 4 * degree))
+    values = kernel.pole_value(t) * wq / 2.0
+    a = np.zeros(degree + 1)
+    p_prev, p_cur = np.ones_like(t), t.copy()                  # Legendre recurrence (Bonnet)
+    a[0] = values.sum()
+    a[1] = (values * t).sum()
+    for l in range(1, degree):
+        p_prev, p_cur = p_cur, ((2 * l + 1) * t * p_cur - l * p_prev) / (l + 1)
+        a[l + 1] = (values * p_cur).sum()
+    a[1::2] = 0.0                                              # axial: odd degrees cancel
+    angle = np.linspace(0.0, np.pi / 2, 4001)
+    psi = np.polynomial.legendre.legval(np.cos(angle), (2 * np.arange(degree + 1) + 1) * a ** 2)
+    return angle, psi
+
+
+def pf_j_pairs(poles: np.ndarray, weights: np.ndarray, halfwidth_deg: float = 10.0) -> float:
+    """pfJ as the pair sum sum_ij w_i w_j (1/m^2) sum_kk' Psi(p_ik . p_jk') over the poles (N, m, 3).
+
+    The exact mean square of the pole density that ``pf_j`` takes on a grid of binned poles; the
+    cost grows as (N m)^2, so it serves small sets (the random floors) and the tests.
+    """
+    angle, psi = _pole_self_convolution_table(float(halfwidth_deg))
+    m = poles.shape[1]
+    w = np.repeat(np.asarray(weights, dtype=float) / np.sum(weights) / m, m)
+    p = poles.reshape(-1, 3)
+    gram = np.arccos(np.clip(np.abs(p @ p.T), 0.0, 1.0))
+    return float(w @ _on_uniform_table(gram, angle, psi) @ w)
+
+
+def j_index_dense(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg: float = 10.0) -> float:
+    """J as the pair sum of ``j_index_pairs`` over every pair, no screening: for small sets (N^2 |S|)."""
+    grid, phi, _, _ = _self_convolution_table(float(halfwidth_deg))
+    q = np.asarray(quat, dtype=float)
+    w = np.asarray(weights, dtype=float) / np.sum(weights)
+    sym = proper_symmetry_quaternions(symmetry)
+    total = 0.0
+    for t in sym:
+        c = np.clip(np.abs(q @ multiply(t[None], q).T), 0.0, 1.0)
+        total += w @ _on_uniform_table(2.0 * np.arccos(c), grid, phi) @ w
+    return float(total / len(sym))
+
+
+def _on_uniform_table(x: np.ndarray, grid: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """Linear interpolation in a table on an evenly spaced grid (np.interp without its search)."""
+    step = grid[1] - grid[0]
+    at = np.clip((x - grid[0]) / step, 0.0, len(grid) - 1.000001)
+    i = at.astype(np.intp)
+    frac = at - i
+    return values[i] * (1.0 - frac) + values[i + 1] * frac
+
+
+def _m_index_variance(n: int) -> float:
+    """Relative sampling variance of a bin of the M-index histogram of n random grains.
+
+    The indicator of a misorientation bin is a degenerate pair kernel for random orientations
+    (the misorientation of a fixed crystal with a random one is random), so a bin fraction from
+    all P = n(n-1)/2 pairs varies like one from P independent pairs; pairs drawn at random
+    (``M_INDEX_PAIRS`` of them) add their own 1/P_drawn, and the reference histogram of
+    ``RANDOM_DISTRIBUTION_PAIRS`` pairs its own.
+    """
+    pairs = n * (n - 1) / 2
+    own = 1.0 / pairs if pairs <= M_INDEX_PAIRS else 1.0 / M_INDEX_PAIRS + 1.0 / pairs
+    return own + 1.0 / RANDOM_DISTRIBUTION_PAIRS
+
+
+def random_floor(mineral, n: int, halfwidth_deg: float = 10.0, weights: np.ndarray | None = None,
+                 poles: list[str] | None = None, n_sets: int = RANDOM_FLOOR_SETS,
+                 max_grains: int = RANDOM_FLOOR_MAX_GRAINS) -> dict:
+    """J, M and pfJ of random orientation sets of ``n`` grains: mean (the floor) and 95 % range.
+
+    A random set does not give J = 1, pfJ = 1 and M = 0: the self-pair term of each grain adds
+    (J_1 - 1) sum w_i^2 to J on average (J_1 the J of one grain, sum w_i = 1), and a histogram of a
+    finite number of pairs departs from the random one. ``n_sets`` sets (fixed seed) are drawn:
+    of ``n`` grains with the sample's ``weights`` when n <= ``max_grains``; otherwise of
+    ``max_grains`` equal grains, scaled to n. J - 1 and pfJ - 1 of a random set are pair sums of a
+    kernel of zero mean plus the self-pair term, so they scale as sum w_i^2 (1 / N for equal
+    weights); M scales as the square root of the bin variance (``_m_index_variance``). J and pfJ
+    are summed over all pairs (``j_index_dense``, ``pf_j_pairs``), M as ``m_index``. The result is
+    cached in memory and in ``$XDG_CACHE_HOME/fabric2seis`` (default ``~/.cache/fabric2seis``).
+    """
+    import hashlib
+    import json
+    import os
+    from pathlib import Path
+
+    from fabric2seis.synth import crystal_direction
+
+    n = int(n)
+    w = np.ones(n) if weights is None else np.asarray(weights, dtype=float)
+    if len(w) != n or n < 2:
+        raise ValueError("random_floor needs n >= 2 and one weight per grain")
+    labels = list(poles or default_poles(mineral))
+    directions = np.array([crystal_direction(mineral, label) for label in labels])
+    sym = np.ascontiguousarray(proper_symmetry_quaternions(mineral.symmetry))
+    equal = bool(np.allclose(w, w[0]))
+    n_sim = min(n, int(max_grains))
+    w_sim = np.ones(n_sim) if (equal or n > n_sim) else w
+    key = hashlib.sha256(sym.round(10).tobytes() + directions.round(10).tobytes()
+                         + (b"" if equal or n > n_sim else (w / w.sum()).round(12).tobytes())
+                         + f"floor-2-{n}-{n_sim}-{float(halfwidth_deg)}-{n_sets}-{RANDOM_FLOOR_SEED}-"
+                           f"{M_INDEX_PAIRS}-{M_INDEX_BIN_DEG}-{labels}".encode()).hexdigest()[:24]
+    if key in _RANDOM_FLOORS:
+        return _RANDOM_FLOORS[key]
+    folder = Path(os.environ.get("XDG_CACHE_HOME", Path.home() / ".cache")) / "fabric2seis"
+    path = folder / f"random_floor_{key}.json"
+    try:
+        _RANDOM_FLOORS[key] = json.loads(path.read_text())
+        return _RANDOM_FLOORS[key]
+    except (OSError, ValueError):
+        pass
+    rng = np.random.default_rng(RANDOM_FLOOR_SEED)
+    j = np.empty(n_sets)
+    m = np.empty(n_sets)
+    pfj = np.empty((len(labels), n_sets))
+    for k in range(n_sets):
+        q = _random_unit_quaternions(n_sim, rng)
+        j[k] = j_index_dense(q, w_sim, mineral.symmetry, halfwidth_deg)
+        m[k] = m_index(q, mineral.symmetry, seed=k)
+        for p, h in enumerate(directions):
+            pfj[p, k] = pf_j_pairs(pole_vectors(q, h, mineral.symmetry), w_sim, halfwidth_deg)
+    if n > n_sim:
+        self_weight = float((w ** 2).sum() / w.sum() ** 2)          # 1 / N_eff
+        j = 1.0 + (j - 1.0) * self_weight * n_sim
+        pfj = 1.0 + (pfj - 1.0) * self_weight * n_sim
+        m = m * np.sqrt(_m_index_variance(n) / _m_index_variance(n_sim))
+
+    def spread(values):
+        return [round(float(x), 6) for x in np.percentile(values, [2.5, 97.5])]
+
+    floor = {"J": round(float(j.mean()), 6), "J_95": spread(j),
+             "M": round(float(m.mean()), 6), "M_95": spread(m),
+             "pfJ": {label: round(float(v.mean()), 6) for label, v in zip(labels, pfj)},
+             "pfJ_95": {label: spread(v) for label, v in zip(labels, pfj)},
+             "random_sets": int(n_sets), "simulated_grains": int(n_sim)}
+    _RANDOM_FLOORS[key] = floor
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        tmp = path.with_suffix(f".{os.getpid()}.tmp")
+        tmp.write_text(json.dumps(floor))
+        os.replace(tmp, path)
+    except OSError:
+        pass
+    return floor
+
+
+def indistinguishable_from_random(j: float, m: float, floor: dict) -> bool:
+    """True when neither J nor M lies above the upper end of the random sets' 95 % range."""
+    return bool(j <= floor["J_95"][1] and m <= floor["M_95"][1])

@@ -119,20 +119,30 @@ def _radial_transverse(operator: np.ndarray, polarisation_deg) -> tuple[np.ndarr
     return np.einsum("...i,...i->...", r, out), np.einsum("...i,...i->...", t, out)
 
 
-def _fold(polarisation_deg, two_alpha, theta, angular_frequency, transverse_fraction) -> dict:
-    """Apparent (phi', dt') from 2a' and theta', with theta' brought into [0, pi/2)."""
+def _fold(polarisation_deg, two_alpha, theta, angular_frequency, transverse_fraction,
+          undefined_below: float = 0.0) -> dict:
+    """Apparent (phi', dt') from 2a' and theta', with theta' brought into [0, pi/2).
+
+    Where the transverse fraction is below ``undefined_below`` (and always at an exact null) the
+    apparent splitting is undefined: NaN, not the large or erratic delay the ratio gives there.
+    """
     alpha = np.degrees(two_alpha) / 2.0 + np.where(theta < 0, 90.0, 0.0)
-    null = transverse_fraction < 1e-12
+    null = transverse_fraction < max(1e-12, undefined_below)
     fast = np.where(null, np.nan, (np.asarray(polarisation_deg) + alpha) % 180.0)
     delay = np.where(null, np.nan, 2.0 * np.abs(theta) / angular_frequency)
     return {"fast_azimuth_deg": fast, "delay_s": delay, "transverse_fraction": transverse_fraction}
 
 
-def apparent_splitting(fast_azimuth_deg, delay_s, polarisation_deg, period_s: float = DEFAULT_PERIOD_S) -> dict:
+def apparent_splitting(fast_azimuth_deg, delay_s, polarisation_deg, period_s: float = DEFAULT_PERIOD_S,
+                       undefined_below: float = 0.0) -> dict:
     """Apparent fast azimuth (deg, 0-180), delay (s) and transverse energy fraction of a stack.
 
     ``fast_azimuth_deg`` and ``delay_s`` have the layer on their first axis (bottom first); the
-    other axes broadcast with ``polarisation_deg`` (for SKS, the back-azimuth).
+    other axes broadcast with ``polarisation_deg`` (for SKS, the back-azimuth). Where the
+    transverse energy fraction at the dominant period is below ``undefined_below`` a station
+    would record a null: outputs pass ``NULL_TRANSVERSE_FRACTION`` so that the apparent fast
+    azimuth and delay are NaN (undefined) there; the default 0 keeps every value the ratio
+    defines (for checks against the closed form).
     """
     w = 2.0 * np.pi / period_s
     radial, transverse = _radial_transverse(stack_operator(fast_azimuth_deg, delay_s, w), polarisation_deg)
@@ -141,7 +151,7 @@ def apparent_splitting(fast_azimuth_deg, delay_s, polarisation_deg, period_s: fl
         ratio = radial / transverse
         two_alpha = np.arctan2(1.0, ratio.real)                        # cot 2a' = Re(radial / transverse)
         theta = np.arctan(-1.0 / (ratio.imag * np.sin(two_alpha)))
-    return _fold(polarisation_deg, two_alpha, theta, w, fraction)
+    return _fold(polarisation_deg, two_alpha, theta, w, fraction, undefined_below)
 
 
 def two_layer_closed_form(fast1_deg, delay1_s, fast2_deg, delay2_s, polarisation_deg,

@@ -160,6 +160,8 @@ def fabric_stage(sample: Sample, progress=None) -> dict:
             "result": fabric.phase_fabric(mineral, quat, weights, weighting, halfwidth),
             "convergence": fabric.convergence(mineral, quat, weights, halfwidth),
             "orientations": (mineral, quat, weights),
+            # J, M and pfJ of random sets of as many grains (same weights, kernel, point group)
+            "random_floor": fabric.random_floor(mineral, len(quat), halfwidth, weights),
         }
     return out
 
@@ -179,6 +181,11 @@ def fabric_figures(folder: Path, sample: Sample, fabrics: dict) -> None:
                        {name: f["convergence"] for name, f in fabrics.items()})
 
 
+def twin_setting(settings: dict) -> str:
+    """``average`` or ``as_indexed``: the settings key ``twins`` (``dauphine``, its older name, if set)."""
+    return settings.get("dauphine") or settings.get("twins") or "average"
+
+
 def seismic_stage(sample: Sample, progress=None) -> dict:
     """Aggregate tensor, velocity grid and the seismic part of the summary."""
     from fabric2seis import seismic
@@ -190,15 +197,14 @@ def seismic_stage(sample: Sample, progress=None) -> dict:
     say(f"elastic tensor ({weighting} weighting, {st['averaging']} average)")
     cond = st["conditions"]
     agg = seismic.aggregate(sets, sample.fractions, st["averaging"], cond["pressure_gpa"], cond["temperature_c"],
-                            bool(cond.get("allow_ambient_constants", False)),
-                            st.get("dauphine", "average") == "average")
+                            bool(cond.get("allow_ambient_constants", False)), twin_setting(st) == "average")
     say("velocities on the hemisphere grid")
     grid = seismic.velocity_grid(agg.stiffness, agg.density_kg_m3, float(st.get("velocity_grid_step_deg", 1.0)))
     summary = seismic.seismic_summary(grid, agg.average)
     summary["weighting"] = weighting
     summary["along_axes"] = seismic.along_axes(agg.stiffness, agg.density_kg_m3)
-    summary["dauphine"] = st.get("dauphine", "average") if any(
-        m.symmetry.laue.name in ("-3m", "-3") for m, _, _ in sets) else None
+    summary["twins"] = {"setting": twin_setting(st), "averaged": agg.twins or {},
+                        "library": {m.name: [t["name"] for t in m.twins] for m, _, _ in sets if m.twins}}
     from fabric2seis.decomposition import decomposition_summary
     summary["decomposition"] = decomposition_summary(agg.stiffness, agg.density_kg_m3)
     along_z = seismic.splitting_along(agg.stiffness, agg.density_kg_m3)
@@ -226,9 +232,13 @@ def uncertainty_stage(sample: Sample, seis: dict, progress=None) -> dict:
     sets = [s for s in orientation_sets(sample, "grain_area") if len(s[1]) > 1]
     counts = {m.name: uncertainty.resample_counts(len(q), n, rng) for m, q, _ in sets}
     agg = seis["aggregate"]
-    values = uncertainty.seismic_bootstrap(sets, sample.fractions, agg.average, agg.density_kg_m3, counts,
-                                           agg.crystal_tensors)
-    out = {k: uncertainty.interval(v) for k, v in values.items()}
+    # maxima over directions are biased up by noise: basic bootstrap intervals (uncertainty.py)
+    out, _ = uncertainty.seismic_intervals(sets, sample.fractions, agg.average, agg.density_kg_m3, counts,
+                                           agg.crystal_matrices)
+    out["interval_method"] = {k: uncertainty.SEISMIC_INTERVAL_METHOD.get(k, "percentile") for k in list(out)}
+    say("random aggregates of as many grains (the floor of AVs and AVp)")
+    out["random_aggregate"] = uncertainty.random_aggregate_floor(sets, sample.fractions, agg.average,
+                                                                 agg.density_kg_m3, agg.crystal_matrices)
     main = max(sets, key=lambda s: sample.fractions[s[0].name])[0].name
     halfwidth = float(sample.settings["odf"]["halfwidth_deg"])
     for m, q, w in sets:
@@ -245,6 +255,7 @@ def uncertainty_stage(sample: Sample, seis: dict, progress=None) -> dict:
                 out[f"{m.name}.{key}"] = uncertainty.interval(v)
                 if m.name == main:
                     out[key] = out[f"{m.name}.{key}"]
+    out["interval_method"].update({k: "percentile" for k in out if k.endswith((".J", ".M")) or k in ("J", "M")})
     out["resamples"] = n
     out["seed"] = seed
     out["main_phase"] = main
@@ -304,6 +315,10 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     for name, f in fabrics.items():
         report["phases"][name].update(f["result"].as_summary())
         report["phases"][name]["j_levelled"] = f["convergence"]["j_levelled"]
+        from fabric2seis.fabric import indistinguishable_from_random
+        report["phases"][name]["random_floor"] = f["random_floor"]
+        report["phases"][name]["indistinguishable_from_random"] = indistinguishable_from_random(
+            f["result"].j, f["result"].m, f["random_floor"])
     agg = seis["aggregate"]
     report["density_kg_m3"] = round(agg.density_kg_m3, 3)
     report["conditions"] = dict(settings["conditions"])
@@ -319,11 +334,19 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
         estimates["delay_s_per_100km"] = report["splitting"]["along_z"]["delay_s_per_100km"]
         for name, phase in report["phases"].items():
             estimates.update({f"{name}.J": phase.get("J"), f"{name}.M": phase.get("M")})
+        floor = report["uncertainty"]["random_aggregate"]
+        floor["anisotropy_indistinguishable_from_random"] = bool(
+            report["seismic"]["avs_max_pct"] <= floor["avs_max_pct_95"][1]
+            and report["seismic"]["avp_pct"] <= floor["avp_pct_95"][1])
         outside = estimates_outside(report["uncertainty"], estimates)
         if outside:
             report["uncertainty"]["estimate_outside_interval"] = ", ".join(outside)
-            say(f"caution: the estimate lies outside its bootstrap interval for {', '.join(outside)} "
-                "(few grains, or grain-mean orientations differ from the pixels the estimate uses)")
+    from fabric2seis.cautions import sample_cautions
+    outside_keys = (report["uncertainty"] or {}).get("estimate_outside_interval", "")
+    report["cautions"] = sample_cautions(sample.points.minerals, report["conditions"]["assumptions"],
+                                         [k.strip() for k in outside_keys.split(",") if k.strip()])
+    for note in report["cautions"]:
+        say(f"caution: {note}")
     with folder_written_whole(out, "sample", inputs, results_root) as tmp:
         _write_json(tmp / "summary.json", report)
         say("writing tables and figures")

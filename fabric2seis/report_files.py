@@ -30,6 +30,11 @@ def key_numbers(summary: dict) -> pd.DataFrame:
                  (f"{mineral} J-index", phase["J"], f"{mineral}.J", ""),
                  (f"{mineral} M-index", phase["M"], f"{mineral}.M", "")]
         rows += [(f"{mineral} pfJ {pole}", value, None, "") for pole, value in phase["pfJ"].items()]
+        floor = phase.get("random_floor")
+        if floor:       # random sets of as many grains: mean and 95 % range
+            rows += [(f"{mineral} J-index of random grains", floor["J"], floor["J_95"], ""),
+                     (f"{mineral} M-index of random grains", floor["M"], floor["M_95"], ""),
+                     (f"{mineral} indistinguishable from random", phase["indistinguishable_from_random"], None, "")]
     seis = summary["seismic"]
     rows += [(f"Vp max ({seis['average']})", seis["vp_max_km_s"], "vp_max_km_s", "km/s"),
              ("Vp min", seis["vp_min_km_s"], None, "km/s"),
@@ -37,6 +42,10 @@ def key_numbers(summary: dict) -> pd.DataFrame:
              ("AVs max", seis["avs_max_pct"], "avs_max_pct", "%"),
              ("Vs1 max", seis["vs1_max_km_s"], None, "km/s"),
              ("Vs2 min", seis["vs2_min_km_s"], None, "km/s")]
+    aggregate_floor = interval.get("random_aggregate")
+    if aggregate_floor:
+        rows += [("AVp of random aggregates", aggregate_floor["avp_pct"], aggregate_floor["avp_pct_95"], "%"),
+                 ("AVs max of random aggregates", aggregate_floor["avs_max_pct"], aggregate_floor["avs_max_pct_95"], "%")]
     along_z = summary["splitting"]["along_z"]
     rows += [("fast polarisation along Z, from X", along_z["fast_polarisation_from_x_deg"], None, "deg"),
              ("delay along Z per 100 km", along_z["delay_s_per_100km"], "delay_s_per_100km", "s")]
@@ -45,9 +54,13 @@ def key_numbers(summary: dict) -> pd.DataFrame:
         rows += [("fast azimuth in the ground", field["fast_azimuth_deg"], None, "deg from north"),
                  ("delay in the ground", field["delay_s"], None, "s"),
                  ("layer thickness", field["layer_thickness_km"], None, "km")]
+    rows += [("caution", note, None, "") for note in summary.get("cautions", [])]
     table = [{"quantity": "status", "value": "ok", "low": None, "high": None, "unit": ""}]
     for quantity, value, key, unit in rows:
-        low, high = interval.get(key, (None, None)) if key else (None, None)
+        if isinstance(key, list):                     # a range given with the row itself
+            low, high = key
+        else:
+            low, high = interval.get(key, (None, None)) if key else (None, None)
         table.append({"quantity": quantity, "value": value, "low": low, "high": high, "unit": unit})
     return pd.DataFrame(table)
 

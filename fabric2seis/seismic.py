@@ -12,18 +12,26 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fabric2seis import elastic, minerals, waves
+from fabric2seis import elastic, waves
 from fabric2seis.orientations import to_matrices
 
 
 @dataclass
 class Aggregate:
-    """The four averages of a rock (6x6 Voigt, GPa, structural frame) and its density."""
+    """The four averages of a rock (6x6 Voigt, GPa, structural frame) and its density.
+
+    ``crystal_tensors``: the single-crystal stiffness of each mineral at the conditions (Voigt,
+    crystal frame); ``crystal_matrices``: its Kelvin stiffness, compliance and logarithm as the
+    averages used them (twin variants included), for the bootstrap; ``twins``: the twin laws
+    applied, by mineral.
+    """
 
     tensors: dict[str, np.ndarray]
     density_kg_m3: float
     average: str
-    crystal_tensors: dict[str, np.ndarray] | None = None   # the single-crystal stiffnesses used
+    crystal_tensors: dict[str, np.ndarray] | None = None
+    crystal_matrices: dict[str, dict[str, np.ndarray]] | None = None
+    twins: dict[str, list[str]] | None = None
 
     @property
     def stiffness(self) -> np.ndarray:
@@ -33,40 +41,47 @@ class Aggregate:
 
 def mineral_at_conditions(mineral, pressure_gpa: float = 0.0, temperature_c: float = 25.0,
                           allow_ambient: bool = False) -> tuple[np.ndarray, float]:
-    """Single-crystal stiffness (orix frame) and density at the conditions (ambient: as published).
+    """Single-crystal stiffness (orix frame) and density at the conditions (as published at the
+    conditions the constants were measured at).
 
-    Non-ambient conditions need the mineral's derivatives; see fabric2seis.conditions.
+    Other conditions need the mineral's derivatives beyond a small range; see fabric2seis.conditions.
     """
-    if abs(pressure_gpa) < 1e-12 and abs(temperature_c - 25.0) < 1e-9:
+    from fabric2seis.conditions import at_conditions, at_reference
+
+    if at_reference(mineral, pressure_gpa, temperature_c):
         return mineral.stiffness_gpa, mineral.density_kg_m3
-    from fabric2seis.conditions import at_conditions
 
     return at_conditions(mineral, pressure_gpa, temperature_c, allow_ambient)
 
 
 def aggregate(orientation_sets, fractions: dict[str, float], average: str = "hill",
               pressure_gpa: float = 0.0, temperature_c: float = 25.0, allow_ambient: bool = False,
-              dauphine_average: bool = True) -> Aggregate:
+              twin_average: bool = True) -> Aggregate:
     """Aggregate tensor of a rock from (mineral, quaternions, weights) per phase and volume fractions.
 
-    Single-crystal constants are brought to the conditions first; trigonal minerals then take the
-    mean of their two Dauphine variants when ``dauphine_average`` (EBSD cannot tell them apart).
+    Single-crystal constants are brought to the conditions first. A mineral whose library entry
+    lists twin laws (``twins``: the Dauphine twin of quartz) enters every measured orientation as
+    the crystal and its variants in equal parts when ``twin_average`` (EBSD cannot tell them
+    apart), each average in its own linear space (``elastic.crystal_kelvin_matrices``).
     """
-    parts, densities, used = [], [], {}
+    parts, densities, used, matrices, twins = [], [], {}, {}, {}
     for mineral, quat, weights in orientation_sets:
         c, rho = mineral_at_conditions(mineral, pressure_gpa, temperature_c, allow_ambient)
-        if dauphine_average and mineral.symmetry.laue.name in ("-3m", "-3"):
-            c = minerals.dauphine_average(mineral, c)
+        variants = tuple(mineral.twin_rotations()) if twin_average else ()
+        if variants:
+            twins[mineral.name] = [t["name"] for t in mineral.twins]
         used[mineral.name] = c
+        matrices[mineral.name] = elastic.crystal_kelvin_matrices(c, variants)
         f = fractions[mineral.name]
-        parts.append(elastic.PhaseOrientations(c, to_matrices(quat), weights, f))
+        parts.append(elastic.PhaseOrientations(c, to_matrices(quat), weights, f, variants))
         densities.append((f, rho))
     tensors = elastic.average_tensors(parts)
     for name, t in tensors.items():
         elastic.check_stiffness(t, where=f"{name} average")
     total = sum(f for f, _ in densities)
     rho = sum(f * r for f, r in densities) / total
-    return Aggregate(tensors=tensors, density_kg_m3=float(rho), average=average, crystal_tensors=used)
+    return Aggregate(tensors=tensors, density_kg_m3=float(rho), average=average, crystal_tensors=used,
+                     crystal_matrices=matrices, twins=twins)
 
 
 @dataclass

@@ -5,7 +5,7 @@ The foliation is placed by strike and dip (right-hand rule: dip direction = stri
 lineation by its pitch in the foliation plane measured from the strike direction towards the dip
 direction, or by trend and plunge (then it must lie in the plane within 2 degrees). The structural
 frame becomes X = lineation, Z = foliation normal pointing up (for a vertical foliation: the
-normal towards strike - 90), Y = Z x X.
+horizontal normal towards strike + 90, the dip direction of the right-hand rule), Y = Z x X.
 
 One layer: a ray of incidence i (from vertical) arriving from back-azimuth b travels up towards
 the station; the fast polarisation is the fast shear wave's polarisation projected onto the

@@ -152,18 +152,27 @@ def read_stack(path: str | Path) -> dict:
 
 
 def stack_sweep(stack: dict) -> tuple[pd.DataFrame, list[dict]]:
-    """Apparent splitting against back-azimuth (analytic and waveform-measured) and the nulls."""
+    """Apparent splitting against back-azimuth (analytic and waveform-measured) and the nulls.
+
+    Where the transverse energy fraction at the dominant period is below
+    ``layers.NULL_TRANSVERSE_FRACTION`` a station records a null: the apparent fast azimuth and
+    delay are undefined there and written as empty (NaN), with ``analytic_defined`` false.
+    """
     period, incidence = stack["period_s"], stack["incidence_deg"]
     baz = np.arange(0.0, 360.0, stack["back_azimuth_step_deg"])
     fast, delay = layers.layer_splitting(stack["layers"], baz, incidence)
-    analytic = layers.apparent_splitting(fast, delay, baz, period)
+    analytic = layers.apparent_splitting(fast, delay, baz, period, undefined_below=layers.NULL_TRANSVERSE_FRACTION)
     north, east = layers.synthetic_records(fast, delay, baz, period)
     measured = layers.measure_splitting(north, east, baz, max_delay_s=period / 2.0)
+    recorded_null = measured["transverse_fraction_before"] < layers.NULL_TRANSVERSE_FRACTION
+    for key in ("fast_azimuth_deg", "delay_s"):        # a null: nothing to measure, not a large delay
+        measured[key] = np.where(recorded_null, np.nan, measured[key])
     table = pd.DataFrame({
         "back_azimuth_deg": baz, "incidence_deg": incidence,
         "analytic_fast_azimuth_deg": analytic["fast_azimuth_deg"].round(3),
         "analytic_delay_s": analytic["delay_s"].round(4),
         "analytic_transverse_fraction": analytic["transverse_fraction"].round(6),
+        "analytic_defined": analytic["transverse_fraction"] >= layers.NULL_TRANSVERSE_FRACTION,
         "waveform_fast_azimuth_deg": measured["fast_azimuth_deg"],
         "waveform_delay_s": measured["delay_s"].round(4),
         "waveform_transverse_fraction_before": measured["transverse_fraction_before"].round(6),
@@ -181,7 +190,7 @@ def measurement_predictions(stack: dict, data: pd.DataFrame) -> tuple[pd.DataFra
 
     baz, inc = data["baz_deg"].to_numpy(float), data["incidence_deg"].to_numpy(float)
     fast, delay = layers.layer_splitting(stack["layers"], baz, inc)
-    app = layers.apparent_splitting(fast, delay, baz, stack["period_s"])
+    app = layers.apparent_splitting(fast, delay, baz, stack["period_s"], undefined_below=layers.NULL_TRANSVERSE_FRACTION)
     pred_fast, pred_delay = app["fast_azimuth_deg"], np.nan_to_num(app["delay_s"])
     null = data["null"].to_numpy(bool)
     r_fast = np.nan_to_num(_axial_difference(data["fast_azimuth_deg"].to_numpy(float), pred_fast))
@@ -191,6 +200,7 @@ def measurement_predictions(stack: dict, data: pd.DataFrame) -> tuple[pd.DataFra
     table = pd.DataFrame({
         "station": data["station"].to_numpy(), "baz_deg": baz, "incidence_deg": inc, "null": null,
         "observed_fast_azimuth_deg": data["fast_azimuth_deg"].to_numpy(),
+        "predicted_null": np.isnan(app["delay_s"]),
         "predicted_fast_azimuth_deg": pred_fast.round(3), "fast_azimuth_residual_deg": r_fast.round(3),
         "observed_delay_s": data["delay_s"].to_numpy(), "predicted_delay_s": pred_delay.round(4),
         "delay_residual_s": r_delay.round(4)})

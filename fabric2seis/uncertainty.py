@@ -4,9 +4,13 @@ Each resample draws the grains of every phase with replacement (fractions of the
 in the estimate). Resamples are weights, not recomputations: the Voigt, Reuss and geometric sums
 are linear in per-grain tensors rotated once (so all resamples are one matrix product), and the
 J-index of a resample is the quadratic form w^T A w over the kernel's neighbour pairs (A built a
-block of rows at a time and applied to all resamples at once), without the pairs of a grain's
-copies with each other, which would bias it up by about J_1/N; likewise the misorientation histogram of the M-index is a weighted histogram of the pairs of the
+block of rows at a time and applied to all resamples at once), by the estimate's own definition
+(self-pair term kept, the pairs of a grain's copies with each other left out: ``resampled_j``);
+likewise the misorientation histogram of the M-index is a weighted histogram of the pairs of the
 original grains, measured once, and the M values are shifted by their bootstrap bias.
+Maxima over directions (AVs max, AVp, Vp max) and the delay along Z are biased up by noise: their
+intervals are basic bootstrap intervals (``seismic_intervals``), and ``random_aggregate_floor``
+gives AVs and AVp of random aggregates of as many grains.
 Orientations are the grains' mean orientations weighted by grain area (maps) or by the file's
 weights (grain lists), so intervals describe the sampling of grains, the unit that is counted.
 """
@@ -59,6 +63,36 @@ def interval(values: np.ndarray) -> list[float]:
     return [round(float(lo), 6), round(float(hi), 6)]
 
 
+def basic_interval(estimate: float, values: np.ndarray) -> list[float]:
+    """Basic bootstrap interval [2 t - q_97.5, 2 t - q_2.5] (Efron & Tibshirani 1993, section 13.4).
+
+    It reflects the resamples' percentiles about the estimate t, so a statistic whose resamples lie
+    above the estimate (a maximum over directions of noisy velocities: the noise only raises a
+    maximum) gets an interval shifted down by that bias, where the percentile interval is shifted
+    up by it.
+    """
+    lo, hi = np.nanpercentile(np.asarray(values, dtype=float), INTERVAL)
+    return [round(float(2.0 * estimate - hi), 6), round(float(2.0 * estimate - lo), 6)]
+
+
+def bias_corrected_interval(estimate: float, values: np.ndarray) -> list[float]:
+    """Bias-corrected percentile interval (BC: BCa with acceleration 0, Efron & Tibshirani 1993, 14.3)."""
+    from scipy.stats import norm
+
+    v = np.asarray(values, dtype=float)
+    v = v[np.isfinite(v)]
+    below = np.clip(np.mean(v < estimate), 0.5 / len(v), 1.0 - 0.5 / len(v))
+    z0 = norm.ppf(below)
+    levels = 100.0 * norm.cdf(2.0 * z0 + norm.ppf(np.array(INTERVAL) / 100.0))
+    lo, hi = np.percentile(v, levels)
+    return [round(float(lo), 6), round(float(hi), 6)]
+
+
+#: interval of each seismic statistic, chosen by the coverage measured in tests/test_coverage.py
+SEISMIC_INTERVAL_METHOD = {"avs_max_pct": "basic", "avp_pct": "basic", "vp_max_km_s": "basic",
+                           "delay_s_per_100km": "basic"}
+
+
 def estimates_outside(intervals: dict, estimates: dict) -> list[str]:
     """Keys whose estimate lies outside its own 95 % interval (a sign of bias or too few grains)."""
     out = []
@@ -100,15 +134,19 @@ def _resampled_means(x_kelvin: np.ndarray, g: np.ndarray, weights: np.ndarray, c
 
 def seismic_bootstrap(grain_sets, fractions: dict, average: str, density_kg_m3: float,
                       counts: dict[str, np.ndarray], crystal_tensors: dict | None = None) -> dict[str, np.ndarray]:
-    """AVp, maximum AVs, Vp max and the delay per 100 km along Z of every resample."""
+    """AVp, maximum AVs, Vp max and the delay per 100 km along Z of every resample.
+
+    ``crystal_tensors``: per mineral, the Kelvin stiffness, compliance and logarithm the aggregate
+    used (``Aggregate.crystal_matrices``, twin variants included); the library's ambient constants
+    without twins where a mineral is missing.
+    """
     total = sum(fractions[m.name] for m, _, _ in grain_sets)
     stiff = comp = logs = 0.0
     for mineral, quat, weights in grain_sets:
-        c = (crystal_tensors or {}).get(mineral.name, mineral.stiffness_gpa)
-        ck = elastic.voigt_to_kelvin(c)
+        x = (crystal_tensors or {}).get(mineral.name) or elastic.crystal_kelvin_matrices(mineral.stiffness_gpa)
         f = fractions[mineral.name] / total
-        wanted = {"voigt": [ck], "reuss": [np.linalg.inv(ck)], "hill": [ck, np.linalg.inv(ck)],
-                  "geometric": [elastic.logm_spd(ck)]}[average]
+        wanted = {"voigt": [x["stiffness"]], "reuss": [x["compliance"]], "hill": [x["stiffness"], x["compliance"]],
+                  "geometric": [x["log"]]}[average]
         means = _resampled_means(np.stack(wanted), to_matrices(quat), weights, counts[mineral.name])
         if average in ("voigt", "hill"):
             stiff = stiff + f * means[0]
@@ -135,6 +173,104 @@ def seismic_bootstrap(grain_sets, fractions: dict, average: str, density_kg_m3: 
             "delay_s_per_100km": 100.0 * (1.0 / vs2[:, -1] - 1.0 / vs1[:, -1])}
 
 
+def seismic_intervals(grain_sets, fractions: dict, average: str, density_kg_m3: float,
+                      counts: dict[str, np.ndarray], crystal_tensors: dict | None = None,
+                      methods: dict | None = None) -> tuple[dict, dict]:
+    """95 % intervals of the seismic statistics, and the statistics of the grains themselves.
+
+    The grains' own statistics (the bootstrap's estimate t, on the resamples' direction grid) are
+    computed with the resamples, as one more row of counts (all ones). ``methods`` maps a key to
+    "basic", "bc" or "percentile" (default ``SEISMIC_INTERVAL_METHOD``). A basic interval of a
+    statistic that cannot be negative is cut at zero.
+    """
+    with_sample = {name: np.vstack([np.ones((1, c.shape[1]), dtype=np.float32), c]) for name, c in counts.items()}
+    values = seismic_bootstrap(grain_sets, fractions, average, density_kg_m3, with_sample, crystal_tensors)
+    return intervals_from_resamples(values, methods), {key: float(v[0]) for key, v in values.items()}
+
+
+def intervals_from_resamples(values: dict[str, np.ndarray], methods: dict | None = None) -> dict:
+    """Intervals from statistics whose first row is the sample's own and the rest the resamples'."""
+    methods = {**SEISMIC_INTERVAL_METHOD, **(methods or {})}
+    out = {}
+    for key, v in values.items():
+        method = methods.get(key, "percentile")
+        if method == "basic":
+            lo, hi = basic_interval(v[0], v[1:])
+            out[key] = [max(lo, 0.0), max(hi, 0.0)]
+        elif method == "bc":
+            out[key] = bias_corrected_interval(v[0], v[1:])
+        else:
+            out[key] = interval(v[1:])
+    return out
+
+
+def random_aggregate_floor(grain_sets, fractions: dict, average: str, density_kg_m3: float,
+                           crystal_tensors: dict | None = None, n_sets: int = 100,
+                           max_grains: int = 1000, seed: int = 20010917) -> dict:
+    """AVp and maximum AVs of aggregates of random orientations with the sample's grain counts.
+
+    Each phase gets its effective grain count N_eff = (sum w)^2 / sum w^2 of equal grains. The
+    anisotropy of a random aggregate comes from the mean of N_eff random tensors about the isotropic
+    one, so it falls as 1 / sqrt(N_eff) (central limit theorem; AVs and AVp are first order in the
+    small anisotropic part): when a phase has more than ``max_grains``, all phases are simulated
+    with their counts divided by one factor k and the anisotropies multiplied by 1 / sqrt(k).
+    ``n_sets`` aggregates (fixed seed) give the mean (the floor) and the 2.5-97.5 percentile range.
+    Cached in memory and in ``$XDG_CACHE_HOME/fabric2seis``.
+    """
+    import hashlib
+    import json
+    from pathlib import Path
+
+    n_eff = {m.name: float(np.sum(w) ** 2 / np.sum(np.asarray(w, dtype=float) ** 2)) for m, _, w in grain_sets}
+    k = max(1.0, max(n_eff.values()) / max_grains)
+    n_sim = {name: max(2, int(round(n / k))) for name, n in n_eff.items()}
+    digest = hashlib.sha256()
+    for mineral, _, _ in sorted(grain_sets, key=lambda s: s[0].name):
+        x = (crystal_tensors or {}).get(mineral.name)
+        x = {"stiffness": mineral.stiffness_gpa} if x is None else x if isinstance(x, dict) else {"stiffness": x}
+        digest.update(mineral.name.encode() + b"".join(np.asarray(x[k], dtype=float).round(8).tobytes()
+                                                        for k in sorted(x))
+                      + f"{fractions[mineral.name]:.8f}-{n_sim[mineral.name]}".encode())
+    digest.update(f"aggregate-floor-1-{average}-{density_kg_m3:.6f}-{k:.8f}-{n_sets}-{seed}-"
+                  f"{RESAMPLE_GRID_STEP_DEG}".encode())
+    key = digest.hexdigest()[:24]
+    if key in _AGGREGATE_FLOORS:
+        return _AGGREGATE_FLOORS[key]
+    folder = Path(os.environ.get("XDG_CACHE_HOME", Path.home() / ".cache")) / "fabric2seis"
+    path = folder / f"random_aggregate_{key}.json"
+    try:
+        _AGGREGATE_FLOORS[key] = json.loads(path.read_text())
+        return _AGGREGATE_FLOORS[key]
+    except (OSError, ValueError):
+        pass
+    rng = np.random.default_rng(seed)
+    sets, counts = [], {}
+    for mineral, _, _ in grain_sets:
+        n = n_sim[mineral.name]
+        sets.append((mineral, fabric._random_unit_quaternions(n * n_sets, rng), np.ones(n * n_sets)))
+        block = np.zeros((n_sets, n * n_sets), dtype=np.float32)      # set b holds grains b n .. (b+1) n - 1
+        block[np.repeat(np.arange(n_sets), n), np.arange(n * n_sets)] = 1.0
+        counts[mineral.name] = block
+    values = seismic_bootstrap(sets, fractions, average, density_kg_m3, counts, crystal_tensors)
+    floor = {"random_sets": int(n_sets), "simulated_grains": n_sim, "scaled_by": round(1.0 / np.sqrt(k), 6)}
+    for name in ("avs_max_pct", "avp_pct"):
+        v = values[name] / np.sqrt(k)
+        floor[name] = round(float(v.mean()), 6)
+        floor[f"{name}_95"] = [round(float(x), 6) for x in np.percentile(v, INTERVAL)]
+    _AGGREGATE_FLOORS[key] = floor
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        tmp = path.with_suffix(f".{os.getpid()}.tmp")
+        tmp.write_text(json.dumps(floor))
+        os.replace(tmp, path)
+    except OSError:
+        pass
+    return floor
+
+
+_AGGREGATE_FLOORS: dict = {}
+
+
 def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.ndarray,
                      halfwidth_deg: float, rng: np.random.Generator) -> dict[str, np.ndarray | None]:
     """J (quadratic form over the pair matrix) and M (weighted pairs of distinct grains) of every resample."""
@@ -142,11 +278,7 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
     if len(quat) <= MAX_J_GRAINS:
         v = (counts * weights[None, :]).T                            # (N, B), unnormalised
         forms, diagonal = fabric.j_quadratic_forms(quat, v, mineral.symmetry, halfwidth_deg)
-        # a grain drawn c times forms c (c - 1) pairs with its own copies: pairs at zero
-        # misorientation that the sample never had, which raise J by about J_1 / N (J_1 the J of
-        # one grain). They are left out of each resample's sum, and out of its normalisation.
-        copies = (counts * (counts - 1.0) * (weights ** 2)[None, :]).T
-        j = (forms - (copies * diagonal[:, None]).sum(axis=0)) / (v.sum(axis=0) ** 2 - copies.sum(axis=0))
+        j = resampled_j(forms, diagonal, counts, weights)
     # M: the uncorrelated pairs of the original grains are found and measured once; a resample
     # weights pair (i, j) by how often both grains were drawn, c_i c_j (pairs of distinct grains)
     reference = fabric.random_distribution(mineral.symmetry)
@@ -177,6 +309,29 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
     if np.any(ok):
         m = np.maximum(m - (np.nanmean(m) - m_sample), 0.0)
     return {"J": j, "M": m}
+
+
+def resampled_j(forms: np.ndarray, diagonal: np.ndarray, counts: np.ndarray, weights: np.ndarray) -> np.ndarray:
+    """J of every resample by the estimate's own definition: self-pair term plus pairs of distinct grains.
+
+    The estimate is J = s J_1 + (1 - s) U with s = sum w_i^2 (weights summing to 1), J_1 = A_ii the
+    self-pair term and U the weighted mean of A_ij over pairs of distinct grains. A resample draws
+    grain i c_i times; its N draws keep their own self-pair terms (s* = sum c_i w_i^2 / W^2, W =
+    sum c_i w_i; s* = 1/N as in the estimate for equal weights), and U* is the mean over pairs of
+    distinct grains, c_i c_j w_i w_j A_ij. The c_i (c_i - 1) pairs of a grain's copies with each
+    other, at zero misorientation, are left out: a sample of N grains has no such pairs, and they
+    would raise J by about J_1 / N.
+
+    ``forms`` are v^T A v with v = c w (``fabric.j_quadratic_forms``), ``diagonal`` the A_ii.
+    """
+    c = np.asarray(counts, dtype=float)
+    w2 = np.asarray(weights, dtype=float) ** 2
+    total = c @ np.asarray(weights, dtype=float)                            # W per resample
+    squares = (c ** 2) @ (w2 * diagonal)                                    # the c_i^2 diagonal terms
+    distinct_weight = total ** 2 - (c ** 2) @ w2
+    own = c @ (w2 * diagonal)
+    u = (forms - squares) / distinct_weight
+    return own / total ** 2 + (1.0 - (c @ w2) / total ** 2) * u
 
 
 def _one_hot(index: np.ndarray, size: int):

@@ -242,3 +242,79 @@ def test_convergence_reports_nested_subsets():
     c = fabric.convergence(OLIVINE, q, np.ones(1200))
     assert [r["n"] for r in c["rows"]] == [100, 200, 500, 1000, 1200]
     assert isinstance(c["j_levelled"], bool)
+
+
+def test_pole_figure_j_on_the_grid_equals_the_pair_sum_of_the_kernel():
+    # pfJ is the mean square of the pole density; summed exactly over pairs of poles with the
+    # kernel's self-convolution on the sphere (Legendre series, Funk-Hecke theorem, common practice)
+    # it must match the binned, gridded estimate of pf_j to the grid's accuracy.
+    rng = np.random.default_rng(12)
+    for name in ("olivine", "pyrope"):
+        mineral = find_mineral(name)
+        for q in (random_quaternions(300, rng), fabric_orientations(OLIVINE, "olivine-A", 300, 15.0, seed=3)):
+            w = rng.uniform(0.5, 2.0, 300)
+            for label in fabric.default_poles(mineral):
+                v = fabric.pole_vectors(q, crystal_direction(mineral, label), mineral.symmetry)
+                assert fabric.pf_j(v, w)[0] == pytest.approx(fabric.pf_j_pairs(v, w), rel=4e-3)
+
+
+def test_dense_pair_sum_of_j_equals_the_harmonic_series():
+    rng = np.random.default_rng(13)
+    for name in ("olivine", "diopside", "pyrope"):
+        mineral = find_mineral(name)
+        q = fabric_orientations(OLIVINE, "olivine-B", 150, 30.0, seed=5)
+        w = rng.uniform(0.5, 2.0, 150)
+        assert fabric.j_index_dense(q, w, mineral.symmetry) == pytest.approx(
+            fabric.j_index(q, w, mineral.symmetry, method="harmonics"), rel=2e-5)
+
+
+def _fresh_random_indices(mineral, n, n_sets, seed):
+    """J, M and pfJ of the first default pole of random sets drawn here, independently of random_floor."""
+    rng = np.random.default_rng(seed)
+    pole = fabric.default_poles(mineral)[0]
+    out = []
+    for k in range(n_sets):
+        q = random_quaternions(n, rng)
+        v = fabric.pole_vectors(q, crystal_direction(mineral, pole), mineral.symmetry)
+        out.append((fabric.j_index(q, np.ones(n), mineral.symmetry), fabric.m_index(q, mineral.symmetry, seed=k),
+                    fabric.pf_j(v, np.ones(n))[0]))
+    return np.array(out).T, pole
+
+
+@pytest.mark.parametrize("name, n", [("diopside", 33), ("olivine", 600)])
+def test_random_floor_has_its_closed_form_mean_and_holds_95_percent_of_random_sets(name, n, tmp_path, monkeypatch):
+    # E[J] of N random grains is 1 + (J_1 - 1)/N exactly (the self-pair terms; the pairs of distinct
+    # random grains average 1: Bunge 1982's J of a uniform ODF). The 95 % range, from 100 simulated
+    # sets, must hold about 95 % of random sets drawn here with another generator (40 sets, the
+    # package's own J, M and gridded pfJ): the binomial spread of 40 draws at 0.95 is 0.035, and the
+    # range's own percentiles from 100 sets move its coverage by about 0.02, so 0.8 is the floor.
+    # 600 grains are above the simulated size (200): this checks the scaling to N as well.
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path))
+    mineral = find_mineral(name)
+    floor = fabric.random_floor(mineral, n)
+    j1 = fabric.j_index(np.tile(random_quaternions(1, np.random.default_rng(0)), (2, 1)), np.ones(2), mineral.symmetry)
+    (j, m, pfj), pole = _fresh_random_indices(mineral, n, 40, seed=99)
+    assert floor["J"] == pytest.approx(1 + (j1 - 1) / n, abs=4 * np.std(j) / np.sqrt(floor["random_sets"]))
+    assert floor["J"] == pytest.approx(np.mean(j), abs=4 * np.std(j) / np.sqrt(40))
+    assert floor["M"] == pytest.approx(np.mean(m), rel=0.15)
+    assert floor["pfJ"][pole] == pytest.approx(np.mean(pfj), abs=4 * np.std(pfj) / np.sqrt(40) + 2e-3 * np.mean(pfj))
+    for values, (lo, hi) in ((j, floor["J_95"]), (m, floor["M_95"]), (pfj, floor["pfJ_95"][pole])):
+        assert 0.8 <= np.mean((values >= lo) & (values <= hi)) <= 1.0
+    # cached on disk, and read back the same
+    assert list(tmp_path.glob("fabric2seis/random_floor_*.json"))
+    fabric._RANDOM_FLOORS.clear()
+    assert fabric.random_floor(mineral, n) == floor
+
+
+def test_weak_and_strong_fabrics_against_the_random_floor():
+    # 33 random diopside grains lie on their floor (J about 9.4, not 1); 300 A-type olivine grains
+    # with 25 degrees of scatter lie far above theirs.
+    diopside = find_mineral("diopside")
+    q = random_quaternions(33, np.random.default_rng(5))
+    floor = fabric.random_floor(diopside, 33)
+    j, m = fabric.j_index(q, np.ones(33), diopside.symmetry), fabric.m_index(q, diopside.symmetry)
+    assert floor["J"] > 8 and fabric.indistinguishable_from_random(j, m, floor)
+    q = fabric_orientations(OLIVINE, "olivine-A", 300, 25.0, seed=6)
+    floor = fabric.random_floor(OLIVINE, 300)
+    j, m = fabric.j_index(q, np.ones(300), OLIVINE.symmetry), fabric.m_index(q, OLIVINE.symmetry)
+    assert not fabric.indistinguishable_from_random(j, m, floor)

@@ -219,8 +219,11 @@ def test_stack_command_writes_table_record_and_figure(result_folder, capsys):
     closed = layers.two_layer_closed_form(table["layer1_fast_azimuth_deg"], table["layer1_delay_s"],
                                           table["layer2_fast_azimuth_deg"], table["layer2_delay_s"],
                                           table["back_azimuth_deg"], 10.0)
-    assert np.all(axial(closed["fast_azimuth_deg"], table["analytic_fast_azimuth_deg"]) < 0.05)
-    assert np.allclose(closed["delay_s"], table["analytic_delay_s"], atol=2e-3)
+    defined = table["analytic_defined"].to_numpy(bool)
+    assert np.array_equal(defined, closed["transverse_fraction"] >= layers.NULL_TRANSVERSE_FRACTION)
+    assert np.all(axial(closed["fast_azimuth_deg"][defined], table["analytic_fast_azimuth_deg"][defined]) < 0.05)
+    assert np.allclose(closed["delay_s"][defined], table["analytic_delay_s"][defined], atol=2e-3)
+    assert table["analytic_delay_s"][~defined].isna().all()
     # An inclined ray through the sample layer: its splitting changes with back-azimuth
     assert np.ptp(table["layer1_delay_s"]) > 0.01 and np.ptp(table["layer2_delay_s"]) == 0
     away = table["analytic_transverse_fraction"] >= 0.05
@@ -289,3 +292,26 @@ def test_bad_stack_file_from_the_shell_has_no_traceback(result_folder):
                          capture_output=True, text=True, cwd=result_folder, env=env)
     assert out.returncode == 2 and out.stderr.count("\n") == 1 and "Traceback" not in out.stderr
     assert not (result_folder / "results").exists()
+
+
+def test_apparent_splitting_below_the_null_threshold_is_reported_undefined(result_folder):
+    # One layer (fast 30 degrees, 1 s) seen at a 10 s period: the transverse energy fraction is
+    # sin^2(2 (phi - baz)) sin^2(pi dt / T) (Silver & Chan 1991), below 1 % within about 5 degrees of
+    # the fast and slow directions. A station records a null there, so the stack table and its
+    # predictions give no fast azimuth or delay (empty), never a number.
+    stack = write_stack(result_folder, "period_s: 10\nlayers:\n  - {fast_azimuth_deg: 30, delay_s: 1.0}\n")
+    pd.DataFrame({"station": ["A", "A"], "baz_deg": [30.0, 75.0], "fast_azimuth_deg": [30.0, 30.0],
+                  "delay_s": [1.0, 1.0]}).to_csv(result_folder / "m1.csv", index=False)
+    out = result_folder / "out_null"
+    assert main(["field", "--stack", str(stack), "--measurements", str(result_folder / "m1.csv"),
+                 "--out", str(out)]) == 0
+    table = pd.read_csv(out / "stack_splitting.csv").set_index("back_azimuth_deg")
+    fraction = np.sin(np.radians(2 * (30.0 - table.index))) ** 2 * np.sin(np.pi * 1.0 / 10.0) ** 2
+    below = fraction < layers.NULL_TRANSVERSE_FRACTION
+    assert below.sum() >= 8 and np.array_equal(~below, table["analytic_defined"].to_numpy(bool))
+    for column in ("analytic_delay_s", "analytic_fast_azimuth_deg", "waveform_delay_s"):
+        assert table[column][below].isna().all(), column
+    assert np.allclose(table["analytic_delay_s"][~below], 1.0, atol=1e-6)
+    predictions = pd.read_csv(out / "stack_predictions.csv")
+    assert predictions["predicted_null"].tolist() == [True, False]
+    assert np.isnan(predictions["predicted_delay_s"][0]) or predictions["predicted_delay_s"][0] == 0

@@ -259,3 +259,21 @@ def test_hexagonal_ang_header_is_honoured(tmp_path):
     assert main(["sample", str(f), "--out", str(tmp_path / "o")]) == 0
 
 
+
+
+def test_twin_setting_through_the_command(tmp_path):
+    # Quartz crystals all at the identity orientation: the Dauphine twin (180 degrees about c,
+    # common practice) averaged away removes c14 (-18.04 GPa, McSkimin et al. 1965) from the Voigt
+    # tensor; `twins: as_indexed` keeps it. Calcite carries no twin law: its c14 stays either way.
+    for mineral, c14 in (("quartz", -18.04), ("calcite", -20.0)):
+        f = tmp_path / f"{mineral}.csv"
+        f.write_text("phase,phi1,Phi,phi2\n" + f"{mineral},0,0,0\n" * 10)
+        for setting, expected in (("average", 0.0 if mineral == "quartz" else c14), ("as_indexed", c14)):
+            f.with_suffix(".yaml").write_text(f"bootstrap: {{n: 0}}\ntwins: {setting}\n")
+            out = tmp_path / f"{mineral}_{setting}"
+            assert main(["sample", str(f), "--out", str(out)]) == 0
+            voigt = np.array(json.loads((out / "stiffness.json").read_text())["voigt"])
+            assert voigt[0, 3] == pytest.approx(expected, abs=1e-6), (mineral, setting)
+            twins = json.loads((out / "summary.json").read_text())["seismic"]["twins"]
+            assert twins["averaged"] == ({"quartz": ["Dauphine"]} if mineral == "quartz" and setting == "average"
+                                         else {})

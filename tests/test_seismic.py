@@ -182,12 +182,35 @@ def test_assumptions_under_non_ambient_conditions_are_stated():
 
 def test_dauphine_average_also_applies_at_pressure():
     # CONVENTIONS.md: the Dauphine twins of quartz (a 180 degree turn about c) are averaged, which
-    # removes c14, whatever the conditions the constants were brought to first.
+    # removes c14 from the stiffness the Voigt average uses, whatever the conditions the constants
+    # were brought to first (McSkimin et al. 1965 for c and dc/dP).
     quartz = find_mineral("quartz")
     q = random_quaternions(50, np.random.default_rng(1))
     agg = seismic.aggregate([(quartz, q, np.ones(50))], {"quartz": 1.0}, "hill", pressure_gpa=1.0)
-    c = agg.crystal_tensors["quartz"]
+    c = elastic.kelvin_to_voigt(agg.crystal_matrices["quartz"]["stiffness"])
     assert abs(c[0, 3]) < 1e-12 and c[0, 0] == pytest.approx(86.80 + 3.28, rel=1e-9)
+    assert agg.twins == {"quartz": ["Dauphine"]}
     raw = seismic.aggregate([(quartz, q, np.ones(50))], {"quartz": 1.0}, "hill", pressure_gpa=1.0,
-                            dauphine_average=False)
-    assert raw.crystal_tensors["quartz"][0, 3] == pytest.approx(-18.04 + 1.93)
+                            twin_average=False)
+    assert raw.crystal_tensors["quartz"][0, 3] == pytest.approx(-18.04 + 1.93) and raw.twins == {}
+
+
+def test_corrections_start_from_each_minerals_reference_conditions():
+    # Gammon et al. (1983) measured ice Ih at -16 C (REFERENCE_VALUES.md): at -16 C its constants
+    # stand as published, within 10 K of it they need no derivatives (this project's threshold,
+    # conditions.NEGLIGIBLE_DT_C), and at 25 C, with no temperature derivatives in the library,
+    # the sample is refused rather than given -16 C constants silently.
+    from fabric2seis.errors import InputError
+
+    ice = find_mineral("ice")
+    assert ice.reference_temperature_c == -16.0
+    c, rho = seismic.mineral_at_conditions(ice, 0.0, -16.0)
+    assert c[0, 0] == pytest.approx(13.929) and conditions.assumptions(ice, 0.0, -16.0) == []
+    c, _ = seismic.mineral_at_conditions(ice, 0.0, -10.0)
+    assert c[0, 0] == pytest.approx(13.929)
+    assert any("within 10 K" in n and "-16 C" in n for n in conditions.assumptions(ice, 0.0, -10.0))
+    with pytest.raises(InputError, match="measured at -16 C"):
+        seismic.mineral_at_conditions(ice, 0.0, 25.0)
+    # olivine's temperature derivatives act on the offset from 25 C (its reference), as before
+    c35, _ = seismic.mineral_at_conditions(OLIVINE, 0.0, 35.0)
+    assert c35[0, 0] == pytest.approx(OLIVINE.stiffness_gpa[0, 0] + 10.0 * OLIVINE.dcij_dt_gpa_per_k[0, 0])

@@ -85,3 +85,12 @@ def test_dip_outside_0_90_is_refused_by_the_settings_schema():
     from fabric2seis.settings import validate
     with pytest.raises(InputError, match="key field.foliation_dip_deg"):
         validate({"field": {"foliation_strike_deg": 10, "foliation_dip_deg": 95}}, "s.yaml")
+
+
+def test_vertical_foliation_normal_points_to_strike_plus_90():
+    # Right-hand rule (common practice): dip direction = strike + 90. A vertical foliation striking
+    # north has its structural Z (normal) horizontal towards the east, strike + 90 (north-east-down).
+    r = splitting.placement({"foliation_strike_deg": 0.0, "foliation_dip_deg": 90.0, "lineation_pitch_deg": 0.0})
+    assert np.allclose(r[:, 2], [0.0, 1.0, 0.0], atol=1e-12) and np.allclose(r[:, 0], [1.0, 0.0, 0.0], atol=1e-12)
+    r = splitting.placement({"foliation_strike_deg": 30.0, "foliation_dip_deg": 90.0, "lineation_pitch_deg": 0.0})
+    assert np.allclose(r[:, 2], [np.cos(np.radians(120)), np.sin(np.radians(120)), 0.0], atol=1e-12)

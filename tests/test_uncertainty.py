@@ -42,19 +42,43 @@ def test_resample_as_weights_equals_recomputing_on_the_drawn_grains():
         assert np.allclose(means, direct, rtol=1e-8, atol=1e-6)      # GPa; entries reach 274
 
 
-def test_resampled_j_leaves_out_pairs_of_a_grain_with_its_own_copies():
-    # A resample with grain i drawn c_i times: its plain quadratic form counts c_i (c_i - 1) pairs
-    # of copies at zero misorientation. The bootstrap leaves them out; with all counts 1 it is J.
+def test_resampled_j_keeps_the_self_pair_term_and_leaves_out_pairs_of_copies():
+    # J = s J_1 + (1 - s) U (s = sum w_i^2 for weights summing to 1, U the mean of A_ij over pairs of
+    # distinct grains): a resample keeps the self-pair term of its N draws and takes U over pairs of
+    # distinct grains, never the c_i (c_i - 1) pairs of a grain's copies. Written out here with the
+    # dense pair matrix; with all counts 1 it is the sample's J.
     n = 120
     q = fabric_orientations(OLIVINE, "olivine-A", n, 40.0, seed=3)
-    a = fabric.j_pair_matrix(q, OLIVINE.symmetry)
+    w = np.random.default_rng(5).uniform(0.5, 2.0, n)
+    a = fabric.j_pair_matrix(q, OLIVINE.symmetry).toarray()
     counts = uncertainty.resample_counts(n, 5, np.random.default_rng(2))
     counts[0] = 1.0
-    j = uncertainty.fabric_bootstrap(OLIVINE, q, np.ones(n), counts, 10.0, np.random.default_rng(0))["J"]
-    assert j[0] == pytest.approx(fabric.j_index(q, np.ones(n), OLIVINE.symmetry, method="pairs"), rel=1e-9)
+    j = uncertainty.fabric_bootstrap(OLIVINE, q, w, counts, 10.0, np.random.default_rng(0))["J"]
+    assert j[0] == pytest.approx(fabric.j_index(q, w, OLIVINE.symmetry, method="pairs"), rel=1e-9)
     for c, value in zip(counts[1:], j[1:]):
-        pairs = np.outer(c, c) - np.diag(c * (c - 1))                 # copies of one grain never pair
-        assert value == pytest.approx((pairs * a.toarray()).sum() / pairs.sum(), rel=1e-9)
+        v = c * w
+        total = v.sum()
+        distinct = np.outer(v, v) - np.diag(v ** 2)                  # pairs of distinct grains only
+        u = (distinct * a).sum() / distinct.sum()
+        s = (c * w ** 2).sum() / total ** 2                          # one self pair per draw
+        assert value == pytest.approx((c * w ** 2 * np.diag(a)).sum() / total ** 2 + (1 - s) * u, rel=1e-9)
+    # equal weights: the self-pair weight of every resample is 1/N, as in the estimate
+    c = counts[1]
+    assert (c @ np.ones(n)) / (c @ np.ones(n)) ** 2 == pytest.approx(1 / n)
+
+
+def test_basic_and_bias_corrected_intervals_by_their_formulas():
+    # Efron & Tibshirani (1993): basic [2t - q(0.975), 2t - q(0.025)] (section 13.4); BC percentiles
+    # Phi(2 z0 +- 1.96) with z0 = Phi^-1(fraction of resamples below t) (section 14.3).
+    from scipy.stats import norm
+    values = np.random.default_rng(3).normal(5.0, 1.0, 4000)
+    lo, hi = np.percentile(values, [2.5, 97.5])
+    assert uncertainty.basic_interval(4.0, values) == pytest.approx([8.0 - hi, 8.0 - lo], abs=1e-6)
+    z0 = norm.ppf(np.mean(values < 4.0))
+    expected = np.percentile(values, 100 * norm.cdf(2 * z0 + np.array([-1.959964, 1.959964])))
+    assert uncertainty.bias_corrected_interval(4.0, values) == pytest.approx(expected, abs=1e-5)
+    # at t = the resamples' median BC is the percentile interval
+    assert uncertainty.bias_corrected_interval(np.median(values), values) == pytest.approx([lo, hi], abs=2e-3)
 
 
 def test_bootstrap_intervals_of_a_weak_fabric_hold_their_estimates():

@@ -1,4 +1,8 @@
-"""Field comparison figures: data against predictions, the misfit surface, predicted fast directions."""
+"""Field comparison figures: data against predictions, the misfit surface, predicted fast directions.
+
+Every figure of a fit carries its verdicts (foliation, sense of the lineation) and, in red, the
+reasons a fit is poor (``poor_fit_reasons`` of ``field.fit_station``).
+"""
 
 from __future__ import annotations
 
@@ -7,8 +11,36 @@ import numpy as np
 from fabric2seis.figures.projection import plt, save
 
 
+def _interval_text(model: dict) -> str:
+    """One line of the best model with its 68 % intervals."""
+    thick, az = model.get("thickness_interval_km"), model.get("lineation_azimuth_interval_deg")
+    t = f"{model['thickness_km']:.0f} km" + (f" ({thick[0]:.0f}-{thick[1]:.0f})" if thick else "")
+    a = f"lineation azimuth {model['lineation_azimuth_deg']:.0f} deg" + (f" ({az[0]:.0f} to {az[1]:.0f})" if az else "")
+    return f"{t}, {a}, foliation {model['foliation']}; 68 % intervals in brackets"
+
+
+def _verdict_text(model: dict) -> str:
+    parts = [f"reduced chi-square {model['reduced_chi_square']:.2f}" if model.get("reduced_chi_square") is not None
+             else "no degrees of freedom left"]
+    if model.get("foliation_verdict"):
+        parts.append(f"foliation {model['foliation_verdict']} (chi-square difference "
+                     f"{model['foliation_chi_square_difference']:.1f})")
+    if model.get("sense_verdict"):
+        parts.append(f"sense of lineation {model['sense_verdict']} "
+                     f"(difference {model['sense_chi_square_difference']:.1f})")
+    return "; ".join(parts)
+
+
+def poor_fit_note(fig, model: dict) -> None:
+    """A red box at the foot of the figure naming why the fit is poor (nothing for a good fit)."""
+    if model.get("poor_fit"):
+        fig.text(0.5, 0.005, "POOR FIT: " + "; ".join(model["poor_fit_reasons"]), ha="center", va="bottom",
+                 fontsize=7, color="darkred", wrap=True,
+                 bbox={"boxstyle": "round", "facecolor": "mistyrose", "edgecolor": "darkred"})
+
+
 def data_and_predictions(stem, sample: str, station: str, data, curve: dict) -> list[str]:
-    fig, (ax1, ax2) = plt.subplots(2, 1, figsize=(6.5, 5.2), sharex=True)
+    fig, (ax1, ax2) = plt.subplots(2, 1, figsize=(6.5, 5.6), sharex=True)
     ok = ~data["null"].to_numpy(bool)
     ax1.errorbar(data["baz_deg"][ok], data["fast_azimuth_deg"][ok] % 180, yerr=data["fast_azimuth_err_deg"][ok],
                  fmt="o", ms=4, color="black", capsize=2, label="measured")
@@ -25,27 +57,51 @@ def data_and_predictions(stem, sample: str, station: str, data, curve: dict) -> 
     ax2.set_xlabel("back-azimuth (deg)")
     ax2.set_xticks(np.arange(0, 361, 45))
     m = curve["model"]
-    fig.suptitle(f"{sample} at station {station}: best layer {m['thickness_km']:.0f} km, lineation azimuth "
-                 f"{m['lineation_azimuth_deg']:.0f} deg, foliation {m['foliation']}, misfit {m['misfit']:.2f}",
-                 fontsize=9)
-    fig.tight_layout()
+    fig.suptitle(f"{sample} at station {station}: best layer {_interval_text(m)}\n{_verdict_text(m)}", fontsize=8)
+    fig.tight_layout(rect=(0, 0.06 if m.get("poor_fit") else 0, 1, 1))
+    poor_fit_note(fig, m)
     return save(fig, stem)
 
 
+def _error_bars(model: dict) -> tuple[list | None, list | None]:
+    """68 % intervals as error-bar lengths about the best thickness and lineation axis."""
+    thick, az = model.get("thickness_interval_km"), model.get("lineation_azimuth_interval_deg")
+    xerr = [[model["thickness_km"] - thick[0]], [thick[1] - model["thickness_km"]]] if thick else None
+    axis = model["lineation_azimuth_deg"]
+    yerr = [[(axis - az[0]) % 180.0], [(az[1] - axis) % 180.0]] if az else None
+    return xerr, yerr
+
+
 def misfit_surface(stem, sample: str, station: str, grid: dict, model: dict) -> list[str]:
+    """Chi-square above the best fit over the coarse grid of the best attitude (log colour scale), the
+    best fit of each sense of the lineation and the 68 % intervals as error bars."""
     a = grid["attitudes"].index(model["foliation"])
-    surface = grid["misfit"][a]
-    fig, ax = plt.subplots(figsize=(6.5, 4.0))
-    if surface.shape[0] > 1 and surface.shape[1] > 1:
-        filled = ax.contourf(grid["thicknesses"], grid["azimuths"], surface, levels=20, cmap="cividis")
-        fig.colorbar(filled, ax=ax).set_label("misfit (mean squared normalised residual)")
+    above = np.clip(grid["chi_square"][a] - grid["best_chi_square"], 0.0, None)
+    fig, ax = plt.subplots(figsize=(6.5, 4.4))
+    xerr, yerr = _error_bars(model)
+    if above.shape[0] > 1 and above.shape[1] > 1:
+        filled = ax.contourf(grid["thicknesses"], grid["azimuths"], np.log10(1.0 + above), levels=20, cmap="cividis")
+        fig.colorbar(filled, ax=ax).set_label("log10(1 + chi-square above best), no unit")
+        for sense in (model.get("lineation_senses") or [])[1:]:
+            ax.plot(sense["thickness_km"], sense["trend_deg"], "*", mfc="none", mec="red", ms=10,
+                    label=f"other sense: chi-square +{model['sense_chi_square_difference']:.1f}")
+        ax.errorbar(model["thickness_km"], model["lineation_trend_deg"], xerr=xerr, yerr=yerr, fmt="*", color="red",
+                    ms=10, capsize=3, label="best fit with its 68 % intervals")
+        ax.set_xlabel("layer thickness (km)")
+        ax.set_ylabel("lineation trend (deg from N)")
+        ax.set_ylim(0, 360)
+        ax.set_yticks(np.arange(0, 361, 45))
     else:
-        ax.plot(grid["thicknesses"] if surface.shape[1] > 1 else grid["azimuths"], surface.ravel())
-    ax.plot(model["thickness_km"], model["lineation_azimuth_deg"], "r*", ms=10)
-    ax.set_xlabel("layer thickness (km)")
-    ax.set_ylabel("lineation azimuth (deg from N)")
-    ax.set_title(f"{sample} at {station}: misfit, foliation {model['foliation']}", fontsize=9)
-    fig.tight_layout()
+        along_thickness = above.shape[1] > 1
+        ax.plot(grid["thicknesses"] if along_thickness else grid["azimuths"], above.ravel(), color="black")
+        ax.axhline(1.0, color="tab:red", lw=0.8, label="chi-square 1 above the best fit (68 %)")
+        ax.set_xlabel("layer thickness (km)" if along_thickness else "lineation trend (deg from N)")
+        ax.set_ylabel("chi-square above the best fit")
+    ax.legend(fontsize=7, loc="upper right")
+    ax.set_title(f"{sample} at {station}: chi-square, foliation {model['foliation']}\n{_verdict_text(model)}",
+                 fontsize=7)
+    fig.tight_layout(rect=(0, 0.07 if model.get("poor_fit") else 0, 1, 1))
+    poor_fit_note(fig, model)
     return save(fig, stem)
 
 

@@ -22,7 +22,7 @@ def stack_figure(stem, stack: dict, table, nulls: list[dict], data=None) -> list
     fig, (ax1, ax2) = plt.subplots(2, 1, figsize=(6.5, 5.4), sharex=True)
     fine = np.arange(0.0, 360.0, 0.5)
     fast, delay = layers.layer_splitting(stack["layers"], fine, stack["incidence_deg"])
-    curve = layers.apparent_splitting(fast, delay, fine, stack["period_s"])
+    curve = layers.apparent_splitting(fast, delay, fine, stack["period_s"], undefined_below=layers.NULL_TRANSVERSE_FRACTION)
     ax1.plot(*_broken_at_wraps(fine, curve["fast_azimuth_deg"]), color="tab:blue", lw=1.2,
              label=f"analytic, {stack['period_s']:g} s")
     ax2.plot(fine, curve["delay_s"], color="tab:blue", lw=1.2)

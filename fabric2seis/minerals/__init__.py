@@ -28,7 +28,10 @@ DATA_DIR = Path(__file__).with_name("data")
 _REQUIRED = ("name", "point_group", "density_kg_m3", "lattice", "published_axes", "cij_gpa",
              "source", "from_memory")
 _OPTIONAL = ("aliases", "unique_axis", "pressure_derivatives", "temperature_derivatives", "notes",
-             "equation_of_state")
+             "equation_of_state", "twins", "reference_conditions", "aggregate_check")
+#: a recalled entry whose Hill moduli differ from published aggregate moduli by more than this is disputed
+DISPUTED_ABOVE = 0.08
+_TWIN_KEYS = ("name", "axis", "angle_deg", "source")
 _AXIS_NAMES = ("a", "b", "c", "a*", "b*", "c*")
 #: absolute tolerance (GPa) for the symmetry check: published constants are rounded to 0.1 GPa
 SYMMETRY_TOLERANCE_GPA = 0.06
@@ -65,12 +68,53 @@ class Mineral:
     eos: dict | None = None
     notes: str = ""
     file: str = ""
+    twins: tuple[dict, ...] = ()
+    reference_temperature_c: float = 25.0
+    reference_pressure_gpa: float = 0.0
+    aggregate_check: dict | None = None
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     @property
     def symmetry(self) -> orix_symmetry.Symmetry:
         """orix point-group symmetry in the crystal frame (2-fold along b for b-unique monoclinic)."""
         return point_group_symmetry(self.point_group, self.unique_axis)
+
+    @property
+    def constants_recalled(self) -> bool:
+        """True when the single-crystal constants were recalled without the source at hand."""
+        return "cij_gpa" in self.from_memory
+
+    def aggregate_comparison(self) -> dict | None:
+        """The Hill moduli of the constants against published aggregate moduli (key ``aggregate_check``).
+
+        Returns None without such a key, else ``{k_hill_gpa, g_hill_gpa, k_published_gpa,
+        g_published_gpa, largest_difference (relative), disputed, source}``; disputed when the
+        larger relative difference exceeds ``DISPUTED_ABOVE`` (8 %, this project's threshold: the
+        published values are fitted model parameters with a spread of about 5-8 %).
+        """
+        if self.aggregate_check is None:
+            return None
+        from fabric2seis.elastic import hill_moduli
+
+        k, g = hill_moduli(self.stiffness_gpa)
+        k_ref, g_ref = self.aggregate_check["k_gpa"], self.aggregate_check["g_gpa"]
+        largest = max(abs(k - k_ref) / k_ref, abs(g - g_ref) / g_ref)
+        return {"k_hill_gpa": round(float(k), 2), "g_hill_gpa": round(float(g), 2), "k_published_gpa": k_ref,
+                "g_published_gpa": g_ref, "largest_difference": round(float(largest), 4),
+                "disputed": bool(largest > DISPUTED_ABOVE), "source": self.aggregate_check["source"]}
+
+    def twin_rotations(self) -> list[np.ndarray]:
+        """Crystal-frame rotations (3, 3) taking a crystal to each of its twin variants.
+
+        A twin law (library key ``twins``) whose variants EBSD cannot tell apart, such as the
+        Dauphine twin of quartz, makes every measured orientation stand for the crystal and its
+        variants in equal parts.
+        """
+        out = []
+        for twin in self.twins:
+            axis = crystal_directions(self.lattice)[twin["axis"]]
+            out.append(Rotation.from_axes_angles(axis, np.radians(twin["angle_deg"])).to_matrix()[0])
+        return out
 
     @property
     def phase(self) -> Phase:
@@ -228,6 +272,9 @@ def load_mineral_file(path: str | Path) -> Mineral:
     dt, dt_src, dt_mem = derivative("temperature_derivatives", "dcij_dt_gpa_per_k")
     deriv_mem = tuple(k for k, m in (("pressure_derivatives", dp_mem),
                                        ("temperature_derivatives", dt_mem)) if m)
+    twins = _twins(entry.get("twins"), src)
+    reference = _reference_conditions(entry.get("reference_conditions"), src)
+    check = _aggregate_check(entry.get("aggregate_check"), src)
     memory = entry["from_memory"] or []
     if not isinstance(memory, list):
         raise InputError("from_memory must be a list of the fields recalled ([] when checked)",
@@ -241,7 +288,56 @@ def load_mineral_file(path: str | Path) -> Mineral:
         source=str(entry["source"]), from_memory=tuple(memory),
         dcij_dp=dp, pressure_source=dp_src, dcij_dt_gpa_per_k=dt, temperature_source=dt_src,
         derivatives_from_memory=deriv_mem, d2cij_dp2=d2p, eos=eos,
-        notes=str(entry.get("notes", "")).strip(), file=src)
+        notes=str(entry.get("notes", "")).strip(), file=src, twins=twins,
+        reference_temperature_c=reference[0], reference_pressure_gpa=reference[1], aggregate_check=check)
+
+
+def _reference_conditions(block, src: str) -> tuple[float, float]:
+    """(temperature C, pressure GPa) at which the constants were measured; 25 C and 0 GPa if unset."""
+    if block is None:
+        return 25.0, 0.0
+    if not isinstance(block, dict) or set(block) - {"temperature_c", "pressure_gpa"}:
+        raise InputError("reference_conditions takes temperature_c and pressure_gpa", src, "reference_conditions")
+    values = []
+    for key, default in (("temperature_c", 25.0), ("pressure_gpa", 0.0)):
+        value = block.get(key, default)
+        if not isinstance(value, (int, float)) or not np.isfinite(value):
+            raise InputError("must be a number", src, f"reference_conditions.{key}")
+        values.append(float(value))
+    return values[0], values[1]
+
+
+def _aggregate_check(block, src: str) -> dict | None:
+    """Published aggregate moduli to check the constants against: {k_gpa, g_gpa, source}."""
+    if block is None:
+        return None
+    if not isinstance(block, dict) or set(block) != {"k_gpa", "g_gpa", "source"}:
+        raise InputError("aggregate_check needs exactly k_gpa, g_gpa and source", src, "aggregate_check")
+    for key in ("k_gpa", "g_gpa"):
+        if not isinstance(block[key], (int, float)) or not block[key] > 0:
+            raise InputError("must be a positive number (GPa)", src, f"aggregate_check.{key}")
+    return {"k_gpa": float(block["k_gpa"]), "g_gpa": float(block["g_gpa"]), "source": str(block["source"])}
+
+
+def _twins(block, src: str) -> tuple[dict, ...]:
+    """The ``twins`` list of a mineral file: each {name, axis (a, b, c, a*, b*, c*), angle_deg, source}."""
+    if block is None:
+        return ()
+    if not isinstance(block, list):
+        raise InputError("twins must be a list of {name, axis, angle_deg, source}", src, "twins")
+    out = []
+    for k, twin in enumerate(block):
+        where = f"twins[{k}]"
+        if not isinstance(twin, dict) or set(twin) != set(_TWIN_KEYS):
+            raise InputError(f"a twin law needs exactly the keys {', '.join(_TWIN_KEYS)}", src, where)
+        if twin["axis"] not in _AXIS_NAMES:
+            raise InputError(f"axis must be one of {', '.join(_AXIS_NAMES)}", src, f"{where}.axis")
+        angle = twin["angle_deg"]
+        if not isinstance(angle, (int, float)) or not 0 < angle < 360:
+            raise InputError("angle_deg must be a number between 0 and 360", src, f"{where}.angle_deg")
+        out.append({"name": str(twin["name"]), "axis": twin["axis"], "angle_deg": float(angle),
+                    "source": str(twin["source"])})
+    return tuple(out)
 
 
 def load_library(extra_dirs: Iterable[str | Path] = ()) -> dict[str, Mineral]:
@@ -274,12 +370,3 @@ def find_mineral(name: str, library: dict[str, Mineral] | None = None) -> Minera
                      f"{', '.join(sorted(library))}")
 
 
-def dauphine_average(mineral: Mineral, stiffness_gpa: np.ndarray | None = None) -> np.ndarray:
-    """Stiffness averaged over the two Dauphine twin variants (180 degrees about c).
-
-    For trigonal quartz this zeroes c14 and its companions; EBSD cannot tell the variants
-    apart, so this is the common practice for quartz aggregates. ``stiffness_gpa`` (e.g. the
-    constants at pressure) replaces the library's ambient constants when given.
-    """
-    c = mineral.stiffness_gpa if stiffness_gpa is None else np.asarray(stiffness_gpa, dtype=float)
-    return (c + rotate_voigt(c, np.diag([-1.0, -1.0, 1.0]))) / 2.0

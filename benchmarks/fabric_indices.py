@@ -82,7 +82,7 @@ from orix.quaternion import Misorientation, Orientation
 import fabric2seis
 from fabric2seis.fabric import (j_index, m_index, random_misorientation_histogram,
                                 self_convolution)
-from fabric2seis.minerals import find_mineral
+from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.orientations import (misorientation_angles, multiply,
                                       proper_symmetry_quaternions)
 from fabric2seis.synth import fabric_orientations, random_quaternions

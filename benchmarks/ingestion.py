@@ -5,7 +5,7 @@ What it measures
 For each map size n (pixels) the script makes a synthetic two-phase map (olivine and enstatite,
 alternating Voronoi grains of about 400 pixels each on a square grid of step 1, 0.5 degrees of
 orientation scatter per pixel) with ``fabric2seis.synth.voronoi_map``, writes it as a ``.ang``
-file with the project's writer (``fabric2seis.io.write.write_ang``), and then measures:
+file with the project's writer (``fabric2seis.ingest.io.write.write_ang``), and then measures:
 
 1. the time to read the file with orix alone, ``orix.io.load(path)``;
 2. the time of the whole ingestion, ``fabric2seis.pipeline.ingest(path, settings)`` with the
@@ -110,7 +110,7 @@ def grid_shape(pixels: int) -> tuple[int, int]:
 
 def write_synthetic_map(path: Path, pixels: int, seed: int) -> dict:
     """Write a two-phase Voronoi map of about ``pixels`` pixels as .ang; return what was made."""
-    from fabric2seis.io.write import write_ang
+    from fabric2seis.ingest.io.write import write_ang
     from fabric2seis.synth import voronoi_map
 
     columns, rows = grid_shape(pixels)
@@ -194,8 +194,8 @@ def default_settings() -> tuple[dict, str]:
 
 def timed_stages(path: str, settings: dict) -> list[tuple[str, float]]:
     """The calls of ``fabric2seis.pipeline.ingest``, in its order, each timed (s)."""
-    from fabric2seis import frames, grains as grains_mod, phases as phases_mod
-    from fabric2seis.io import read_ebsd
+    from fabric2seis.ingest import frames, grains as grains_mod, phases as phases_mod
+    from fabric2seis.ingest.io import read_ebsd
 
     stages = []
     clock = time.perf_counter()

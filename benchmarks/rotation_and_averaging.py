@@ -67,7 +67,7 @@ from fabric2seis.elastic import (
     voigt_to_tensor,
     weighted_rotated_mean,
 )
-from fabric2seis.minerals import find_mineral
+from fabric2seis.elastic.minerals import find_mineral
 
 #: largest accepted relative difference between two averaged stiffnesses
 AGREEMENT_TOLERANCE = 1e-9
@@ -252,7 +252,7 @@ def main(argv: list[str] | None = None) -> int:
     g = random_orientation_matrices(count, rng)
     weights = random_positive_weights(count, rng)
     setup_seconds = time.perf_counter() - start
-    print(f"input:     olivine stiffness (6x6, GPa) from fabric2seis.minerals, "
+    print(f"input:     olivine stiffness (6x6, GPa) from fabric2seis.elastic.minerals, "
           f"source: {olivine.source}")
     print(f"           {count:,} random orientations (seed {args.seed}) with random weights "
           f"in [0.5, 1.5); generated in {setup_seconds:.2f} s (not counted below)")

@@ -26,10 +26,11 @@ import os
 
 import numpy as np
 
-from fabric2seis import elastic, seismic, uncertainty, waves
+from fabric2seis import elastic, uncertainty, waves
+from fabric2seis.waves import seismic
 from timing import best_of, interleaved
-from fabric2seis.decomposition import decomposition_summary
-from fabric2seis.minerals import find_mineral
+from fabric2seis.elastic.decomposition import decomposition_summary
+from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations
 
 

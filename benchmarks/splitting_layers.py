@@ -2,13 +2,13 @@
 
 1. Synthetic waveforms for 72 back-azimuths (every 5 degrees) through a two-layer model, measured
    by transverse-energy minimisation (Silver & Chan 1991) on a grid of 180 fast azimuths x 81
-   delays (``fabric2seis.layers.synthetic_records`` and ``measure_splitting``: all trials at once,
+   delays (``fabric2seis.waves.layers.synthetic_records`` and ``measure_splitting``: all trials at once,
    from frequency sums). Against a plain Python double loop over the trial fast azimuths and delays
    that corrects each record's spectrum by the inverse of the trial layer and sums the transverse
    energy (spectra computed once per record), timed on a few back-azimuths and scaled to 72. Both
    must find the same grid point and the same energies (to 1e-9 relative).
 2. The field fit of one station with 100 measurements over 180 lineation azimuths x 2 foliation
-   attitudes x 50 thicknesses (``fabric2seis.field.fit_station``), for an A-type olivine aggregate
+   attitudes x 50 thicknesses (``fabric2seis.waves.field.fit_station``), for an A-type olivine aggregate
    of 2,000 synthetic grains. Against a plain double loop over azimuth x thickness that calls the
    one-layer prediction (``splitting.one_layer``) for every grid point and measures the misfit,
    timed on a subset of the grid and scaled. The misfits must agree to 1e-9 (relative).
@@ -32,9 +32,9 @@ import time
 import numpy as np
 import pandas as pd
 
-from fabric2seis import field, layers, seismic, splitting
+from fabric2seis.waves import field, layers, seismic, splitting
 from timing import best_of
-from fabric2seis.minerals import find_mineral
+from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations
 
 

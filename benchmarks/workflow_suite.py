@@ -25,8 +25,8 @@ import tempfile
 import time
 from pathlib import Path
 
-from fabric2seis.io.write import write_table
-from fabric2seis.minerals import find_mineral
+from fabric2seis.ingest.io.write import write_table
+from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations
 
 ROOT = Path(__file__).resolve().parents[1]

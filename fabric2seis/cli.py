@@ -15,7 +15,7 @@ from fabric2seis.errors import InputError
 
 
 def _minerals(args: argparse.Namespace) -> int:
-    from fabric2seis.minerals import find_mineral, load_library
+    from fabric2seis.elastic.minerals import find_mineral, load_library
 
     library = load_library(args.library_dir or ())
     if args.name is None:
@@ -45,8 +45,8 @@ def _sample(args: argparse.Namespace) -> int:
 
 
 def _synth(args: argparse.Namespace) -> int:
-    from fabric2seis.io.write import write_table
-    from fabric2seis.minerals import find_mineral
+    from fabric2seis.ingest.io.write import write_table
+    from fabric2seis.elastic.minerals import find_mineral
     from fabric2seis.synth import fabric_orientations
 
     mineral = find_mineral(args.mineral)
@@ -104,10 +104,10 @@ def split_config_arguments(extra: list[str]) -> tuple[list[str], list[str]]:
 
 
 def _field(args: argparse.Namespace) -> int:
-    from fabric2seis.field import CAUTIONS, run_field
+    from fabric2seis.waves.field import CAUTIONS, run_field
 
     if args.stack:
-        from fabric2seis.stack import run_stack
+        from fabric2seis.waves.stack import run_stack
 
         if args.result_dirs or args.fix:
             raise InputError("with --stack the layers come from the stack file: give no RESULT_DIR and no --fix",

@@ -16,11 +16,12 @@ from pathlib import Path
 
 import numpy as np
 
-from fabric2seis import __version__, frames, grains as grains_mod, phases as phases_mod
+from fabric2seis import __version__
+from fabric2seis.ingest import frames, grains as grains_mod, phases as phases_mod
 from fabric2seis.errors import InputError
-from fabric2seis.io import read_ebsd
-from fabric2seis.outputs import check_destination, folder_written_whole
-from fabric2seis.phases import PointSet
+from fabric2seis.ingest.io import read_ebsd
+from fabric2seis.folders import check_destination, folder_written_whole
+from fabric2seis.ingest.phases import PointSet
 from fabric2seis.settings import settings_for
 
 
@@ -188,7 +189,7 @@ def twin_setting(settings: dict) -> str:
 
 def seismic_stage(sample: Sample, progress=None) -> dict:
     """Aggregate tensor, velocity grid and the seismic part of the summary."""
-    from fabric2seis import seismic
+    from fabric2seis.waves import seismic
 
     say = progress or (lambda _msg: None)
     st = sample.settings
@@ -205,12 +206,12 @@ def seismic_stage(sample: Sample, progress=None) -> dict:
     summary["along_axes"] = seismic.along_axes(agg.stiffness, agg.density_kg_m3)
     summary["twins"] = {"setting": twin_setting(st), "averaged": agg.twins or {},
                         "library": {m.name: [t["name"] for t in m.twins] for m, _, _ in sets if m.twins}}
-    from fabric2seis.decomposition import decomposition_summary
+    from fabric2seis.elastic.decomposition import decomposition_summary
     summary["decomposition"] = decomposition_summary(agg.stiffness, agg.density_kg_m3)
     along_z = seismic.splitting_along(agg.stiffness, agg.density_kg_m3)
     field, sweep = None, None
     if st.get("field"):
-        from fabric2seis.splitting import field_summary
+        from fabric2seis.waves.splitting import field_summary
 
         say("splitting of the layer in the ground")
         field, sweep = field_summary(agg.stiffness, agg.density_kg_m3, st["field"], sample.settings_file)
@@ -322,7 +323,7 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     agg = seis["aggregate"]
     report["density_kg_m3"] = round(agg.density_kg_m3, 3)
     report["conditions"] = dict(settings["conditions"])
-    from fabric2seis.conditions import assumptions
+    from fabric2seis.elastic.conditions import assumptions
     report["conditions"]["assumptions"] = [note for m in sample.points.minerals for note in assumptions(
         m, settings["conditions"]["pressure_gpa"], settings["conditions"]["temperature_c"])]
     report["seismic"] = seis["seismic"]

@@ -14,6 +14,6 @@ def random_rotation_matrices(n: int, seed: int) -> np.ndarray:
 
 @pytest.fixture(scope="session")
 def library():
-    from fabric2seis.minerals import load_library
+    from fabric2seis.elastic.minerals import load_library
 
     return load_library()

@@ -11,8 +11,9 @@ Coverage of a nominal 95 % interval over n data sets has a binomial spread of sq
 import numpy as np
 import pytest
 
-from fabric2seis import fabric, seismic, uncertainty
-from fabric2seis.minerals import find_mineral
+from fabric2seis import fabric, uncertainty
+from fabric2seis.waves import seismic
+from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations, random_quaternions
 
 OLIVINE = find_mineral("olivine")

@@ -5,7 +5,7 @@ import pytest
 from scipy.integrate import quad
 
 from fabric2seis import fabric
-from fabric2seis.minerals import find_mineral
+from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.orientations import multiply, proper_symmetry_quaternions
 from fabric2seis.synth import crystal_direction, fabric_orientations, ideal_orientation, random_quaternions
 

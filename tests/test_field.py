@@ -6,10 +6,11 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from fabric2seis import elastic, field, seismic, splitting
+from fabric2seis import elastic
+from fabric2seis.waves import field, seismic, splitting
 from fabric2seis.cli import main
 from fabric2seis.errors import InputError
-from fabric2seis.minerals import find_mineral
+from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations
 
 OLIVINE = find_mineral("olivine")
@@ -210,7 +211,7 @@ def test_fixing_parameters_uses_the_samples_own_settings(sample):
 
 
 def test_command_writes_predictions_and_fits(tmp_path, sample):
-    from fabric2seis.io.write import write_table
+    from fabric2seis.ingest.io.write import write_table
     q = fabric_orientations(OLIVINE, "olivine-A", 200, 15.0, seed=2)
     write_table(tmp_path / "s.csv", q, ["olivine"] * 200)
     (tmp_path / "s.yaml").write_text("bootstrap: {n: 0}\nfield: {foliation_strike_deg: 0, foliation_dip_deg: 0, "

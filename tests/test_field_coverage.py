@@ -9,9 +9,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from fabric2seis import elastic, field, seismic, splitting
+from fabric2seis import elastic
+from fabric2seis.waves import field, seismic, splitting
 from fabric2seis.cli import main
-from fabric2seis.minerals import find_mineral
+from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations
 
 OLIVINE = find_mineral("olivine")

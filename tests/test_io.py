@@ -7,8 +7,8 @@ import numpy as np
 import pytest
 from orix.quaternion import Rotation
 
-from fabric2seis.io import read_ebsd
-from fabric2seis.io.write import write_ang, write_ctf, write_table
+from fabric2seis.ingest.io import read_ebsd
+from fabric2seis.ingest.io.write import write_ang, write_ctf, write_table
 from fabric2seis.synth import voronoi_map
 
 

@@ -10,7 +10,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from fabric2seis import layers
+from fabric2seis.waves import layers
 from fabric2seis.cli import main
 
 BAZ = np.arange(0.0, 360.0, 5.0)
@@ -182,8 +182,8 @@ def test_predicted_nulls_of_two_layers_leave_little_transverse_energy_on_wavefor
 
 @pytest.fixture(scope="module")
 def result_folder(tmp_path_factory):
-    from fabric2seis.io.write import write_table
-    from fabric2seis.minerals import find_mineral
+    from fabric2seis.ingest.io.write import write_table
+    from fabric2seis.elastic.minerals import find_mineral
     from fabric2seis.synth import fabric_orientations
 
     folder = tmp_path_factory.mktemp("stack")

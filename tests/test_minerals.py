@@ -8,7 +8,7 @@ from orix.vector import Miller
 
 from fabric2seis import elastic as el
 from fabric2seis.errors import InputError
-from fabric2seis.minerals import (find_mineral, load_library, load_mineral_file)
+from fabric2seis.elastic.minerals import (find_mineral, load_library, load_mineral_file)
 
 REQUIRED = ["olivine", "enstatite", "diopside", "pyrope", "quartz", "calcite", "albite",
             "hornblende", "antigorite", "muscovite", "ice"]

@@ -3,7 +3,7 @@
 import numpy as np
 from orix.quaternion import Misorientation, Orientation, Rotation
 
-from fabric2seis.minerals import find_mineral
+from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.orientations import (misorientation_angles, multiply, nearest_equivalent,
                                       proper_symmetry_quaternions)
 from fabric2seis.synth import random_quaternions

@@ -12,7 +12,7 @@ import subprocess
 import pytest
 
 from fabric2seis.errors import InputError
-from fabric2seis.outputs import (MARKER, _host_tag, check_destination, clear_stale_temporaries,
+from fabric2seis.folders import (MARKER, _host_tag, check_destination, clear_stale_temporaries,
                                  folder_written_whole, remove_results, written_kind)
 
 

@@ -14,8 +14,8 @@ import numpy as np
 import pytest
 
 from fabric2seis.cli import main
-from fabric2seis.io.write import write_table
-from fabric2seis.minerals import load_library
+from fabric2seis.ingest.io.write import write_table
+from fabric2seis.elastic.minerals import load_library
 from fabric2seis.synth import random_quaternions
 
 N_GRAINS = 6000

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 
 from fabric2seis.cli import main
-from fabric2seis.io.write import write_ang, write_ctf, write_table
+from fabric2seis.ingest.io.write import write_ang, write_ctf, write_table
 from fabric2seis.synth import voronoi_map
 
 
@@ -145,7 +145,7 @@ def test_unequal_steps_and_sparse_points(tmp_path, capsys, wide_map):
 
 
 def test_good_files_still_pass(tmp_path, wide_map):
-    from fabric2seis.io import read_ebsd
+    from fabric2seis.ingest.io import read_ebsd
 
     f = ang_file(tmp_path, wide_map)
     d = read_ebsd(f)

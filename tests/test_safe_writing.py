@@ -17,9 +17,9 @@ from pathlib import Path
 import pytest
 
 from fabric2seis.cli import main
-from fabric2seis.io.write import write_ang, write_table
-from fabric2seis.minerals import find_mineral
-from fabric2seis.outputs import MARKER
+from fabric2seis.ingest.io.write import write_ang, write_table
+from fabric2seis.elastic.minerals import find_mineral
+from fabric2seis.folders import MARKER
 from fabric2seis.synth import fabric_orientations, voronoi_map
 
 ROOT = Path(__file__).resolve().parents[1]

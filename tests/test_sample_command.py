@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 
 from fabric2seis.cli import main
-from fabric2seis.io.write import write_ang, write_table
+from fabric2seis.ingest.io.write import write_ang, write_table
 from fabric2seis.synth import voronoi_map
 
 
@@ -238,7 +238,7 @@ def test_general_frame_rotation_and_refusal_of_non_rotations(tmp_path, capsys):
 
 
 def test_hexagonal_ang_header_is_honoured(tmp_path):
-    from fabric2seis.io import read_ebsd
+    from fabric2seis.ingest.io import read_ebsd
     from fabric2seis.synth import voronoi_map as vm
     m = vm(6, 14, 12, step=1.0, grid="hex", seed=1)
     f = tmp_path / "hex.ang"

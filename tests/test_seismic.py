@@ -6,8 +6,10 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from fabric2seis import conditions, decomposition, elastic, seismic, waves
-from fabric2seis.minerals import find_mineral
+from fabric2seis.elastic import conditions, decomposition
+from fabric2seis import elastic, waves
+from fabric2seis.waves import seismic
+from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations, random_quaternions
 
 OLIVINE = find_mineral("olivine")
@@ -156,7 +158,7 @@ def test_missing_derivatives_are_refused_unless_allowed():
 
 
 def test_same_inputs_give_byte_identical_summary_and_stiffness(tmp_path):
-    from fabric2seis.io.write import write_table
+    from fabric2seis.ingest.io.write import write_table
     from fabric2seis.pipeline import run_sample
     q = fabric_orientations(OLIVINE, "olivine-A", 300, 20.0, seed=1)
     f = tmp_path / "s.csv"
@@ -171,7 +173,7 @@ def test_same_inputs_give_byte_identical_summary_and_stiffness(tmp_path):
 
 
 def test_assumptions_under_non_ambient_conditions_are_stated():
-    # "Results are never silently wrong": fallbacks are listed (fabric2seis.conditions.assumptions)
+    # "Results are never silently wrong": fallbacks are listed (fabric2seis.elastic.conditions.assumptions)
     notes = conditions.assumptions(find_mineral("pyrope"), 2.0, 800.0)
     assert any("no pressure derivatives" in n for n in notes)
     assert any("no equation of state" in n for n in notes)

@@ -51,7 +51,7 @@ def test_bad_yaml_names_line(tmp_path):
 
 def test_suite_table_flattens_scalars_and_intervals(tmp_path):
     import json
-    from fabric2seis.suite import suite_table
+    from fabric2seis.workflow.suite import suite_table
     f = tmp_path / "summary.json"
     f.write_text(json.dumps({"sample": "a", "n_points": 3, "seismic": {"avp_pct": 5.0, "vp_max_direction": [1, 0, 0]},
                              "uncertainty": {"avp_pct": [4.0, 6.0], "resamples": 200}}))

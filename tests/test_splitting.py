@@ -3,9 +3,10 @@
 import numpy as np
 import pytest
 
-from fabric2seis import elastic, seismic, splitting
+from fabric2seis import elastic
+from fabric2seis.waves import seismic, splitting
 from fabric2seis.errors import InputError
-from fabric2seis.minerals import find_mineral
+from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations
 
 from test_seismic import ti_tensor

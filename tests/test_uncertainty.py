@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from fabric2seis import elastic, fabric, uncertainty
-from fabric2seis.minerals import find_mineral
+from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations
 
 OLIVINE = find_mineral("olivine")

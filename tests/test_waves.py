@@ -129,7 +129,7 @@ def test_speeds_near_a_reference_match_the_exact_solution():
     # each Christoffel matrix: bootstrap-like aggregates of 30 olivine crystals (large, uneven
     # differences), and a transversely isotropic tensor along its axis, where Vs1 = Vs2 exactly
     # (degenerate S waves: common practice, Thomsen 1986), perturbed slightly.
-    from fabric2seis.minerals import find_mineral
+    from fabric2seis.elastic.minerals import find_mineral
     olivine = find_mineral("olivine")
     rng = np.random.default_rng(5)
     ck = el.voigt_to_kelvin(olivine.stiffness_gpa)

@@ -11,8 +11,8 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from fabric2seis.io.write import write_table
-from fabric2seis.minerals import find_mineral
+from fabric2seis.ingest.io.write import write_table
+from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations
 
 ROOT = Path(__file__).resolve().parents[1]

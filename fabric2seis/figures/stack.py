@@ -17,7 +17,7 @@ def _broken_at_wraps(baz: np.ndarray, fast: np.ndarray) -> tuple[np.ndarray, np.
 def stack_figure(stem, stack: dict, table, nulls: list[dict], data=None) -> list[str]:
     """Fast azimuth and delay against back-azimuth: analytic (line), waveform-measured (points),
     predicted nulls (vertical lines), measurements with their errors if given."""
-    from fabric2seis import layers
+    from fabric2seis.waves import layers
 
     fig, (ax1, ax2) = plt.subplots(2, 1, figsize=(6.5, 5.4), sharex=True)
     fine = np.arange(0.0, 360.0, 0.5)

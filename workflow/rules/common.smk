@@ -4,7 +4,7 @@ import json
 from pathlib import Path
 
 from fabric2seis.settings import sidecar_of
-from fabric2seis.suite import discover_measurements, discover_samples
+from fabric2seis.workflow.suite import discover_measurements, discover_samples
 
 SAMPLES_DIR = config.get("samples_dir", "demo_samples")
 RESULTS = config.get("results_dir", "results")

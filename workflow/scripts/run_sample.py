@@ -10,9 +10,9 @@ import logging
 from pathlib import Path
 
 from fabric2seis.errors import InputError
-from fabric2seis.outputs import remove_results
+from fabric2seis.folders import remove_results
 from fabric2seis.pipeline import run_sample
-from fabric2seis.suite import check_workflow_sample_name
+from fabric2seis.workflow.suite import check_workflow_sample_name
 
 logging.basicConfig(filename=snakemake.log[0], level=logging.INFO, format="%(asctime)s %(message)s")
 out = Path(snakemake.params.out)

@@ -1,7 +1,7 @@
-"""Snakemake shell around fabric2seis.report_files.gather_report_files (no science here)."""
+"""Snakemake shell around fabric2seis.workflow.report_files.gather_report_files (no science here)."""
 import logging
 
-from fabric2seis.report_files import gather_report_files
+from fabric2seis.workflow.report_files import gather_report_files
 
 logging.basicConfig(filename=snakemake.log[0], level=logging.INFO, format="%(asctime)s %(message)s")
 try:

@@ -1,8 +1,8 @@
-"""Snakemake shell around fabric2seis.suite (no science here)."""
+"""Snakemake shell around fabric2seis.workflow.suite (no science here)."""
 import logging
 
 from fabric2seis.figures.suite import suite_figure
-from fabric2seis.suite import suite_table_from_status
+from fabric2seis.workflow.suite import suite_table_from_status
 
 logging.basicConfig(filename=snakemake.log[0], level=logging.INFO, format="%(asctime)s %(message)s")
 try:

@@ -29,9 +29,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from fabric2seis import layers, splitting
+from fabric2seis.waves import layers, splitting
 from fabric2seis.errors import InputError, nearest
-from fabric2seis.outputs import check_destination, folder_written_whole
+from fabric2seis.folders import check_destination, folder_written_whole
 
 TOP_KEYS = {"layers", "period_s", "incidence_deg", "back_azimuth_step_deg"}
 SAMPLE_KEYS = {"result", "thickness_km", "field", "name"}
@@ -65,7 +65,7 @@ def _unknown(keys, valid: set[str], path: Path, where: str) -> None:
 
 
 def _sample_layer(entry: dict, k: int, path: Path) -> dict:
-    from fabric2seis.field import read_result
+    from fabric2seis.waves.field import read_result
 
     where = f"key layers[{k}]"
     folder = Path(str(entry["result"]))
@@ -186,7 +186,7 @@ def stack_sweep(stack: dict) -> tuple[pd.DataFrame, list[dict]]:
 
 def measurement_predictions(stack: dict, data: pd.DataFrame) -> tuple[pd.DataFrame, dict]:
     """The stack's analytic apparent splitting at each measurement's back-azimuth and incidence."""
-    from fabric2seis.field import _axial_difference
+    from fabric2seis.waves.field import _axial_difference
 
     baz, inc = data["baz_deg"].to_numpy(float), data["incidence_deg"].to_numpy(float)
     fast, delay = layers.layer_splitting(stack["layers"], baz, inc)
@@ -216,7 +216,7 @@ def _layer_record(layer: dict) -> dict:
 
 
 def stack_cautions(stack: dict) -> list[str]:
-    from fabric2seis.field import CAUTIONS
+    from fabric2seis.waves.field import CAUTIONS
 
     notes = [CAUTIONS, "Apparent splitting of several layers depends on the initial polarisation and on the "
              f"period; these predictions are for a dominant period of {stack['period_s']:g} s (Silver & Savage 1994)."]
@@ -230,7 +230,7 @@ def stack_cautions(stack: dict) -> list[str]:
 def run_stack(stack_file: str | Path, measurements: str | Path | None = None,
               out_dir: str | Path | None = None) -> tuple[Path, list[str]]:
     """``fabric2seis field --stack``: outputs written whole or not at all; returns the folder and cautions."""
-    from fabric2seis.field import read_measurements
+    from fabric2seis.waves.field import read_measurements
     from fabric2seis.figures.stack import stack_figure
 
     out = Path(out_dir) if out_dir else Path("results") / "stack"     # not results/field: the one-layer fit lives there

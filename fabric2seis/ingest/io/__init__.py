@@ -16,7 +16,7 @@ from __future__ import annotations
 from pathlib import Path
 
 from fabric2seis.errors import InputError
-from fabric2seis.io.record import EBSDData
+from fabric2seis.ingest.io.record import EBSDData
 
 SUPPORTED_SUFFIXES = (".ang", ".ctf", ".h5", ".hdf5", ".csv")
 
@@ -47,7 +47,7 @@ def read_ebsd(path: str | Path, angle_units: str = "degrees") -> EBSDData:
 
     ``angle_units`` applies to CSV tables only; the other formats fix their own units.
     """
-    from fabric2seis.io import ang, ctf, h5, table
+    from fabric2seis.ingest.io import ang, ctf, h5, table
 
     path = Path(path)
     suffix, compressed = format_of(path)

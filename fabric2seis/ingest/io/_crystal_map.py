@@ -14,8 +14,8 @@ from pathlib import Path
 import numpy as np
 
 from fabric2seis.errors import InputError
-from fabric2seis.io.record import EBSDData, check_map
-from fabric2seis.io.text import quiet
+from fabric2seis.ingest.io.record import EBSDData, check_map
+from fabric2seis.ingest.io.text import quiet
 
 
 def header_phases(file_reader, header: list[str], rows: np.ndarray, source: Path, suffix: str

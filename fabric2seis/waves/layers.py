@@ -77,7 +77,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from fabric2seis import splitting
+from fabric2seis.waves import splitting
 
 NULL_TRANSVERSE_FRACTION = 0.01
 DEFAULT_PERIOD_S = 8.0

@@ -63,9 +63,10 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from fabric2seis import splitting, waves
+from fabric2seis.waves import splitting
+from fabric2seis import waves
 from fabric2seis.errors import InputError
-from fabric2seis.outputs import check_destination, folder_written_whole
+from fabric2seis.folders import check_destination, folder_written_whole
 
 REQUIRED = ("station", "baz_deg", "fast_azimuth_deg", "delay_s")
 DEFAULT_AZIMUTH_ERR_DEG = 10.0

@@ -25,6 +25,14 @@ import numpy as np
 
 from fabric2seis.errors import InputError
 
+__all__ = [
+    "VOIGT_PAIRS", "CHUNK", "AVERAGES", "voigt_to_tensor", "tensor_to_voigt", "voigt_to_kelvin",
+    "kelvin_to_voigt", "compliance", "check_stiffness", "kelvin_rotation", "rotate_voigt",
+    "crystal_to_sample", "rotated_kelvin", "rotated_kelvin_upper", "logm_spd", "expm_sym",
+    "PhaseOrientations", "crystal_kelvin_matrices", "weighted_rotated_mean", "average_tensors",
+    "voigt_moduli", "reuss_moduli", "hill_moduli", "isotropic_stiffness",
+]
+
 #: Voigt index -> pair of tensor indices, in the order 11, 22, 33, 23, 13, 12.
 VOIGT_PAIRS = ((0, 0), (1, 1), (2, 2), (1, 2), (0, 2), (0, 1))
 _I = np.array([p[0] for p in VOIGT_PAIRS])

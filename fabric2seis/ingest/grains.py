@@ -16,7 +16,7 @@ import pandas as pd
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
-from fabric2seis.minerals import Mineral
+from fabric2seis.elastic.minerals import Mineral
 from fabric2seis.orientations import nearest_equivalent, proper_symmetry_quaternions, within_angle
 
 

@@ -8,7 +8,7 @@ from pathlib import Path
 import pandas as pd
 
 from fabric2seis.errors import InputError
-from fabric2seis.io import is_supported
+from fabric2seis.ingest.io import is_supported
 from fabric2seis.pipeline import checked_sample_name, sample_name
 
 # folders and files the workflow itself keeps in the results folder: no sample may take their names

@@ -15,8 +15,8 @@ import pandas as pd
 from orix.quaternion import Rotation
 
 from fabric2seis.errors import InputError
-from fabric2seis.io.record import EBSDData, check_angles, check_map
-from fabric2seis.io.text import plain_text_file
+from fabric2seis.ingest.io.record import EBSDData, check_angles, check_map
+from fabric2seis.ingest.io.text import plain_text_file
 
 REQUIRED = ("phase", "phi1", "Phi", "phi2")
 OPTIONAL = ("weight", "x", "y", "quality")

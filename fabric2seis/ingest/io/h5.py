@@ -7,9 +7,9 @@ from pathlib import Path
 from orix import io as orix_io
 
 from fabric2seis.errors import InputError
-from fabric2seis.io._crystal_map import from_crystal_map
-from fabric2seis.io.record import EBSDData
-from fabric2seis.io.text import quiet
+from fabric2seis.ingest.io._crystal_map import from_crystal_map
+from fabric2seis.ingest.io.record import EBSDData
+from fabric2seis.ingest.io.text import quiet
 
 
 def read(path: Path) -> EBSDData:

@@ -16,9 +16,9 @@ from orix.io.plugins import ctf as orix_ctf
 from orix.quaternion import Rotation
 
 from fabric2seis.errors import InputError
-from fabric2seis.io._crystal_map import header_phases, one_row_per_phase
-from fabric2seis.io.record import EBSDData, check_angles, check_map
-from fabric2seis.io.text import line_of_row, plain_text_file, read_numbers
+from fabric2seis.ingest.io._crystal_map import header_phases, one_row_per_phase
+from fabric2seis.ingest.io.record import EBSDData, check_angles, check_map
+from fabric2seis.ingest.io.text import line_of_row, plain_text_file, read_numbers
 
 
 def _header(path: Path) -> list[str]:

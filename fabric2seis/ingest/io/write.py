@@ -12,7 +12,7 @@ import pandas as pd
 from orix.crystal_map import CrystalMap, PhaseList
 from orix.quaternion import Rotation
 
-from fabric2seis.io.text import quiet
+from fabric2seis.ingest.io.text import quiet
 
 
 def _euler_deg(quat: np.ndarray) -> np.ndarray:

@@ -44,9 +44,9 @@ def mineral_at_conditions(mineral, pressure_gpa: float = 0.0, temperature_c: flo
     """Single-crystal stiffness (orix frame) and density at the conditions (as published at the
     conditions the constants were measured at).
 
-    Other conditions need the mineral's derivatives beyond a small range; see fabric2seis.conditions.
+    Other conditions need the mineral's derivatives beyond a small range; see fabric2seis.elastic.conditions.
     """
-    from fabric2seis.conditions import at_conditions, at_reference
+    from fabric2seis.elastic.conditions import at_conditions, at_reference
 
     if at_reference(mineral, pressure_gpa, temperature_c):
         return mineral.stiffness_gpa, mineral.density_kg_m3

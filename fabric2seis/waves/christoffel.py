@@ -16,6 +16,12 @@ import numpy as np
 
 from fabric2seis.elastic import voigt_to_tensor
 
+__all__ = [
+    "SPEEDS_NEAR_TOLERANCE", "NEAR_BLOCK", "PlaneWaves", "speeds_near", "christoffel_matrices",
+    "plane_waves", "christoffel_eigen", "EIGEN_BLOCK", "group_velocities", "hemisphere_grid",
+    "direction_from_angles", "to_lower_hemisphere",
+]
+
 #: km^2/s^2 per (GPa / (kg/m^3))
 _GPA_PER_DENSITY_TO_KM2_S2 = 1.0e3
 #: largest third-order error of speeds_near, relative to the roots (else it solves exactly)

@@ -17,9 +17,9 @@ import numpy as np
 from orix.io.plugins import ang as orix_ang
 from orix.quaternion import Rotation
 
-from fabric2seis.io._crystal_map import header_phases, one_row_per_phase
-from fabric2seis.io.record import EBSDData, check_angles, check_map
-from fabric2seis.io.text import line_of_row, plain_text_file, read_numbers
+from fabric2seis.ingest.io._crystal_map import header_phases, one_row_per_phase
+from fabric2seis.ingest.io.record import EBSDData, check_angles, check_map
+from fabric2seis.ingest.io.text import line_of_row, plain_text_file, read_numbers
 
 CORE_COLUMNS = (0, 1, 2, 3, 4, 7)      # phi1, Phi, phi2, x, y, phase id
 

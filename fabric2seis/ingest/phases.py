@@ -8,8 +8,8 @@ import numpy as np
 from orix.quaternion import symmetry as orix_symmetry
 
 from fabric2seis.errors import InputError
-from fabric2seis.io.record import EBSDData
-from fabric2seis.minerals import Mineral, find_mineral, load_library
+from fabric2seis.ingest.io.record import EBSDData
+from fabric2seis.elastic.minerals import Mineral, find_mineral, load_library
 
 #: quality measure used by ``clean.quality_min`` when ``clean.quality_field`` is not set
 DEFAULT_QUALITY = ("ci", "bc", "quality")

@@ -1,0 +1,1 @@
+"""Workflow glue: sample discovery, the suite table, files gathered for the report."""

@@ -38,8 +38,8 @@ neither shortens the measurement nor is written to.
 Timing: ``time.perf_counter``; a call taking under 30 s is run twice and the shorter time
 counts, a longer call is run once. Before each size the time is predicted from the previous
 size assuming growth as N^1.5 (a margin over the linear cost), and a size whose single call
-would take longer than ``--max-call-minutes`` (20) is skipped and reported as skipped. Timings depend on what else the machine is doing; the load
-average is printed alongside them.
+would take longer than ``--max-call-minutes`` (20) is skipped and reported as skipped. Timings
+depend on what else the machine is doing; the load average is printed alongside them.
 
 How to run
 ----------
@@ -80,11 +80,9 @@ import scipy
 from orix.quaternion import Misorientation, Orientation
 
 import fabric2seis
-from fabric2seis.fabric import (j_index, m_index, random_misorientation_histogram,
-                                self_convolution)
 from fabric2seis.elastic.minerals import find_mineral
-from fabric2seis.orientations import (misorientation_angles, multiply,
-                                      proper_symmetry_quaternions)
+from fabric2seis.fabric import j_index, m_index, random_misorientation_histogram, self_convolution
+from fabric2seis.orientations import misorientation_angles, multiply, proper_symmetry_quaternions
 from fabric2seis.synth import fabric_orientations, random_quaternions
 
 #: kernel halfwidth of the J-index (degrees)
@@ -221,7 +219,7 @@ def part_one(args, olivine) -> tuple[list[str], bool]:
                     continue
             q = orientation_set(kind, olivine, n, args.seed)
             w = np.ones(n)
-            timing = timed(lambda: j_index(q, w, symmetry, HALFWIDTH_DEG))
+            timing = timed(lambda q=q, w=w: j_index(q, w, symmetry, HALFWIDTH_DEG))
             measured[kind][n] = timing
             exponent = "" if previous is None else \
                 f"{math.log(timing.seconds / previous[1]) / math.log(n / previous[0]):.2f}"
@@ -252,8 +250,8 @@ def part_one(args, olivine) -> tuple[list[str], bool]:
     for kind in ("random", "textured"):
         q = orientation_set(kind, olivine, n, args.seed)
         w = np.ones(n)
-        fast = measured[kind].get(n) or timed(lambda: j_index(q, w, symmetry, HALFWIDTH_DEG))
-        brute = timed(lambda: brute_force_j(q, w, symmetry, HALFWIDTH_DEG))
+        fast = measured[kind].get(n) or timed(lambda q=q, w=w: j_index(q, w, symmetry, HALFWIDTH_DEG))
+        brute = timed(lambda q=q, w=w: brute_force_j(q, w, symmetry, HALFWIDTH_DEG))
         ratio = brute.seconds / fast.seconds
         difference = abs(fast.result - brute.result) / abs(brute.result)
         agrees = difference < J_TOLERANCE
@@ -261,7 +259,7 @@ def part_one(args, olivine) -> tuple[list[str], bool]:
         say(f"  {kind:<9}  {fast.seconds:>11.2f}  {brute.seconds:>10.2f}  {ratio:>12.1f}x  "
             f"{fast.result:>11.6f}  {brute.result:>11.6f}  {difference:>13.2e}  "
             f"{'agree' if agrees else 'DISAGREE'} (tolerance {J_TOLERANCE:.0e})")
-        pairs = timed(lambda: j_index(q, w, symmetry, HALFWIDTH_DEG, method="pairs"))
+        pairs = timed(lambda q=q, w=w: j_index(q, w, symmetry, HALFWIDTH_DEG, method="pairs"))
         say(f"  {'':<9}  ({fast.runs_text}, {brute.runs_text}); the pair sum of earlier versions: "
             f"{pairs.seconds:.2f} s, J {pairs.result:.6f}")
         targets.append(f"  {f'j_index vs brute force, {kind}, {n:,} grains':<52} {ratio:7.1f}x  "
@@ -368,7 +366,7 @@ def parse_sizes(text: str) -> list[int]:
     try:
         sizes = sorted({int(part) for part in text.split(",") if part.strip()})
     except ValueError:
-        raise argparse.ArgumentTypeError(f"expected comma-separated whole numbers, got '{text}'")
+        raise argparse.ArgumentTypeError(f"expected comma-separated whole numbers, got '{text}'") from None
     if not sizes or sizes[0] < 2:
         raise argparse.ArgumentTypeError("every size must be at least 2 grains")
     return sizes

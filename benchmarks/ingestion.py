@@ -194,7 +194,9 @@ def default_settings() -> tuple[dict, str]:
 
 def timed_stages(path: str, settings: dict) -> list[tuple[str, float]]:
     """The calls of ``fabric2seis.pipeline.ingest``, in its order, each timed (s)."""
-    from fabric2seis.ingest import frames, grains as grains_mod, phases as phases_mod
+    from fabric2seis.ingest import frames
+    from fabric2seis.ingest import grains as grains_mod
+    from fabric2seis.ingest import phases as phases_mod
     from fabric2seis.ingest.io import read_ebsd
 
     stages = []
@@ -510,7 +512,7 @@ def main(argv: list[str] | None = None) -> int:
         print()
 
         first_orix, first_ingest = rows[0]["orix"], rows[0]["ingest"]
-        print(f"One-off costs in a fresh process (first size's children; not counted above)")
+        print("One-off costs in a fresh process (first size's children; not counted above)")
         print(f"  importing orix.io.load {first_orix['import_seconds']:.3f} s, then the first read, of the "
               f"{warm_up['pixels']:,}-pixel warm-up map: {first_orix['warm_up_seconds']:.3f} s")
         print(f"  importing fabric2seis.pipeline.ingest {first_ingest['import_seconds']:.3f} s, then the first "

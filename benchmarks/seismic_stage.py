@@ -25,13 +25,13 @@ import argparse
 import os
 
 import numpy as np
+from timing import best_of, interleaved
 
 from fabric2seis import elastic, uncertainty, waves
-from fabric2seis.waves import seismic
-from timing import best_of, interleaved
 from fabric2seis.elastic.decomposition import decomposition_summary
 from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations
+from fabric2seis.waves import seismic
 
 
 def velocities_part(olivine) -> bool:
@@ -53,7 +53,8 @@ def velocities_part(olivine) -> bool:
     print(f"  vectorised closed form        {fast_s * 1e3:8.2f} ms")
     print(f"  per-direction einsum + eigh   {loop_s * 1e3:8.2f} ms")
     print(f"  ratio                         {ratio:8.1f}x   (target >= 50x: {'met' if ratio >= 50 else 'NOT met'})")
-    print(f"  largest difference            {diff:.2e} relative (must be <= 1e-10: {'ok' if diff <= 1e-10 else 'FAILED'})")
+    verdict = "ok" if diff <= 1e-10 else "FAILED"
+    print(f"  largest difference            {diff:.2e} relative (must be <= 1e-10: {verdict})")
     return diff <= 1e-10
 
 
@@ -79,6 +80,7 @@ def stage_part(olivine, n_grains: int, n_resamples: int) -> None:
 
     import tempfile
     from pathlib import Path
+
     from fabric2seis.figures.velocities import velocity_figure
 
     folder = Path(tempfile.mkdtemp(prefix="fabric2seis-bench-"))

@@ -2,8 +2,8 @@
 
 It writes N small synthetic grain lists (200 olivine grains each, 50 bootstrap resamples) into a
 temporary folder, runs the Snakemake workflow on it with ``--cores 1`` and then, from scratch,
-with ``--cores 2`` (after a one-sample warm-up run), and reports the wall times, their ratio (target at most 0.65), and the
-workflow's own overhead per sample: wall time with one core minus the summed time of the
+with ``--cores 2`` (after a one-sample warm-up run), and reports the wall times, their ratio
+(target at most 0.65), and the workflow's own overhead per sample: wall time with one core minus the summed time of the
 per-sample work (from each sample's run.log), divided by the number of samples.
 
 Run from the project folder:  python benchmarks/workflow_suite.py [--samples 24]
@@ -25,8 +25,8 @@ import tempfile
 import time
 from pathlib import Path
 
-from fabric2seis.ingest.io.write import write_table
 from fabric2seis.elastic.minerals import find_mineral
+from fabric2seis.ingest.io.write import write_table
 from fabric2seis.synth import fabric_orientations
 
 ROOT = Path(__file__).resolve().parents[1]

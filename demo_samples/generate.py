@@ -16,9 +16,9 @@ from pathlib import Path
 import numpy as np
 import yaml
 
-from fabric2seis.ingest.io.write import write_ang, write_ctf, write_table
 from fabric2seis.elastic.minerals import find_mineral
-from fabric2seis.synth import IDEAL_FABRICS, fabric_orientations, voronoi_map
+from fabric2seis.ingest.io.write import write_ang, write_ctf, write_table
+from fabric2seis.synth import fabric_orientations, voronoi_map
 
 HERE = Path(__file__).parent
 CTF_LAUE = {"mmm": 3, "2/m": 2, "32": 5, "-3m": 7, "6/mmm": 9, "m-3m": 11}
@@ -104,8 +104,8 @@ def measurements() -> None:
     """
     import pandas as pd
 
-    from fabric2seis.waves import field, seismic, splitting
     from fabric2seis.ingest.io import read_ebsd
+    from fabric2seis.waves import field, seismic, splitting
 
     rng = np.random.default_rng(707)
     d = read_ebsd(HERE / "VM01_dunite.ang")

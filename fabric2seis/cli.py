@@ -45,8 +45,8 @@ def _sample(args: argparse.Namespace) -> int:
 
 
 def _synth(args: argparse.Namespace) -> int:
-    from fabric2seis.ingest.io.write import write_table
     from fabric2seis.elastic.minerals import find_mineral
+    from fabric2seis.ingest.io.write import write_table
     from fabric2seis.synth import fabric_orientations
 
     mineral = find_mineral(args.mineral)
@@ -104,30 +104,21 @@ def split_config_arguments(extra: list[str]) -> tuple[list[str], list[str]]:
 
 
 def _field(args: argparse.Namespace) -> int:
-    from fabric2seis.waves.field import CAUTIONS, run_field
+    from fabric2seis.commands import run_field, run_stack
 
     if args.stack:
-        from fabric2seis.waves.stack import run_stack
-
         if args.result_dirs or args.fix:
             raise InputError("with --stack the layers come from the stack file: give no RESULT_DIR and no --fix",
                              args.stack)
         out, cautions = run_stack(args.stack, args.measurements, args.out)
-        print(f"wrote {out}")
-        for note in cautions:
-            print(f"caution: {note}")
-        return 0
-    if not args.result_dirs or not args.measurements:
+    elif not args.result_dirs or not args.measurements:
         raise InputError("field needs RESULT_DIR... and --measurements CSV (or --stack FILE, where "
                          "--measurements is optional)")
-    out = run_field(args.result_dirs, args.measurements, args.out, set(args.fix or ()))
+    else:
+        out, cautions = run_field(args.result_dirs, args.measurements, args.out, set(args.fix or ()))
     print(f"wrote {out}")
-    print(f"caution: {CAUTIONS}")
-    import json
-    from pathlib import Path
-
-    for poor in json.loads((Path(out) / "field_fit.json").read_text()).get("poor_fits", []):
-        print(f"caution: poor fit: {poor}")
+    for note in cautions:
+        print(f"caution: {note}")
     return 0
 
 

@@ -8,7 +8,29 @@ side of g, ``v_crystal = g v_sample``). These are checked against orix in tests/
 
 from __future__ import annotations
 
+from typing import Any, NamedTuple
+
 import numpy as np
+
+
+class PhaseOrientations(NamedTuple):
+    """One phase's orientations and their weights: the record every stage passes around.
+
+    Attributes
+    ----------
+    mineral
+        The library entry (``elastic.minerals.Mineral``).
+    quat
+        Orientations as orix quaternions, shape (N, 4), in the structural frame.
+    weights
+        Non-negative weight of each orientation (area, or 1 per grain), shape (N,).
+
+    A named tuple, so ``for mineral, quat, weights in sets`` reads it as well.
+    """
+
+    mineral: Any
+    quat: np.ndarray
+    weights: np.ndarray
 
 
 def multiply(a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -143,6 +165,6 @@ def to_matrices(q: np.ndarray) -> np.ndarray:
 
 
 def from_matrices(g: np.ndarray) -> np.ndarray:
-    from orix.quaternion import Rotation      # imported here: orix takes seconds to import
+    from orix.quaternion import Rotation  # imported here: orix takes seconds to import
 
     return np.asarray(Rotation.from_matrix(np.asarray(g, dtype=float)).data, dtype=float).reshape(-1, 4)

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.spatial import cKDTree
 
+from fabric2seis.elastic.minerals import crystal_direction
 from fabric2seis.orientations import multiply
 
 
@@ -93,17 +94,6 @@ IDEAL_FABRICS = {
     "calcite-c-normal": ("[100]", "[001]"),
     "ice-c-normal": ("[100]", "[001]"),
 }
-
-
-def crystal_direction(mineral, label: str) -> np.ndarray:
-    """Unit vector, in orix's crystal frame, of a direction '[uvw]' (or '[hkl]' plane normal '(hkl)')."""
-    from orix.vector import Miller
-
-    text = label.strip()
-    numbers = [int(c) for c in text[1:-1].replace(",", " ").split()] if " " in text or "," in text \
-        else [int(c) for c in text[1:-1]]
-    kind = "hkl" if text.startswith("(") else "uvw"
-    return Miller(**{kind: numbers}, phase=mineral.phase).unit.data[0]
 
 
 def ideal_orientation(mineral, along_x: str, along_z: str) -> np.ndarray:

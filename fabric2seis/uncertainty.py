@@ -247,7 +247,7 @@ def random_aggregate_floor(grain_sets, fractions: dict, average: str, density_kg
     sets, counts = [], {}
     for mineral, _, _ in grain_sets:
         n = n_sim[mineral.name]
-        sets.append((mineral, fabric._random_unit_quaternions(n * n_sets, rng), np.ones(n * n_sets)))
+        sets.append((mineral, fabric.random_unit_quaternions(n * n_sets, rng), np.ones(n * n_sets)))
         block = np.zeros((n_sets, n * n_sets), dtype=np.float32)      # set b holds grains b n .. (b+1) n - 1
         block[np.repeat(np.arange(n_sets), n), np.arange(n * n_sets)] = 1.0
         counts[mineral.name] = block

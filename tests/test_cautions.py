@@ -14,8 +14,8 @@ import yaml
 
 from fabric2seis.cautions import mineral_cautions
 from fabric2seis.cli import main
-from fabric2seis.ingest.io.write import write_table
 from fabric2seis.elastic.minerals import DATA_DIR, find_mineral, load_mineral_file
+from fabric2seis.ingest.io.write import write_table
 from fabric2seis.synth import random_quaternions
 
 

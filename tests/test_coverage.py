@@ -12,9 +12,9 @@ import numpy as np
 import pytest
 
 from fabric2seis import fabric, uncertainty
-from fabric2seis.waves import seismic
 from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations, random_quaternions
+from fabric2seis.waves import seismic
 
 OLIVINE = find_mineral("olivine")
 ENSTATITE = find_mineral("enstatite")
@@ -108,7 +108,8 @@ def test_coverage_of_j_and_m_intervals(scatter_deg):
         lo, hi = uncertainty.interval(boot["M"])
         m_hits += lo <= m_parent <= hi
         m_values.append(fabric.m_index(q, OLIVINE.symmetry))
-    print(f"scatter {scatter_deg} deg: J holds E[J_N] {j_hits / n_sets:.3f}, M holds the parent's M {m_hits / n_sets:.3f}")
+    print(f"scatter {scatter_deg} deg: J holds E[J_N] {j_hits / n_sets:.3f}, "
+          f"M holds the parent's M {m_hits / n_sets:.3f}")
     assert 0.88 <= j_hits / n_sets <= 1.0
     if scatter_deg < 40:
         assert 0.85 <= m_hits / n_sets <= 1.0

@@ -4,8 +4,7 @@ import numpy as np
 from orix.quaternion import Misorientation, Orientation, Rotation
 
 from fabric2seis.elastic.minerals import find_mineral
-from fabric2seis.orientations import (misorientation_angles, multiply, nearest_equivalent,
-                                      proper_symmetry_quaternions)
+from fabric2seis.orientations import misorientation_angles, multiply, nearest_equivalent, proper_symmetry_quaternions
 from fabric2seis.synth import random_quaternions
 
 
@@ -66,6 +65,7 @@ def test_fast_paths_agree_with_the_full_symmetry_search():
 def test_matrices_of_quaternions_are_orix_matrices():
     # orix Rotation.to_matrix is the reference (a general-purpose library)
     from orix.quaternion import Rotation
+
     from fabric2seis.orientations import to_matrices
     q = np.random.default_rng(12).normal(size=(500, 4))
     q /= np.linalg.norm(q, axis=1, keepdims=True)

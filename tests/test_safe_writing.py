@@ -1,4 +1,4 @@
-"""The commands never delete or change a user's files (issue: never delete user data).
+"""The commands never delete or change a user's files.
 
 Each case runs a command as a careless user might and checks three things: the exit status, the
 one-line message, and that every file outside the results folder it was allowed to write is
@@ -17,9 +17,9 @@ from pathlib import Path
 import pytest
 
 from fabric2seis.cli import main
-from fabric2seis.ingest.io.write import write_ang, write_table
 from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.folders import MARKER
+from fabric2seis.ingest.io.write import write_ang, write_table
 from fabric2seis.synth import fabric_orientations, voronoi_map
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -94,10 +94,11 @@ def test_structural_frame_rotates_orientations(tmp_path):
     f = tmp_path / "one.csv"
     f.write_text("phase,phi1,Phi,phi2\n" + "olivine,90,0,0\n" * 3)
     (tmp_path / "one.yaml").write_text("frame: {lineation: '+y', foliation_normal: '+z'}\n")
-    from fabric2seis.pipeline import ingest
-    from fabric2seis.settings import settings_for
     from orix.quaternion import Rotation
     from orix.vector import Vector3d
+
+    from fabric2seis.pipeline import ingest
+    from fabric2seis.settings import settings_for
     settings, src = settings_for(f)
     sample = ingest(f, settings, src)
     a_axis = (~Rotation(sample.points.quat[:1])) * Vector3d.xvector()
@@ -218,7 +219,7 @@ def test_weighting_area_uses_pixels_and_grain_gives_one_vote(tmp_path, small_map
     assert sum(len(q) for _, q, _ in grain) == sample.grains.n_grains
     assert all(np.all(w == 1) for _, _, w in grain)
     # areas add up: pixel weights of a mineral equal the areas of its grains (square unit pixels)
-    for k, (m, _, w) in enumerate(area):
+    for k, (_m, _, w) in enumerate(area):
         assert w.sum() == pytest.approx(sample.grains.area[sample.grains.mineral_index == k].sum())
 
 
@@ -226,10 +227,11 @@ def test_general_frame_rotation_and_refusal_of_non_rotations(tmp_path, capsys):
     f = tmp_path / "r.csv"
     f.write_text("phase,phi1,Phi,phi2\n" + "olivine,90,0,0\n" * 3)
     (tmp_path / "r.yaml").write_text("frame: {rotation: [[0, 1, 0], [-1, 0, 0], [0, 0, 1]]}\n")
-    from fabric2seis.pipeline import ingest
-    from fabric2seis.settings import settings_for
     from orix.quaternion import Rotation
     from orix.vector import Vector3d
+
+    from fabric2seis.pipeline import ingest
+    from fabric2seis.settings import settings_for
     s, src = settings_for(f)
     a_axis = (~Rotation(ingest(f, s, src).points.quat[:1])) * Vector3d.xvector()
     assert np.allclose(a_axis.data[0], [1, 0, 0], atol=1e-9)  # sample +y is structural X

@@ -51,6 +51,7 @@ def test_bad_yaml_names_line(tmp_path):
 
 def test_suite_table_flattens_scalars_and_intervals(tmp_path):
     import json
+
     from fabric2seis.workflow.suite import suite_table
     f = tmp_path / "summary.json"
     f.write_text(json.dumps({"sample": "a", "n_points": 3, "seismic": {"avp_pct": 5.0, "vp_max_direction": [1, 0, 0]},
@@ -70,5 +71,5 @@ def test_values_from_the_command_line_get_the_types_the_schema_wants():
     assert out == {"odf": {"halfwidth_deg": 15}, "bootstrap": {"n": 0, "seed": 3},
                    "clean": {"quality_min": None, "quality_field": "CI"}, "phases": {"Forsterite": "olivine"}}
     validate(out)
-    with pytest.raises(Exception):
+    with pytest.raises(InputError):
         validate(typed({"odf": {"halfwidth_deg": "wide"}}))    # left for the schema to refuse

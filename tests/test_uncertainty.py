@@ -33,7 +33,8 @@ def test_resample_as_weights_equals_recomputing_on_the_drawn_grains():
     for row in counts:
         drawn = np.repeat(np.arange(n), row.astype(int))
         u = row.astype(float) / row.sum()
-        assert u @ (a @ u) == pytest.approx(fabric.j_index(q[drawn], np.ones(len(drawn)), OLIVINE.symmetry, method="pairs"), rel=1e-9)
+        pairs = fabric.j_index(q[drawn], np.ones(len(drawn)), OLIVINE.symmetry, method="pairs")
+        assert u @ (a @ u) == pytest.approx(pairs, rel=1e-9)
         means = uncertainty._resampled_means(elastic.voigt_to_kelvin(OLIVINE.stiffness_gpa),
                                              fabric.to_matrices(q), np.ones(n), row[None])[0]
         direct = elastic.weighted_rotated_mean(elastic.voigt_to_kelvin(OLIVINE.stiffness_gpa),

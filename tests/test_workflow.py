@@ -11,8 +11,8 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from fabric2seis.ingest.io.write import write_table
 from fabric2seis.elastic.minerals import find_mineral
+from fabric2seis.ingest.io.write import write_table
 from fabric2seis.synth import fabric_orientations
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -20,7 +20,8 @@ ROOT = Path(__file__).resolve().parents[1]
 # fabric2seis, not whichever copy happens to be installed.
 os.environ["PYTHONPATH"] = os.pathsep.join(p for p in (str(ROOT), os.environ.get("PYTHONPATH")) if p)
 FIGURES = ("pole_figures", "inverse_pole_figures", "fabric_convergence", "velocities")
-PLACED = "field: {foliation_strike_deg: 30.0, foliation_dip_deg: 5.0, lineation_pitch_deg: 15.0, layer_thickness_km: 60.0}\n"
+PLACED = ("field: {foliation_strike_deg: 30.0, foliation_dip_deg: 5.0, lineation_pitch_deg: 15.0, "
+          "layer_thickness_km: 60.0}\n")
 
 
 def _planned_jobs(dry_run_text: str) -> list[tuple[str, str]]:

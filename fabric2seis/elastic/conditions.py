@@ -81,9 +81,9 @@ def assumptions(mineral, pressure_gpa: float, temperature_c: float) -> list[str]
                          + (f" (within {NEGLIGIBLE_DT_C:g} K)" if abs(dt) <= NEGLIGIBLE_DT_C else ""))
         if (mineral.eos or {}).get("thermal_expansion_per_k") is None:
             notes.append(f"{mineral.name}: no thermal expansion, density not corrected for temperature")
-    if "pressure_derivatives" in mineral.derivatives_from_memory or "temperature_derivatives" in mineral.derivatives_from_memory:
-        if dp != 0 or dt != 0:
-            notes.append(f"{mineral.name}: derivatives marked from memory ({', '.join(mineral.derivatives_from_memory)})")
+    recalled = mineral.derivatives_from_memory
+    if ("pressure_derivatives" in recalled or "temperature_derivatives" in recalled) and (dp != 0 or dt != 0):
+        notes.append(f"{mineral.name}: derivatives marked from memory ({', '.join(recalled)})")
     return notes
 
 
@@ -127,7 +127,8 @@ def at_conditions(mineral, pressure_gpa: float, temperature_c: float,
     if alpha is None:
         if abs(dt) > NEGLIGIBLE_DT_C and not allow_ambient:
             raise InputError(f"mineral '{mineral.name}' has no thermal expansion in the library; set "
-                             "conditions.allow_ambient_constants: true to ignore it", where="key conditions.temperature_c")
+                             "conditions.allow_ambient_constants: true to ignore it",
+                             where="key conditions.temperature_c")
         alpha = 0.0
     return c, density_at(mineral.density_kg_m3, dp, temperature_c, k0, k0_prime, alpha,
                          mineral.reference_temperature_c)

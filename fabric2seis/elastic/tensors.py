@@ -29,7 +29,7 @@ __all__ = [
     "VOIGT_PAIRS", "CHUNK", "AVERAGES", "voigt_to_tensor", "tensor_to_voigt", "voigt_to_kelvin",
     "kelvin_to_voigt", "compliance", "check_stiffness", "kelvin_rotation", "rotate_voigt",
     "crystal_to_sample", "rotated_kelvin", "rotated_kelvin_upper", "logm_spd", "expm_sym",
-    "PhaseOrientations", "crystal_kelvin_matrices", "weighted_rotated_mean", "average_tensors",
+    "PhaseTensors", "crystal_kelvin_matrices", "weighted_rotated_mean", "average_tensors",
     "voigt_moduli", "reuss_moduli", "hill_moduli", "isotropic_stiffness",
 ]
 
@@ -235,19 +235,25 @@ def expm_sym(a: np.ndarray) -> np.ndarray:
 
 
 @dataclass(frozen=True)
-class PhaseOrientations:
-    """One phase of an aggregate: its crystal stiffness and the orientations it occurs in.
+class PhaseTensors:
+    """One phase of an aggregate as the averages need it: its crystal stiffness, the orientation
+    matrices it occurs in, their weights, its volume fraction and its twin variants.
+
+    (The stages carry a phase's orientations as ``orientations.PhaseOrientations``; this is the
+    tensor-level view of the same phase.)
 
     Attributes
     ----------
     stiffness_gpa
-        6x6 Voigt stiffness in the crystal Cartesian frame orix uses for the phase.
+        6x6 Voigt stiffness in the crystal Cartesian frame orix uses for the phase, GPa.
     g
         Bunge orientation matrices (N, 3, 3), ``v_crystal = g @ v_sample``.
     weights
         Non-negative weight of each orientation (area, volume, or 1 per grain), shape (N,).
     fraction
         Volume fraction of the phase in the rock.
+    variants
+        Crystal-frame rotations (3, 3) to twin variants standing in equal parts with the crystal.
     """
 
     stiffness_gpa: np.ndarray
@@ -311,7 +317,7 @@ def _orientations_and_weights(g: np.ndarray, weights: np.ndarray) -> tuple[np.nd
     return g, w
 
 
-def average_tensors(phases: Sequence[PhaseOrientations]) -> dict[str, np.ndarray]:
+def average_tensors(phases: Sequence[PhaseTensors]) -> dict[str, np.ndarray]:
     """The four averages of an aggregate of one or more phases, as 6x6 Voigt stiffnesses in GPa.
 
     * ``voigt``: volume-weighted mean stiffness (Voigt 1928);

@@ -1,7 +1,9 @@
 """Field comparison figures: data against predictions, the misfit surface, predicted fast directions.
 
 Every figure of a fit carries its verdicts (foliation, sense of the lineation) and, in red, the
-reasons a fit is poor (``poor_fit_reasons`` of ``field.fit_station``).
+reasons a fit is poor (``poor_fit_reasons`` of ``waves.field.fit_station``). The figures draw
+what ``waves.field.fit_field`` computed (a ``StationFit``: measurements, model, coarse grid,
+predicted curve) and solve nothing themselves.
 """
 
 from __future__ import annotations
@@ -39,24 +41,28 @@ def poor_fit_note(fig, model: dict) -> None:
                  bbox={"boxstyle": "round", "facecolor": "mistyrose", "edgecolor": "darkred"})
 
 
-def data_and_predictions(stem, sample: str, station: str, data, curve: dict) -> list[str]:
+def data_and_predictions(stem, fit) -> list[str]:
+    """Measured fast azimuths and delays against back-azimuth, with the best model's predicted curve.
+
+    ``fit`` is a ``waves.field.StationFit``; returns the files written (``stem`` .png and .pdf).
+    """
+    sample, station, data, m = fit.sample, fit.station, fit.measurements, fit.model
     fig, (ax1, ax2) = plt.subplots(2, 1, figsize=(6.5, 5.6), sharex=True)
     ok = ~data["null"].to_numpy(bool)
     ax1.errorbar(data["baz_deg"][ok], data["fast_azimuth_deg"][ok] % 180, yerr=data["fast_azimuth_err_deg"][ok],
                  fmt="o", ms=4, color="black", capsize=2, label="measured")
     if (~ok).any():
         ax1.plot(data["baz_deg"][~ok], np.full((~ok).sum(), 5.0), "x", color="tab:red", label="null (back-azimuth)")
-    ax1.plot(curve["baz"], curve["fast"], ".", ms=2, color="tab:blue", label="predicted")
+    ax1.plot(fit.curve_back_azimuth_deg, fit.curve_fast_azimuth_deg, ".", ms=2, color="tab:blue", label="predicted")
     ax1.set_ylim(0, 180)
     ax1.set_ylabel("fast azimuth (deg from N)")
     ax1.legend(fontsize=7)
     ax2.errorbar(data["baz_deg"][ok], data["delay_s"][ok], yerr=data["delay_err_s"][ok], fmt="o", ms=4,
                  color="black", capsize=2)
-    ax2.plot(curve["baz"], curve["delay"], ".", ms=2, color="tab:blue")
+    ax2.plot(fit.curve_back_azimuth_deg, fit.curve_delay_s, ".", ms=2, color="tab:blue")
     ax2.set_ylabel("delay time (s)")
     ax2.set_xlabel("back-azimuth (deg)")
     ax2.set_xticks(np.arange(0, 361, 45))
-    m = curve["model"]
     fig.suptitle(f"{sample} at station {station}: best layer {_interval_text(m)}\n{_verdict_text(m)}", fontsize=8)
     fig.tight_layout(rect=(0, 0.06 if m.get("poor_fit") else 0, 1, 1))
     poor_fit_note(fig, m)
@@ -72,9 +78,13 @@ def _error_bars(model: dict) -> tuple[list | None, list | None]:
     return xerr, yerr
 
 
-def misfit_surface(stem, sample: str, station: str, grid: dict, model: dict) -> list[str]:
+def misfit_surface(stem, fit) -> list[str]:
     """Chi-square above the best fit over the coarse grid of the best attitude (log colour scale), the
-    best fit of each sense of the lineation and the 68 % intervals as error bars."""
+    best fit of each sense of the lineation and the 68 % intervals as error bars.
+
+    ``fit`` is a ``waves.field.StationFit``; returns the files written (``stem`` .png and .pdf).
+    """
+    sample, station, grid, model = fit.sample, fit.station, fit.grid, fit.model
     a = grid["attitudes"].index(model["foliation"])
     above = np.clip(grid["chi_square"][a] - grid["best_chi_square"], 0.0, None)
     fig, ax = plt.subplots(figsize=(6.5, 4.4))
@@ -106,6 +116,7 @@ def misfit_surface(stem, sample: str, station: str, grid: dict, model: dict) -> 
 
 
 def fast_direction_rose(stem, predictions) -> list[str]:
+    """Rose diagrams of measured and predicted fast azimuths, one per station (the predictions table)."""
     stations = sorted(set(predictions["station"]))
     fig, axes = plt.subplots(1, len(stations), subplot_kw={"projection": "polar"},
                              figsize=(3.0 * len(stations), 3.2), squeeze=False)

@@ -6,8 +6,8 @@ from __future__ import annotations
 import numpy as np
 
 from fabric2seis import fabric
+from fabric2seis.elastic.minerals import crystal_direction
 from fabric2seis.figures.projection import disk_grid, frame_axes, plt, save
-from fabric2seis.synth import crystal_direction
 
 
 def pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_deg: float, weighting: str) -> list[str]:

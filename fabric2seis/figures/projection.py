@@ -7,8 +7,8 @@ vector with y < 0 is replaced by its opposite. The primitive circle has radius 1
 
 from __future__ import annotations
 
-import numpy as np
 import matplotlib
+import numpy as np
 
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
@@ -22,7 +22,7 @@ def project(v: np.ndarray) -> np.ndarray:
     return np.stack([v[..., 0] * scale, v[..., 2] * scale], axis=-1)
 
 
-def disk_grid(n: int = 161) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def disk_grid(n: int = 161) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """A square grid of screen points, their directions (y >= 0) and a mask of the unit disk."""
     s = np.linspace(-1.0, 1.0, n)
     a, b = np.meshgrid(s, s)

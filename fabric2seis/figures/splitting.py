@@ -8,6 +8,12 @@ from fabric2seis.figures.projection import plt, save
 
 
 def splitting_figure(stem, sample_name: str, sweep: dict, summary: dict) -> list[str]:
+    """Fast azimuth and delay against back-azimuth as ``waves.splitting.field_summary`` computed them.
+
+    ``sweep``: ``back_azimuth_deg``, ``fast_azimuth_deg``, ``delay_s`` (arrays (B,)); ``summary``:
+    the vertical-incidence values and placement drawn as reference lines and title. Returns the
+    files written (``stem`` .png and .pdf); nothing is computed here.
+    """
     fig, (ax1, ax2) = plt.subplots(2, 1, figsize=(6.0, 5.0), sharex=True)
     baz = sweep["back_azimuth_deg"]
     ax1.plot(baz, sweep["fast_azimuth_deg"], "o", ms=3, color="tab:blue")

@@ -1,4 +1,4 @@
-"""Apparent splitting of a stack of layers against back-azimuth."""
+"""Apparent splitting of a stack of layers against back-azimuth, drawn from a ``waves.stack.StackSweep``."""
 
 from __future__ import annotations
 
@@ -14,18 +14,19 @@ def _broken_at_wraps(baz: np.ndarray, fast: np.ndarray) -> tuple[np.ndarray, np.
     return np.insert(baz.astype(float), jumps, np.nan), np.insert(fast.astype(float), jumps, np.nan)
 
 
-def stack_figure(stem, stack: dict, table, nulls: list[dict], data=None) -> list[str]:
+def stack_figure(stem, sweep) -> list[str]:
     """Fast azimuth and delay against back-azimuth: analytic (line), waveform-measured (points),
-    predicted nulls (vertical lines), measurements with their errors if given."""
-    from fabric2seis.waves import layers
+    predicted nulls (vertical lines), measurements with their errors if given.
 
+    ``sweep`` is a ``waves.stack.StackSweep``: the figure draws its fine analytic curve, table,
+    nulls and measurements; returns the files written (``stem`` .png and .pdf).
+    """
+    stack, table, nulls, data = sweep.stack, sweep.table, sweep.nulls, sweep.measurements
     fig, (ax1, ax2) = plt.subplots(2, 1, figsize=(6.5, 5.4), sharex=True)
-    fine = np.arange(0.0, 360.0, 0.5)
-    fast, delay = layers.layer_splitting(stack["layers"], fine, stack["incidence_deg"])
-    curve = layers.apparent_splitting(fast, delay, fine, stack["period_s"], undefined_below=layers.NULL_TRANSVERSE_FRACTION)
-    ax1.plot(*_broken_at_wraps(fine, curve["fast_azimuth_deg"]), color="tab:blue", lw=1.2,
+    fine, fine_fast, fine_delay = sweep.fine_back_azimuth_deg, sweep.fine_fast_azimuth_deg, sweep.fine_delay_s
+    ax1.plot(*_broken_at_wraps(fine, fine_fast), color="tab:blue", lw=1.2,
              label=f"analytic, {stack['period_s']:g} s")
-    ax2.plot(fine, curve["delay_s"], color="tab:blue", lw=1.2)
+    ax2.plot(fine, fine_delay, color="tab:blue", lw=1.2)
     ax1.plot(table["back_azimuth_deg"], table["waveform_fast_azimuth_deg"], "o", ms=3.5, mfc="none",
              color="tab:orange", label="synthetic waveform, measured")
     ax2.plot(table["back_azimuth_deg"], table["waveform_delay_s"], "o", ms=3.5, mfc="none", color="tab:orange")
@@ -47,7 +48,7 @@ def stack_figure(stem, stack: dict, table, nulls: list[dict], data=None) -> list
     ax1.set_ylim(0, 180)
     ax1.set_yticks([0, 45, 90, 135, 180])
     ax1.set_ylabel("apparent fast azimuth\n(deg from N)")
-    top = np.nanmax(np.r_[curve["delay_s"], table["waveform_delay_s"], 0.1])
+    top = np.nanmax(np.r_[fine_delay, table["waveform_delay_s"], 0.1])
     ax2.set_ylim(0, top * 1.15)
     ax2.set_ylabel("apparent delay time (s)")
     ax2.set_xlabel("back-azimuth = initial polarisation (deg)")

@@ -61,7 +61,8 @@ def shape_triangle(ax, ok, colours) -> None:
     for _, row in ok.iterrows():
         main = row.get("uncertainty.main_phase")
         if not isinstance(main, str):
-            main = next((c.split(".")[1] for c in row.index if c.startswith("phases.") and c.endswith(".fraction")), None)
+            main = next((c.split(".")[1] for c in row.index
+                         if c.startswith("phases.") and c.endswith(".fraction")), None)
         prefix = f"phases.{main}.vollmer."
         poles = list(dict.fromkeys(c[len(prefix):].rsplit(".", 1)[0] for c in row.index if c.startswith(prefix)))
         for k, pole in enumerate(poles):

@@ -120,7 +120,7 @@ def grain_statistics(label, x, y, quat, mineral_index, minerals, pixel_area, ste
             sym = proper_symmetry_quaternions(m.symmetry)
             aligned[sel] = nearest_equivalent(quat[sel], quat[first][label[sel]], sym)
     mean = np.stack([np.bincount(label, weights=aligned[:, c], minlength=g) for c in range(4)], axis=1)
-    mean /= np.linalg.norm(mean, axis=1, keepdims=True)
+    mean = mean / np.linalg.norm(mean, axis=1, keepdims=True)
     count = np.bincount(label, minlength=g)
     cx = np.bincount(label, weights=x, minlength=g) / count
     cy = np.bincount(label, weights=y, minlength=g) / count

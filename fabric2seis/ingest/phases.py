@@ -5,11 +5,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from orix.quaternion import symmetry as orix_symmetry
 
+from fabric2seis.elastic.minerals import POINT_GROUPS, Mineral, find_mineral, load_library
 from fabric2seis.errors import InputError
 from fabric2seis.ingest.io.record import EBSDData
-from fabric2seis.elastic.minerals import Mineral, find_mineral, load_library
 
 #: quality measure used by ``clean.quality_min`` when ``clean.quality_field`` is not set
 DEFAULT_QUALITY = ("ci", "bc", "quality")
@@ -62,8 +61,7 @@ def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
                              f"'phases' to library names: {', '.join(sorted(library))}", data.source) from None
         file_group = data.phase_point_groups.get(pid)
         if file_group:
-            groups = {g.name: g for g in orix_symmetry._groups}
-            file_laue = groups[file_group].laue.name if file_group in groups else None
+            file_laue = POINT_GROUPS[file_group].laue.name if file_group in POINT_GROUPS else None
             if file_laue is not None and file_laue != mineral.symmetry.laue.name:
                 raise InputError(f"phase '{name}' has point group {file_group} (Laue class {file_laue}) in "
                                  f"the file, but library mineral '{mineral.name}' is {mineral.point_group} "
@@ -94,9 +92,9 @@ def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_mi
         if not keep.any():
             raise InputError(f"no point passes clean.quality_min = {quality_min} on '{field}'",
                              data.source, "key clean.quality_min")
-    minerals = []
-    index_of = {}
-    for pid, m in phase_minerals.items():
+    minerals: list = []
+    index_of: dict[str, int] = {}
+    for m in phase_minerals.values():
         if m.name not in index_of:
             index_of[m.name] = len(minerals)
             minerals.append(m)

@@ -1,5 +1,11 @@
 """Comparison of predicted splitting with field measurements, and the fit of a layer to them.
 
+This module computes only: ``read_measurements`` and ``read_result`` read the inputs,
+``fit_station`` fits one sample to one station, and ``fit_field`` fits every sample to every
+station and returns a ``FieldFit`` holding every number, table and curve the outputs need.
+Writing the files and drawing the figures is ``fabric2seis.commands.run_field``'s work.
+Predictions come from the one splitting kernel, ``splitting.one_layer`` / ``splitting.ray_splitting``.
+
 For each sample (a results folder) and each station, the layer's thickness L, the azimuth of the
 lineation (horizontal) and the foliation attitude (horizontal, or vertical and striking along the
 lineation) are fitted to the measured splitting by minimising
@@ -63,10 +69,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from fabric2seis.waves import splitting
-from fabric2seis import waves
 from fabric2seis.errors import InputError
-from fabric2seis.folders import check_destination, folder_written_whole
+from fabric2seis.waves import splitting
 
 REQUIRED = ("station", "baz_deg", "fast_azimuth_deg", "delay_s")
 DEFAULT_AZIMUTH_ERR_DEG = 10.0
@@ -113,9 +117,11 @@ def read_measurements(path: str | Path) -> pd.DataFrame:
                 raise InputError(f"{column} = {values.iloc[row]} {what}", path, f"line {row + 2}, column {column}")
     table["null"] = table["null"].astype(str).str.strip().str.lower().isin(["true", "1", "yes"]) \
         if "null" in table.columns else False
-    table["fast_azimuth_err_deg"] = table.get("fast_azimuth_err_deg", pd.Series(np.nan, index=table.index)).fillna(DEFAULT_AZIMUTH_ERR_DEG)
+    table["fast_azimuth_err_deg"] = table.get("fast_azimuth_err_deg", pd.Series(np.nan, index=table.index)) \
+        .fillna(DEFAULT_AZIMUTH_ERR_DEG)
     table["delay_err_s"] = table.get("delay_err_s", pd.Series(np.nan, index=table.index)).fillna(DEFAULT_DELAY_ERR_S)
-    table["incidence_deg"] = table.get("incidence_deg", pd.Series(np.nan, index=table.index)).fillna(splitting.SKS_INCIDENCE_DEG)
+    table["incidence_deg"] = table.get("incidence_deg", pd.Series(np.nan, index=table.index)) \
+        .fillna(splitting.SKS_INCIDENCE_DEG)
     table["station"] = table["station"].astype(str)
     return table
 
@@ -147,38 +153,80 @@ def read_result(folder: str | Path) -> SampleTensor:
     return SampleTensor(summary["sample"], c, float(stiff["density_kg_m3"]), prov["settings"].get("field"), interval)
 
 
-def _attitude_field(attitude: str, azimuth_deg: float) -> dict:
+ATTITUDES = ("horizontal", "vertical")
+FIXABLE = {"thickness", "azimuth", "foliation"}
+CURVE_STEP_DEG = 2.0
+
+
+def attitude_field(attitude: str, azimuth_deg: float) -> dict:
+    """Field settings of a trial layer: the lineation trending ``azimuth_deg`` (degrees from north)
+    in a horizontal foliation, or along the strike of a vertical one (``attitude``)."""
+    if attitude not in ATTITUDES:
+        raise ValueError(f"attitude must be one of {ATTITUDES}, got {attitude!r}")
     if attitude == "horizontal":
         return {"foliation_strike_deg": 0.0, "foliation_dip_deg": 0.0, "lineation_trend_deg": azimuth_deg % 360,
                 "lineation_plunge_deg": 0.0}
     return {"foliation_strike_deg": azimuth_deg % 360, "foliation_dip_deg": 90.0, "lineation_pitch_deg": 0.0}
 
 
-def _axial_difference(a, b):
-    return (np.asarray(a) - np.asarray(b) + 90.0) % 180.0 - 90.0
+_attitude_field = attitude_field      # the former private name (demo_samples/generate.py uses it)
 
 
-def predict_many(c_list: list[np.ndarray], density: float, baz, incidence):
-    """Fast azimuth (deg) and delay per km (s/km) for every tensor (T) and ray (M): arrays (T, M)."""
-    n = splitting.ray_direction(baz, incidence)
-    fast, per_km = [], []
-    for c in c_list:
-        w = waves.plane_waves(c, density, n)
-        p = w.polarisations[:, 1]
-        fast.append(np.degrees(np.arctan2(p[:, 1], p[:, 0])) % 180.0)
-        per_km.append((1.0 / np.abs(n[:, 2])) * (1.0 / w.vs2_km_s - 1.0 / w.vs1_km_s))
-    return np.array(fast), np.array(per_km)
+def predict_many(c_list: list[np.ndarray], density: float, baz, incidence) -> tuple[np.ndarray, np.ndarray]:
+    """Fast azimuth and delay per km of layer for every tensor and ray (``splitting.one_layer``).
+
+    Parameters
+    ----------
+    c_list : list of numpy.ndarray
+        T Voigt stiffnesses (6, 6) in GPa, north-east-down.
+    density : float
+        Density, kg/m^3.
+    baz, incidence : array_like
+        M back-azimuths and incidences (degrees; incidence in [0, 90)), of equal length or one a
+        single value.
+
+    Returns
+    -------
+    fast : numpy.ndarray
+        Fast azimuths (T, M), degrees from north in [0, 180).
+    per_km : numpy.ndarray
+        Delay per km of layer thickness (T, M), s/km.
+    """
+    out = [splitting.one_layer(c, density, 1.0, baz, incidence) for c in c_list]
+    return np.array([o["fast_azimuth_deg"] for o in out]), np.array([o["delay_s"] for o in out])
 
 
-def predict_turned(c_geographic: np.ndarray, density: float, turns_deg, baz, incidence):
-    """``predict_many`` for the tensor turned clockwise (seen from above) by each of ``turns_deg`` (A).
+def predict_turned(c_geographic: np.ndarray, density: float, turns_deg, baz,
+                   incidence) -> tuple[np.ndarray, np.ndarray]:
+    """``predict_many`` for the tensor turned clockwise (seen from above) by each of ``turns_deg``.
 
     Turning the tensor by a about the vertical splits a ray as the unturned tensor splits the ray
     from back-azimuth baz - a, with the fast azimuth turned by +a: one Christoffel solution for all
-    A x M rays instead of A tensors. Returns fast azimuth (deg, 0-180) and delay per km, (A, M).
+    A x M rays instead of A tensors.
+
+    Parameters
+    ----------
+    c_geographic : numpy.ndarray
+        Voigt stiffness (6, 6) in GPa, north-east-down, unturned.
+    density : float
+        Density, kg/m^3.
+    turns_deg : array_like
+        A turns, degrees clockwise seen from above.
+    baz, incidence : array_like
+        M back-azimuths and incidences, degrees, broadcast together.
+
+    Returns
+    -------
+    fast : numpy.ndarray
+        Fast azimuths (A, M), degrees in [0, 180).
+    per_km : numpy.ndarray
+        Delay per km of layer thickness (A, M), s/km.
     """
-    turns = np.asarray(turns_deg, float)
-    baz, incidence = np.broadcast_arrays(np.asarray(baz, float), np.asarray(incidence, float))
+    turns = np.atleast_1d(np.asarray(turns_deg, float))
+    if turns.ndim != 1:
+        raise ValueError(f"turns_deg must be one-dimensional, got shape {turns.shape}")
+    baz, incidence = splitting.broadcast_rays(baz, incidence)
+    baz, incidence = np.atleast_1d(baz), np.atleast_1d(incidence)
     shifted = (baz[None, :] - turns[:, None]) % 360.0
     fast, per_km = predict_many([c_geographic], density, shifted.ravel(),
                                 np.broadcast_to(incidence, shifted.shape).ravel())
@@ -213,9 +261,9 @@ class _Observed:
 def _angle_terms(fast: np.ndarray, obs: _Observed) -> np.ndarray:
     """Squared normalised angle residuals (..., M): fast azimuth, or for a null the angle to the
     back-azimuth or its normal."""
-    r_fast = _axial_difference(fast, obs.fast) / obs.err_fast
-    r_null = np.minimum(np.abs(_axial_difference(fast, obs.baz)),
-                        np.abs(_axial_difference(fast, obs.baz + 90.0))) / obs.err_fast
+    r_fast = splitting.axial_difference(fast, obs.fast) / obs.err_fast
+    r_null = np.minimum(np.abs(splitting.axial_difference(fast, obs.baz)),
+                        np.abs(splitting.axial_difference(fast, obs.baz + 90.0))) / obs.err_fast
     return np.where(obs.null, r_null, r_fast) ** 2
 
 
@@ -400,10 +448,10 @@ def _search_space(sample: SampleTensor, fixed: set[str], azimuth_step_deg: float
     own_rot = splitting.placement(own) if own else None
     own_azimuth = float(np.degrees(np.arctan2(own_rot[1, 0], own_rot[0, 0])) % 360) if own_rot is not None else 0.0
     azimuths = np.array([own_azimuth]) if "azimuth" in fixed else np.arange(0.0, 360.0, azimuth_step_deg)
-    attitudes = ["horizontal", "vertical"]
+    attitudes = list(ATTITUDES)
     if "foliation" in fixed:
         attitudes = ["horizontal" if float(own.get("foliation_dip_deg", 0.0)) < 45 else "vertical"]
-    base = {a: splitting.to_geographic(sample.stiffness, splitting.placement(_attitude_field(a, 0.0)))
+    base = {a: splitting.to_geographic(sample.stiffness, splitting.placement(attitude_field(a, 0.0)))
             for a in attitudes}
     return _Search(thick, azimuths, attitudes, base, set(fixed))
 
@@ -476,14 +524,70 @@ def _poor_fit_reasons(edge: bool, reduced: float | None, range_km: tuple[float, 
     return reasons
 
 
+def _check_fit_arguments(sample: SampleTensor, data: pd.DataFrame, fixed: set[str], azimuth_step_deg: float,
+                         thicknesses_km) -> None:
+    unknown = set(fixed) - FIXABLE
+    if unknown:
+        raise ValueError(f"fixed takes {', '.join(sorted(FIXABLE))}, not {', '.join(sorted(unknown))}")
+    if fixed and not sample.field:
+        raise ValueError(f"fixing {', '.join(sorted(fixed))} needs the sample's own field settings; "
+                         f"{sample.name} has none")
+    missing = [c for c in (*REQUIRED, "incidence_deg", "fast_azimuth_err_deg", "delay_err_s", "null")
+               if c not in data.columns]
+    if missing:
+        raise ValueError(f"data lacks the column(s) {', '.join(missing)} (read it with read_measurements)")
+    if len(data) == 0:
+        raise ValueError("data holds no measurements")
+    step = splitting.check_positive(azimuth_step_deg, "azimuth_step_deg")
+    if step > 90.0:
+        raise ValueError(f"azimuth_step_deg must be at most 90 degrees, got {step:g}")
+    if thicknesses_km is not None:
+        thick = np.atleast_1d(np.asarray(thicknesses_km, float))
+        if thick.ndim != 1 or len(thick) == 0 or not np.all(np.isfinite(thick)) or np.any(thick <= 0):
+            raise ValueError(f"thicknesses_km must be a non-empty list of positive km, got {thicknesses_km!r}")
+
+
 def fit_station(sample: SampleTensor, data: pd.DataFrame, fixed: set[str], azimuth_step_deg: float = 2.0,
                 thicknesses_km: np.ndarray | None = None) -> tuple[dict, dict]:
     """Fit one station: best model, chi-square, 68 % and 95 % profile intervals, verdicts, poor-fit flags.
 
-    Returns the model (the keys of ``field_fit.json``) and the coarse grid: ``chi_square`` and
-    ``misfit`` (chi-square / measurements) of shape (attitudes, trends, thicknesses) with
-    ``attitudes``, ``azimuths`` (trends, deg), ``thicknesses`` (km) and ``best_chi_square``.
+    Parameters
+    ----------
+    sample : SampleTensor
+        The sample's stiffness (structural frame), density and own field settings.
+    data : pandas.DataFrame
+        N measurements of one station, with the columns ``read_measurements`` returns
+        (``baz_deg``, ``incidence_deg``, ``fast_azimuth_deg``, ``delay_s``, their errors, ``null``).
+    fixed : set of str
+        Parameters held at the sample's own field settings: any of ``thickness``, ``azimuth``,
+        ``foliation`` (the sample must then have field settings).
+    azimuth_step_deg : float
+        Spacing of the coarse lineation trends, degrees, positive and at most 90 (default 2).
+    thicknesses_km : numpy.ndarray, optional
+        Coarse thicknesses, km, positive (default 50 from 10 to 300 km); its range is searched.
+
+    Returns
+    -------
+    model : dict
+        The keys of ``field_fit.json`` (thickness in km, azimuths in degrees, chi-square, intervals,
+        verdicts, poor-fit flags; module docstring).
+    grid : dict
+        The coarse grid: ``chi_square`` and ``misfit`` (chi-square / N), arrays (attitudes, trends,
+        thicknesses); ``attitudes`` (list), ``azimuths`` (trends, deg), ``thicknesses`` (km) and
+        ``best_chi_square``.
+
+    Raises
+    ------
+    ValueError
+        An unknown name in ``fixed``, no measurements, missing columns, a step or thickness that is
+        not positive, or ``fixed`` without the sample's own field settings.
+
+    References
+    ----------
+    Press, W. H. et al. (2007). Numerical Recipes, 3rd ed., section 15.6 (confidence limits from
+    delta chi-square; common practice).
     """
+    _check_fit_arguments(sample, data, fixed, azimuth_step_deg, thicknesses_km)
     search = _search_space(sample, fixed, azimuth_step_deg, thicknesses_km)
     obs = _Observed.of(data)
     chi_grid, coarse_profile = _coarse_grid(sample, search, obs)
@@ -546,13 +650,15 @@ def fit_station(sample: SampleTensor, data: pd.DataFrame, fixed: set[str], azimu
     return result, grid
 
 
-def _model_tensor(sample: SampleTensor, model: dict) -> np.ndarray:
-    field = _attitude_field(model["foliation"], model.get("lineation_trend_deg", model["lineation_azimuth_deg"]))
+def model_tensor(sample: SampleTensor, model: dict) -> np.ndarray:
+    """The sample's stiffness (6, 6, GPa) placed as a fitted model places it, north-east-down."""
+    field = attitude_field(model["foliation"], model.get("lineation_trend_deg", model["lineation_azimuth_deg"]))
     return splitting.to_geographic(sample.stiffness, splitting.placement(field))
 
 
 def predictions_table(sample: SampleTensor, data: pd.DataFrame, model: dict) -> pd.DataFrame:
-    fast, per_km = predict_many([_model_tensor(sample, model)], sample.density_kg_m3, data["baz_deg"].to_numpy(float),
+    """Observed and predicted splitting with residuals, one row per measurement (predictions.csv)."""
+    fast, per_km = predict_many([model_tensor(sample, model)], sample.density_kg_m3, data["baz_deg"].to_numpy(float),
                                 data["incidence_deg"].to_numpy(float))
     pred_delay = per_km[0] * model["thickness_km"]
     return pd.DataFrame({
@@ -560,56 +666,111 @@ def predictions_table(sample: SampleTensor, data: pd.DataFrame, model: dict) -> 
         "incidence_deg": data["incidence_deg"].to_numpy(), "null": data["null"].to_numpy(),
         "observed_fast_azimuth_deg": data["fast_azimuth_deg"].to_numpy(),
         "predicted_fast_azimuth_deg": fast[0].round(3),
-        "fast_azimuth_residual_deg": _axial_difference(data["fast_azimuth_deg"].to_numpy(), fast[0]).round(3),
+        "fast_azimuth_residual_deg": splitting.axial_difference(data["fast_azimuth_deg"].to_numpy(), fast[0]).round(3),
         "observed_delay_s": data["delay_s"].to_numpy(), "predicted_delay_s": pred_delay.round(4),
         "delay_residual_s": (data["delay_s"].to_numpy() - pred_delay).round(4),
     })
 
 
-def run_field(result_dirs: list[str | Path], measurements: str | Path, out_dir: str | Path | None = None,
-              fixed: set[str] | None = None, results_root: str | Path | None = "results") -> Path:
-    """``fabric2seis field``: fit every sample to every station; outputs written whole or not at all.
+@dataclass
+class StationFit:
+    """One sample fitted to one station: every number, table and curve its outputs show.
 
-    The destination is checked before any work (``outputs.check_destination``): never the results
-    root, a folder holding an input, or a folder fabric2seis did not write.
+    ``measurements``: the station's rows (``read_measurements`` columns); ``model`` and ``grid``:
+    what ``fit_station`` returns; ``predictions``: ``predictions_table`` rows; the curve: the
+    best model's fast azimuth (deg) and delay (s) at SKS incidence for back-azimuths every
+    ``CURVE_STEP_DEG`` (arrays (B,)).
     """
-    from fabric2seis.figures.field import data_and_predictions, fast_direction_rose, misfit_surface
 
-    fixed = set(fixed or ())
-    unknown = fixed - {"thickness", "azimuth", "foliation"}
-    if unknown:
-        raise InputError(f"--fix takes thickness, azimuth or foliation, not {', '.join(sorted(unknown))}")
-    out = Path(out_dir) if out_dir else Path("results") / "field"
-    inputs = [*result_dirs, measurements]
-    check_destination(out, "field", inputs, results_root)
-    data = read_measurements(measurements)
-    samples = [read_result(d) for d in result_dirs]
-    for s in samples:
-        if fixed and not s.field:
-            raise InputError("--fix needs the sample's own field settings, which it has none of", s.name, "key field")
-    with folder_written_whole(out, "field", inputs, results_root) as tmp:
-        fits, tables = {}, []
-        for s in samples:
-            fits[s.name] = {}
-            for station, rows in data.groupby("station", sort=True):
-                model, grid = fit_station(s, rows, fixed)
-                fits[s.name][station] = model
-                table = predictions_table(s, rows, model)
-                tables.append(table)
-                baz = np.arange(0.0, 360.0, 2.0)
-                fast, per_km = predict_many([_model_tensor(s, model)], s.density_kg_m3, baz,
-                                            np.full_like(baz, splitting.SKS_INCIDENCE_DEG))
-                curve = {"baz": baz, "fast": fast[0], "delay": per_km[0] * model["thickness_km"], "model": model}
-                safe = "".join(ch if ch.isalnum() or ch in "-_" else "_" for ch in f"{s.name}_{station}")
-                data_and_predictions(tmp / f"splitting_{safe}", s.name, station, rows, curve)
-                misfit_surface(tmp / f"misfit_{safe}", s.name, station, grid, model)
-        predictions = pd.concat(tables, ignore_index=True)
-        predictions.to_csv(tmp / "predictions.csv", index=False)
-        fast_direction_rose(tmp / "fast_directions", predictions)
-        poor = [f"{name} at {station}: {fit['warning']}" for name, stations in fits.items()
+    sample: str
+    station: str
+    measurements: pd.DataFrame
+    model: dict
+    grid: dict
+    predictions: pd.DataFrame
+    curve_back_azimuth_deg: np.ndarray
+    curve_fast_azimuth_deg: np.ndarray
+    curve_delay_s: np.ndarray
+
+    @property
+    def file_stem(self) -> str:
+        """``<sample>_<station>`` with every character but letters, digits, - and _ replaced by _."""
+        return "".join(ch if ch.isalnum() or ch in "-_" else "_" for ch in f"{self.sample}_{self.station}")
+
+
+@dataclass
+class FieldFit:
+    """Every sample fitted to every station (``fit_field``), in the order samples x sorted stations."""
+
+    measurements_file: str
+    stations: list[StationFit]
+
+    @property
+    def fits(self) -> dict[str, dict[str, dict]]:
+        """The models by sample and station (``fits`` of field_fit.json)."""
+        out: dict[str, dict[str, dict]] = {}
+        for one in self.stations:
+            out.setdefault(one.sample, {})[one.station] = one.model
+        return out
+
+    @property
+    def predictions(self) -> pd.DataFrame:
+        """Every station's predictions table, one after the other (predictions.csv)."""
+        return pd.concat([one.predictions for one in self.stations], ignore_index=True)
+
+    @property
+    def poor_fits(self) -> list[str]:
+        """One line per poor fit: sample, station and the reasons."""
+        return [f"{name} at {station}: {fit['warning']}" for name, stations in self.fits.items()
                 for station, fit in stations.items() if fit["poor_fit"]]
-        (tmp / "field_fit.json").write_text(json.dumps({
-            "fits": fits, "measurements": str(measurements), "chi_square_definition": CHI_SQUARE_DEFINITION,
-            "interval_definition": INTERVAL_DEFINITION, "thresholds": THRESHOLDS, "poor_fits": poor,
-            "cautions": CAUTIONS}, indent=2) + "\n")
-    return out
+
+    @property
+    def cautions(self) -> list[str]:
+        """What a user must be told: the assumptions of the prediction, then every poor fit."""
+        return [CAUTIONS, *(f"poor fit: {poor}" for poor in self.poor_fits)]
+
+    def record(self) -> dict:
+        """The content of field_fit.json."""
+        return {"fits": self.fits, "measurements": self.measurements_file,
+                "chi_square_definition": CHI_SQUARE_DEFINITION, "interval_definition": INTERVAL_DEFINITION,
+                "thresholds": THRESHOLDS, "poor_fits": self.poor_fits, "cautions": CAUTIONS}
+
+
+def fit_field(samples: list[SampleTensor], data: pd.DataFrame, fixed: set[str] | None = None,
+              measurements_file: str = "") -> FieldFit:
+    """Fit every sample to every station's measurements (``fit_station``) and predict the curves.
+
+    Parameters
+    ----------
+    samples : list of SampleTensor
+        The samples (``read_result``), at least one.
+    data : pandas.DataFrame
+        All measurements (``read_measurements``), grouped here by ``station`` (sorted).
+    fixed : set of str, optional
+        Parameters held at each sample's own field settings (``fit_station``).
+    measurements_file : str
+        Where the measurements came from, for the record.
+
+    Returns
+    -------
+    FieldFit
+        One ``StationFit`` per sample and station, samples in the order given.
+
+    Raises
+    ------
+    ValueError
+        No samples, or what ``fit_station`` refuses.
+    """
+    fixed = set(fixed or ())
+    if not samples:
+        raise ValueError("fit_field needs at least one sample")
+    stations = []
+    for sample in samples:
+        for station, rows in data.groupby("station", sort=True):
+            model, grid = fit_station(sample, rows, fixed)
+            baz = np.arange(0.0, 360.0, CURVE_STEP_DEG)
+            fast, per_km = predict_many([model_tensor(sample, model)], sample.density_kg_m3, baz,
+                                        np.full_like(baz, splitting.SKS_INCIDENCE_DEG))
+            stations.append(StationFit(sample.name, station, rows, model, grid, predictions_table(sample, rows, model),
+                                       baz, fast[0], per_km[0] * model["thickness_km"]))
+    return FieldFit(str(measurements_file), stations)

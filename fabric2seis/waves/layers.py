@@ -37,8 +37,9 @@ and the one layer (a', theta') that removes the transverse component exactly at 
 (Silver & Savage 1994, their two-layer expressions; written here as derived from the operator
 above, notation from memory). The two forms of tan theta' are combined as
 (c_p^2 + c_pp^2) / (c_pp d1 + c_p d2), d1 and d2 their denominators, because each alone is 0/0
-where the other is not (c_pp = 0, e.g. two layers of equal delay symmetric about p). Apparent fast azimuth phi' = p + a' (0-180), apparent delay
-dt' = 2 theta' / w, taken with theta' in [0, pi/2) (the delay is ambiguous by whole periods).
+where the other is not (c_pp = 0, e.g. two layers of equal delay symmetric about p). Apparent fast
+azimuth phi' = p + a' (0-180), apparent delay dt' = 2 theta' / w, taken with theta' in [0, pi/2)
+(the delay is ambiguous by whole periods).
 For n layers the same coefficients are read from the product operator (``apparent_splitting``),
 which solves the same condition by another route: with w = radial / transverse,
 cot 2a' = Re w and tan theta' = -1 / (Im w sin 2a'). Both give a 90-degree period in p (Silver &
@@ -71,6 +72,11 @@ S = sin 2alpha, the corrected transverse energy is, by Parseval,
 
 so the whole grid needs only the sums over frequency of |T|^2, |R|^2, Re X, Im X weighted by
 cos(w dt) and sin(w dt), one matrix product, then a broadcast over the trial azimuths.
+
+The one-layer splitting of a sample layer comes from ``splitting.one_layer`` (the one kernel,
+``splitting.ray_splitting``). Public functions check their arguments early and raise
+``ValueError`` naming the argument (a period that is not positive, layer arrays of mismatched
+shapes, records of different lengths).
 """
 
 from __future__ import annotations
@@ -89,8 +95,59 @@ DELAY_STEP_S = 0.05
 MAX_DELAY_S = 4.0
 
 
+def _positive(value, name: str) -> float:
+    return splitting.check_positive(value, name)
+
+
+def _layer_arrays(fast_azimuth_deg, delay_s) -> tuple[np.ndarray, np.ndarray]:
+    """Fast azimuths and delays as float arrays of one shape, the layer first; delays not negative."""
+    fast, delay = np.asarray(fast_azimuth_deg, float), np.asarray(delay_s, float)
+    if fast.shape != delay.shape:
+        raise ValueError(f"fast_azimuth_deg (shape {fast.shape}) and delay_s (shape {delay.shape}) must have "
+                         "the same shape: one value per layer (and per ray)")
+    if fast.ndim == 0 or len(fast) == 0:
+        raise ValueError("give at least one layer: fast_azimuth_deg and delay_s with the layer on the first axis")
+    if not (np.all(np.isfinite(fast)) and np.all(np.isfinite(delay))):
+        raise ValueError("fast_azimuth_deg and delay_s must be finite numbers")
+    if np.any(delay < 0):
+        raise ValueError(f"delay_s must not be negative, got {delay.min():g}")
+    return fast, delay
+
+
+def _broadcastable(name_a: str, a, name_b: str, b) -> None:
+    try:
+        np.broadcast_shapes(np.shape(a), np.shape(b))
+    except ValueError:
+        raise ValueError(f"{name_a} (shape {np.shape(a)}) and {name_b} (shape {np.shape(b)}) do not match: "
+                         "give one value per ray, or a single value") from None
+
+
 def splitting_operators(fast_azimuth_deg, delay_s, angular_frequency) -> np.ndarray:
-    """G(phi, dt) at angular frequency w (rad/s): shape broadcast(phi, dt, w) + (2, 2), complex."""
+    """The splitting operator G(phi, dt) of one layer at angular frequency w (module docstring).
+
+    Parameters
+    ----------
+    fast_azimuth_deg : array_like
+        Fast azimuths, degrees from north.
+    delay_s : array_like
+        Delays, seconds, not negative.
+    angular_frequency : array_like
+        Angular frequencies w, rad/s.
+
+    Returns
+    -------
+    numpy.ndarray
+        Complex operators, shape broadcast(phi, dt, w) + (2, 2), acting on (north, east) spectra.
+
+    References
+    ----------
+    Silver, P. G. & Savage, M. K. (1994). Geophys. J. Int. 119, 949-963.
+    """
+    try:
+        np.broadcast_shapes(np.shape(fast_azimuth_deg), np.shape(delay_s), np.shape(angular_frequency))
+    except ValueError:
+        raise ValueError(f"fast_azimuth_deg {np.shape(fast_azimuth_deg)}, delay_s {np.shape(delay_s)} and "
+                         f"angular_frequency {np.shape(angular_frequency)} must broadcast together") from None
     phi = np.radians(np.asarray(fast_azimuth_deg, dtype=float))
     theta = np.asarray(angular_frequency, dtype=float) * np.asarray(delay_s, dtype=float) / 2.0
     phi, theta = np.broadcast_arrays(phi, theta)
@@ -101,8 +158,8 @@ def splitting_operators(fast_azimuth_deg, delay_s, angular_frequency) -> np.ndar
 
 def stack_operator(fast_azimuth_deg, delay_s, angular_frequency) -> np.ndarray:
     """Product G_n ... G_1 of a stack; the first axis of ``fast_azimuth_deg``/``delay_s`` is the layer
-    (bottom first), the others broadcast with ``angular_frequency``."""
-    fast, delay = np.asarray(fast_azimuth_deg, float), np.asarray(delay_s, float)
+    (bottom first), the others broadcast with ``angular_frequency``; complex, shape broadcast + (2, 2)."""
+    fast, delay = _layer_arrays(fast_azimuth_deg, delay_s)
     total = None
     for phi, dt in zip(fast, delay):
         g = splitting_operators(phi, dt, angular_frequency)
@@ -143,7 +200,33 @@ def apparent_splitting(fast_azimuth_deg, delay_s, polarisation_deg, period_s: fl
     would record a null: outputs pass ``NULL_TRANSVERSE_FRACTION`` so that the apparent fast
     azimuth and delay are NaN (undefined) there; the default 0 keeps every value the ratio
     defines (for checks against the closed form).
+
+    Parameters
+    ----------
+    fast_azimuth_deg, delay_s : array_like
+        Layers' fast azimuths (degrees) and delays (s), shape (L, ...), bottom layer first.
+    polarisation_deg : array_like
+        Initial polarisation azimuths, degrees, broadcast with the trailing axes.
+    period_s : float
+        Dominant period, s, positive.
+    undefined_below : float
+        Transverse energy fraction below which the result is NaN, in [0, 1).
+
+    Returns
+    -------
+    dict
+        ``fast_azimuth_deg`` (degrees, 0-180), ``delay_s`` (s) and ``transverse_fraction`` (no
+        unit), each of shape broadcast(fast_azimuth_deg[0], polarisation_deg).
+
+    References
+    ----------
+    Silver, P. G. & Savage, M. K. (1994). Geophys. J. Int. 119, 949-963.
     """
+    period_s = _positive(period_s, "period_s")
+    if not 0.0 <= float(undefined_below) < 1.0:
+        raise ValueError(f"undefined_below must lie in [0, 1), got {undefined_below!r}")
+    fast, _ = _layer_arrays(fast_azimuth_deg, delay_s)
+    _broadcastable("fast_azimuth_deg without its layer axis", fast[0], "polarisation_deg", polarisation_deg)
     w = 2.0 * np.pi / period_s
     radial, transverse = _radial_transverse(stack_operator(fast_azimuth_deg, delay_s, w), polarisation_deg)
     fraction = np.abs(transverse) ** 2 / (np.abs(radial) ** 2 + np.abs(transverse) ** 2)
@@ -156,7 +239,17 @@ def apparent_splitting(fast_azimuth_deg, delay_s, polarisation_deg, period_s: fl
 
 def two_layer_closed_form(fast1_deg, delay1_s, fast2_deg, delay2_s, polarisation_deg,
                           period_s: float = DEFAULT_PERIOD_S) -> dict:
-    """Silver & Savage's (1994) explicit two-layer expressions (module docstring); layer 1 at the bottom."""
+    """Silver & Savage's (1994) explicit two-layer expressions (module docstring); layer 1 at the bottom.
+
+    Angles in degrees, delays in s, ``period_s`` positive; all arguments broadcast together.
+    Returns ``fast_azimuth_deg``, ``delay_s`` and ``transverse_fraction`` of the broadcast shape.
+    """
+    period_s = _positive(period_s, "period_s")
+    try:
+        np.broadcast_shapes(*(np.shape(v) for v in (fast1_deg, delay1_s, fast2_deg, delay2_s, polarisation_deg)))
+    except ValueError:
+        raise ValueError("the two layers' fast azimuths and delays and polarisation_deg must have matching "
+                         "lengths, or be single values") from None
     w = 2.0 * np.pi / period_s
     p = np.asarray(polarisation_deg, dtype=float)
     a1, a2 = np.radians(np.asarray(fast1_deg) - p), np.radians(np.asarray(fast2_deg) - p)
@@ -180,7 +273,17 @@ def predicted_nulls(fast_azimuth_deg, delay_s, period_s: float = DEFAULT_PERIOD_
     For constant layers give ``fast_azimuth_deg``/``delay_s`` of shape (L,); for layers that depend
     on the back-azimuth (inclined rays through sample layers) give a callable ``baz -> (fast, delay)``
     of shapes (L, B) as ``fast_azimuth_deg`` and leave ``delay_s`` None.
+
+    Returns a list of dicts: ``back_azimuth_deg``, ``transverse_fraction`` (no unit) and
+    ``fast_to_polarisation_deg`` (degrees, None where undefined). ``period_s`` and ``step_deg``
+    must be positive, ``threshold`` in (0, 1].
     """
+    _positive(period_s, "period_s")
+    step_deg = _positive(step_deg, "step_deg")
+    if not 0.0 < float(threshold) <= 1.0:
+        raise ValueError(f"threshold must lie in (0, 1], got {threshold!r}")
+    if not callable(fast_azimuth_deg):
+        _layer_arrays(fast_azimuth_deg, delay_s)
     baz = np.arange(0.0, 360.0, step_deg)
     if callable(fast_azimuth_deg):
         fast, delay = fast_azimuth_deg(baz)
@@ -205,8 +308,19 @@ def layer_splitting(layers: list, back_azimuth_deg, incidence_deg) -> tuple[np.n
     A layer is a dict with either ``fast_azimuth_deg`` and ``delay_s`` (taken as they are, for every
     ray), or ``stiffness_geographic`` (6x6, GPa, north-east-down), ``density_kg_m3`` and
     ``thickness_km`` (computed with ``splitting.one_layer`` per back-azimuth and incidence).
+    ``incidence_deg`` (degrees, in [0, 90)) is a single value or one per back-azimuth. Returns
+    fast azimuths (degrees) and delays (s), each (L, B).
     """
+    if not layers:
+        raise ValueError("layers must be a non-empty list of layers, bottom first")
+    for k, layer in enumerate(layers):
+        if not ("stiffness_geographic" in layer and {"density_kg_m3", "thickness_km"} <= set(layer)
+                or {"fast_azimuth_deg", "delay_s"} <= set(layer)):
+            raise ValueError(f"layer {k} needs fast_azimuth_deg and delay_s, or stiffness_geographic, "
+                             "density_kg_m3 and thickness_km")
     baz = np.atleast_1d(np.asarray(back_azimuth_deg, dtype=float))
+    _broadcastable("back_azimuth_deg", baz, "incidence_deg", incidence_deg)
+    splitting.check_incidence(incidence_deg, 90.0, upper_included=False)
     inc = np.broadcast_to(np.asarray(incidence_deg, dtype=float), baz.shape)
     fast, delay = np.empty((len(layers), baz.size)), np.empty((len(layers), baz.size))
     for k, layer in enumerate(layers):
@@ -233,9 +347,18 @@ def synthetic_records(fast_azimuth_deg, delay_s, back_azimuth_deg, period_s: flo
     """North and east records (B, n_samples) of a radially polarised pulse through the stack.
 
     ``fast_azimuth_deg``, ``delay_s``: (L, B), bottom layer first; every layer's operator is
-    applied at every FFT frequency (exact phase shifts).
+    applied at every FFT frequency (exact phase shifts). ``period_s`` and ``sampling_s`` positive,
+    ``n_samples`` at least 2.
     """
     baz = np.atleast_1d(np.asarray(back_azimuth_deg, dtype=float))
+    _positive(period_s, "period_s")
+    _positive(sampling_s, "sampling_s")
+    if int(n_samples) != n_samples or n_samples < 2:
+        raise ValueError(f"n_samples must be a whole number of at least 2, got {n_samples!r}")
+    fast_checked, _ = _layer_arrays(fast_azimuth_deg, delay_s)
+    if fast_checked.ndim != 2 or fast_checked.shape[1] != len(baz):
+        raise ValueError(f"fast_azimuth_deg and delay_s must have shape (layers, back-azimuths) = (L, {len(baz)}), "
+                         f"got {fast_checked.shape}")
     spectrum = np.fft.rfft(sks_pulse(period_s, sampling_s, n_samples))
     w = 2.0 * np.pi * np.fft.rfftfreq(n_samples, sampling_s)
     fast = np.asarray(fast_azimuth_deg, float)[:, :, None]                    # (L, B, 1)
@@ -252,8 +375,10 @@ def transverse_energy_grid(north: np.ndarray, east: np.ndarray, polarisation_deg
     """Transverse energy left after correcting every record (B, N) by every trial: array (B, F, D).
 
     The sum of the module docstring (Parseval over the real FFT), all trials at once.
+    ``north`` and ``east`` have the same shape; one polarisation (degrees) per record.
     """
-    north, east = np.atleast_2d(north), np.atleast_2d(east)
+    north, east = _records(north, east, polarisation_deg)
+    _positive(sampling_s, "sampling_s")
     n = north.shape[-1]
     p = np.radians(np.atleast_1d(np.asarray(polarisation_deg, dtype=float)))[:, None]
     radial = np.fft.rfft(north * np.cos(p) + east * np.sin(p))
@@ -278,9 +403,25 @@ def transverse_energy_grid(north: np.ndarray, east: np.ndarray, polarisation_deg
     return ((t0 + tc) / 2 + c ** 2 * (t0 - tc) / 2 + s ** 2 * (r0 - rc) / 2 - s * ys - c * s * (x0 - xc))
 
 
+def _records(north, east, polarisation_deg) -> tuple[np.ndarray, np.ndarray]:
+    north, east = np.atleast_2d(north), np.atleast_2d(east)
+    if north.shape != east.shape or north.ndim != 2:
+        raise ValueError(f"north (shape {north.shape}) and east (shape {east.shape}) must be records of the same "
+                         "shape (B, N)")
+    n_pol = np.atleast_1d(np.asarray(polarisation_deg, dtype=float)).size
+    if n_pol not in (1, north.shape[0]):
+        raise ValueError(f"polarisation_deg must give one value per record ({north.shape[0]}) or one for all, "
+                         f"got {n_pol}")
+    return north, east
+
+
 def measurement_grid(max_delay_s: float = MAX_DELAY_S, fast_step_deg: float = FAST_STEP_DEG,
                      delay_step_s: float = DELAY_STEP_S) -> tuple[np.ndarray, np.ndarray]:
-    """Trial fast azimuths (0 to 180, exclusive) and delays (0 to max_delay_s) of the grid search."""
+    """Trial fast azimuths (degrees, 0 to 180, exclusive) and delays (s, 0 to max_delay_s) of the grid
+    search; all three arguments positive."""
+    for value, name in ((max_delay_s, "max_delay_s"), (fast_step_deg, "fast_step_deg"),
+                        (delay_step_s, "delay_step_s")):
+        _positive(value, name)
     return (np.arange(0.0, 180.0, fast_step_deg),
             np.arange(0.0, max_delay_s + delay_step_s / 2, delay_step_s))
 
@@ -291,7 +432,28 @@ def measure_splitting(north, east, polarisation_deg, sampling_s: float = SAMPLIN
     """Fast azimuth (deg) and delay (s) minimising the transverse energy (Silver & Chan 1991), per record.
 
     Also the transverse energy fraction before correction and after the best correction.
+
+    Parameters
+    ----------
+    north, east : numpy.ndarray
+        Records (B, N) or (N,), of the same shape, sampled every ``sampling_s`` seconds.
+    polarisation_deg : array_like
+        Initial polarisation of each record (SKS: its back-azimuth), degrees.
+    sampling_s, max_delay_s, fast_step_deg, delay_step_s : float
+        Sampling interval (s) and the trial grid (``measurement_grid``); all positive.
+
+    Returns
+    -------
+    dict
+        ``fast_azimuth_deg`` (B,), degrees; ``delay_s`` (B,), seconds;
+        ``transverse_fraction_before`` and ``transverse_fraction_after`` (B,), no unit.
+
+    References
+    ----------
+    Silver, P. G. & Chan, W. W. (1991). Shear wave splitting and subcontinental mantle deformation.
+    J. Geophys. Res. 96, 16429-16454.
     """
+    _records(north, east, polarisation_deg)
     fast_grid, delay_grid = measurement_grid(max_delay_s, fast_step_deg, delay_step_s)
     energy = transverse_energy_grid(north, east, polarisation_deg, fast_grid, delay_grid, sampling_s)
     flat = energy.reshape(energy.shape[0], -1)

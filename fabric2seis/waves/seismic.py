@@ -73,7 +73,7 @@ def aggregate(orientation_sets, fractions: dict[str, float], average: str = "hil
         used[mineral.name] = c
         matrices[mineral.name] = elastic.crystal_kelvin_matrices(c, variants)
         f = fractions[mineral.name]
-        parts.append(elastic.PhaseOrientations(c, to_matrices(quat), weights, f, variants))
+        parts.append(elastic.PhaseTensors(c, to_matrices(quat), weights, f, variants))
         densities.append((f, rho))
     tensors = elastic.average_tensors(parts)
     for name, t in tensors.items():
@@ -169,18 +169,53 @@ def splitting_along(c: np.ndarray, density_kg_m3: float, direction=(0.0, 0.0, 1.
 
     The fast polarisation angle is measured in the plane normal to the ray, from ``reference``
     (projected into that plane) towards ``direction x reference``: for the default, a ray along Z,
-    from X towards Y, 0 to 180 degrees. The delay is thickness (1/Vs2 - 1/Vs1) with phase velocities (ray bending
-    and the phase/group difference neglected, common practice).
+    from X towards Y, 0 to 180 degrees. The delay is thickness (1/Vs2 - 1/Vs1) with phase velocities
+    (ray bending and the phase/group difference neglected, common practice), computed by the one
+    splitting kernel, ``waves.splitting.ray_splitting``.
+
+    Parameters
+    ----------
+    c : numpy.ndarray
+        Voigt stiffness (6, 6) in GPa, structural frame.
+    density_kg_m3 : float
+        Density, kg/m^3.
+    direction : array_like
+        Propagation vector (3,), not zero (normalised here).
+    reference : array_like
+        Vector (3,) not parallel to ``direction``: the origin of the angle.
+    thickness_km : float
+        Path length along the ray, km, positive.
+
+    Returns
+    -------
+    dict
+        ``fast_polarisation_from_x_deg`` (degrees, 0-180, rounded to 1e-4), ``delay_s_per_100km``
+        (s per 100 km of path, rounded to 1e-6), ``avs_pct`` (percent, rounded to 1e-4).
+
+    Raises
+    ------
+    ValueError
+        A zero or non-finite ``direction``, a ``reference`` parallel to it, a thickness that is not
+        positive.
     """
+    from fabric2seis.waves import splitting
+
+    thickness_km = splitting.check_positive(thickness_km, "thickness_km")
     n = np.asarray(direction, dtype=float)
-    n /= np.linalg.norm(n)
-    w = waves.plane_waves(c, density_kg_m3, n[None])
-    p = w.polarisations[0, 1]
+    if n.shape != (3,) or not np.all(np.isfinite(n)) or not np.linalg.norm(n) > 0:
+        raise ValueError(f"direction must be a non-zero vector of 3 finite numbers, got {direction!r}")
+    n = n / np.linalg.norm(n)
     e1 = np.asarray(reference, dtype=float)
+    if e1.shape != (3,) or not np.all(np.isfinite(e1)):
+        raise ValueError(f"reference must be a vector of 3 finite numbers, got {reference!r}")
     e1 = e1 - (e1 @ n) * n
+    if not np.linalg.norm(e1) > 1e-9 * max(1.0, float(np.linalg.norm(reference))):
+        raise ValueError(f"reference {reference!r} is parallel to direction {direction!r}: it gives no angle")
     e1 /= np.linalg.norm(e1)
     e2 = np.cross(n, e1)
-    angle = float(np.degrees(np.arctan2(p @ e2, p @ e1)) % 180.0)
-    delay = thickness_km * (1.0 / w.vs2_km_s[0] - 1.0 / w.vs1_km_s[0])
-    return {"fast_polarisation_from_x_deg": round(angle, 4), "delay_s_per_100km": round(float(delay) * 100.0 / thickness_km, 6),
-            "avs_pct": round(float(w.avs_pct[0]), 4)}
+    one = splitting.ray_splitting(c, density_kg_m3, n[None], thickness_km, axes=(e1, e2))
+    angle = float(one["fast_azimuth_deg"][0])
+    delay = one["delay_s"][0]
+    return {"fast_polarisation_from_x_deg": round(angle, 4),
+            "delay_s_per_100km": round(float(delay) * 100.0 / thickness_km, 6),
+            "avs_pct": round(float(one["avs_pct"][0]), 4)}

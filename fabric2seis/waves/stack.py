@@ -18,20 +18,24 @@ A sample layer's splitting is computed for every ray (it depends on back-azimuth
 incidence); a plain layer splits every ray alike. The apparent splitting of the stack is computed
 by ``layers.apparent_splitting`` (analytic, dominant period) and measured on synthetic waveforms
 (``layers.synthetic_records``, ``layers.measure_splitting``).
+
+This module computes only: ``read_stack`` checks the file, ``sweep_stack`` returns a ``StackSweep``
+holding the table, the nulls, the fine analytic curve of the figure, the cautions and, with
+measurements, their predictions and misfit. ``fabric2seis.commands.run_stack`` writes the files
+and draws the figure.
 """
 
 from __future__ import annotations
 
-import json
 import math
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from fabric2seis.waves import layers, splitting
 from fabric2seis.errors import InputError, nearest
-from fabric2seis.folders import check_destination, folder_written_whole
+from fabric2seis.waves import layers, splitting
 
 TOP_KEYS = {"layers", "period_s", "incidence_deg", "back_azimuth_step_deg"}
 SAMPLE_KEYS = {"result", "thickness_km", "field", "name"}
@@ -151,7 +155,7 @@ def read_stack(path: str | Path) -> dict:
     return stack
 
 
-def stack_sweep(stack: dict) -> tuple[pd.DataFrame, list[dict]]:
+def _sweep_table(stack: dict) -> tuple[pd.DataFrame, list[dict]]:
     """Apparent splitting against back-azimuth (analytic and waveform-measured) and the nulls.
 
     Where the transverse energy fraction at the dominant period is below
@@ -186,17 +190,16 @@ def stack_sweep(stack: dict) -> tuple[pd.DataFrame, list[dict]]:
 
 def measurement_predictions(stack: dict, data: pd.DataFrame) -> tuple[pd.DataFrame, dict]:
     """The stack's analytic apparent splitting at each measurement's back-azimuth and incidence."""
-    from fabric2seis.waves.field import _axial_difference
-
     baz, inc = data["baz_deg"].to_numpy(float), data["incidence_deg"].to_numpy(float)
     fast, delay = layers.layer_splitting(stack["layers"], baz, inc)
-    app = layers.apparent_splitting(fast, delay, baz, stack["period_s"], undefined_below=layers.NULL_TRANSVERSE_FRACTION)
+    app = layers.apparent_splitting(fast, delay, baz, stack["period_s"],
+                                    undefined_below=layers.NULL_TRANSVERSE_FRACTION)
     pred_fast, pred_delay = app["fast_azimuth_deg"], np.nan_to_num(app["delay_s"])
     null = data["null"].to_numpy(bool)
-    r_fast = np.nan_to_num(_axial_difference(data["fast_azimuth_deg"].to_numpy(float), pred_fast))
+    r_fast = np.nan_to_num(splitting.axial_difference(data["fast_azimuth_deg"].to_numpy(float), pred_fast))
     r_delay = data["delay_s"].to_numpy(float) - pred_delay
-    r_null = np.nan_to_num(np.minimum(np.abs(_axial_difference(pred_fast, baz)),
-                                      np.abs(_axial_difference(pred_fast, baz + 90.0))))
+    r_null = np.nan_to_num(np.minimum(np.abs(splitting.axial_difference(pred_fast, baz)),
+                                      np.abs(splitting.axial_difference(pred_fast, baz + 90.0))))
     table = pd.DataFrame({
         "station": data["station"].to_numpy(), "baz_deg": baz, "incidence_deg": inc, "null": null,
         "observed_fast_azimuth_deg": data["fast_azimuth_deg"].to_numpy(),
@@ -227,38 +230,98 @@ def stack_cautions(stack: dict) -> list[str]:
     return notes
 
 
-def run_stack(stack_file: str | Path, measurements: str | Path | None = None,
-              out_dir: str | Path | None = None) -> tuple[Path, list[str]]:
-    """``fabric2seis field --stack``: outputs written whole or not at all; returns the folder and cautions."""
-    from fabric2seis.waves.field import read_measurements
-    from fabric2seis.figures.stack import stack_figure
+FINE_STEP_DEG = 0.5
 
-    out = Path(out_dir) if out_dir else Path("results") / "stack"     # not results/field: the one-layer fit lives there
-    stack = read_stack(stack_file)
-    inputs = [stack_file, *([measurements] if measurements else []),
-              *(layer["result"] for layer in stack["layers"] if layer.get("kind") == "sample")]
-    check_destination(out, "stack", inputs)
-    data = read_measurements(measurements) if measurements else None
-    table, nulls = stack_sweep(stack)
-    cautions = stack_cautions(stack)
-    record = {"stack_file": str(stack_file),
-              "settings": {"period_s": stack["period_s"], "incidence_deg": stack["incidence_deg"],
-                           "back_azimuth_step_deg": stack["back_azimuth_step_deg"],
-                           "pulse": f"cosine of the period under a Gaussian window of {layers.PULSE_WIDTH_PERIODS:g} "
-                                    f"periods, sampled every {layers.SAMPLING_S:g} s",
-                           "measurement_grid": {"fast_step_deg": layers.FAST_STEP_DEG,
-                                                "delay_step_s": layers.DELAY_STEP_S,
-                                                "max_delay_s": stack["period_s"] / 2.0},
-                           "null_transverse_fraction": layers.NULL_TRANSVERSE_FRACTION},
-              "layers_bottom_to_top": [_layer_record(layer) for layer in stack["layers"]],
-              "nulls": nulls, "measurements": None if measurements is None else str(measurements),
-              "cautions": cautions}
-    with folder_written_whole(out, "stack", inputs) as tmp:
-        table.to_csv(tmp / "stack_splitting.csv", index=False)
-        if data is not None:
-            predictions, misfit = measurement_predictions(stack, data)
-            predictions.to_csv(tmp / "stack_predictions.csv", index=False)
-            record["misfit"] = misfit
-        stack_figure(tmp / "stack_splitting", stack, table, nulls, data)
-        (tmp / "stack.json").write_text(json.dumps(record, indent=2) + "\n")
-    return out, cautions
+
+@dataclass
+class StackSweep:
+    """Everything the outputs of ``field --stack`` show, computed once.
+
+    ``table``: the back-azimuth sweep (stack_splitting.csv); ``nulls``: the predicted nulls;
+    ``fine_*``: the analytic apparent splitting every ``FINE_STEP_DEG`` of back-azimuth (arrays
+    (F,), degrees and seconds, NaN at nulls), the curve of the figure; ``cautions``; with
+    measurements: the measurements, their ``predictions`` (stack_predictions.csv) and the
+    ``misfit`` per station.
+    """
+
+    stack: dict
+    table: pd.DataFrame
+    nulls: list[dict]
+    fine_back_azimuth_deg: np.ndarray
+    fine_fast_azimuth_deg: np.ndarray
+    fine_delay_s: np.ndarray
+    cautions: list[str]
+    stack_file: str
+    measurements: pd.DataFrame | None = None
+    measurements_file: str | None = None
+    predictions: pd.DataFrame | None = None
+    misfit: dict | None = None
+
+    def record(self) -> dict:
+        """The content of stack.json."""
+        stack = self.stack
+        record = {"stack_file": self.stack_file,
+                  "settings": {"period_s": stack["period_s"], "incidence_deg": stack["incidence_deg"],
+                               "back_azimuth_step_deg": stack["back_azimuth_step_deg"],
+                               "pulse": f"cosine of the period under a Gaussian window of "
+                                        f"{layers.PULSE_WIDTH_PERIODS:g} periods, "
+                                        f"sampled every {layers.SAMPLING_S:g} s",
+                               "measurement_grid": {"fast_step_deg": layers.FAST_STEP_DEG,
+                                                    "delay_step_s": layers.DELAY_STEP_S,
+                                                    "max_delay_s": stack["period_s"] / 2.0},
+                               "null_transverse_fraction": layers.NULL_TRANSVERSE_FRACTION},
+                  "layers_bottom_to_top": [_layer_record(layer) for layer in stack["layers"]],
+                  "nulls": self.nulls, "measurements": self.measurements_file, "cautions": self.cautions}
+        if self.misfit is not None:
+            record["misfit"] = self.misfit
+        return record
+
+
+def sweep_stack(stack: dict, data: pd.DataFrame | None = None, stack_file: str | Path | None = None,
+                measurements_file: str | Path | None = None) -> StackSweep:
+    """Apparent splitting of a stack against back-azimuth, its nulls, and its fit to measurements.
+
+    Where the transverse energy fraction at the dominant period is below
+    ``layers.NULL_TRANSVERSE_FRACTION`` a station records a null: the apparent fast azimuth and
+    delay are undefined there and written as empty (NaN), with ``analytic_defined`` false.
+
+    Parameters
+    ----------
+    stack : dict
+        A checked stack (``read_stack``): ``period_s``, ``incidence_deg``, ``back_azimuth_step_deg``
+        and ``layers``, bottom to top.
+    data : pandas.DataFrame, optional
+        Measurements (``read_measurements`` columns) to predict and compare.
+    stack_file, measurements_file : path, optional
+        Where the stack and measurements came from, for the record (default ``stack["file"]``).
+
+    Returns
+    -------
+    StackSweep
+        The table (B = 360 / back_azimuth_step_deg rows), nulls, the fine curve
+        (360 / ``FINE_STEP_DEG`` back-azimuths), cautions, and the predictions (one row per
+        measurement) and misfit per station when ``data`` is given.
+
+    Raises
+    ------
+    ValueError
+        A stack without layers or without its settings.
+
+    References
+    ----------
+    Silver, P. G. & Savage, M. K. (1994). The interpretation of shear-wave splitting parameters in
+    the presence of two anisotropic layers. Geophys. J. Int. 119, 949-963.
+    """
+    missing = [k for k in ("period_s", "incidence_deg", "back_azimuth_step_deg", "layers") if k not in stack]
+    if missing or not stack["layers"]:
+        raise ValueError("stack must be a checked stack (read_stack) with layers; "
+                         f"missing {', '.join(missing) or 'layers'}")
+    table, nulls = _sweep_table(stack)
+    fine = np.arange(0.0, 360.0, FINE_STEP_DEG)
+    fast, delay = layers.layer_splitting(stack["layers"], fine, stack["incidence_deg"])
+    curve = layers.apparent_splitting(fast, delay, fine, stack["period_s"],
+                                      undefined_below=layers.NULL_TRANSVERSE_FRACTION)
+    predictions, misfit = measurement_predictions(stack, data) if data is not None else (None, None)
+    return StackSweep(stack, table, nulls, fine, curve["fast_azimuth_deg"], curve["delay_s"], stack_cautions(stack),
+                      str(stack_file if stack_file is not None else stack.get("file")), data,
+                      None if measurements_file is None else str(measurements_file), predictions, misfit)

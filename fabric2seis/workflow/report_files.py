@@ -10,6 +10,7 @@ from __future__ import annotations
 import json
 import shutil
 from pathlib import Path
+from typing import Any
 
 import pandas as pd
 
@@ -23,7 +24,8 @@ REPORT_TABLES = ("splitting_vs_backazimuth",)
 def key_numbers(summary: dict) -> pd.DataFrame:
     """A short table of one sample's main numbers: quantity, value, 95 % interval, unit."""
     interval = summary.get("uncertainty") or {}
-    rows = [("points", summary["n_points"], None, ""), ("grains", summary["n_grains"], None, ""),
+    rows: list[tuple[str, Any, Any, str]] = [
+        ("points", summary["n_points"], None, ""), ("grains", summary["n_grains"], None, ""),
             ("density", summary["density_kg_m3"], None, "kg/m^3")]
     for mineral, phase in summary["phases"].items():
         rows += [(f"{mineral} fraction", phase["fraction"], None, ""),
@@ -45,7 +47,8 @@ def key_numbers(summary: dict) -> pd.DataFrame:
     aggregate_floor = interval.get("random_aggregate")
     if aggregate_floor:
         rows += [("AVp of random aggregates", aggregate_floor["avp_pct"], aggregate_floor["avp_pct_95"], "%"),
-                 ("AVs max of random aggregates", aggregate_floor["avs_max_pct"], aggregate_floor["avs_max_pct_95"], "%")]
+                 ("AVs max of random aggregates", aggregate_floor["avs_max_pct"],
+                  aggregate_floor["avs_max_pct_95"], "%")]
     along_z = summary["splitting"]["along_z"]
     rows += [("fast polarisation along Z, from X", along_z["fast_polarisation_from_x_deg"], None, "deg"),
              ("delay along Z per 100 km", along_z["delay_s_per_100km"], "delay_s_per_100km", "s")]

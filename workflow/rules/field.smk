@@ -8,7 +8,7 @@ rule field:
         table=f"{RESULTS}/field/predictions.csv",
     params:
         out=lambda wildcards, output: str(Path(output.fits).parent),
-        results_root=RESULTS,
+        results_root=lambda wildcards, output: str(Path(output.fits).parent.parent),
     log:
         f"{RESULTS}/logs/field.log",
     benchmark:

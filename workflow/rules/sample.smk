@@ -12,7 +12,7 @@ rule sample:
     params:
         settings=settings_digest,
         out=lambda wildcards: f"{RESULTS}/{wildcards.sample}",
-        results_root=RESULTS,
+        results_root=lambda wildcards, output: str(Path(output.status).parent.parent),
     log:
         f"{RESULTS}/logs/sample/{{sample}}.log",
     benchmark:

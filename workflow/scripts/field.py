@@ -1,8 +1,8 @@
-"""Snakemake shell around fabric2seis.waves.field.run_field (no science here)."""
+"""Snakemake shell around fabric2seis.commands.run_field (no science here)."""
 import json
 import logging
 
-from fabric2seis.waves.field import run_field
+from fabric2seis.commands import run_field
 
 logging.basicConfig(filename=snakemake.log[0], level=logging.INFO, format="%(asctime)s %(message)s")
 good = []

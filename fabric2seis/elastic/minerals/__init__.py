@@ -18,7 +18,9 @@ import numpy as np
 import yaml
 from diffpy.structure import Lattice, Structure
 from orix.crystal_map import Phase
-from orix.quaternion import Rotation, symmetry as orix_symmetry
+from orix.quaternion import Rotation
+from orix.quaternion import symmetry as orix_symmetry
+from orix.vector import Miller
 
 from fabric2seis.elastic import check_stiffness, rotate_voigt
 from fabric2seis.errors import InputError, nearest
@@ -35,6 +37,20 @@ _TWIN_KEYS = ("name", "axis", "angle_deg", "source")
 _AXIS_NAMES = ("a", "b", "c", "a*", "b*", "c*")
 #: absolute tolerance (GPa) for the symmetry check: published constants are rounded to 0.1 GPa
 SYMMETRY_TOLERANCE_GPA = 0.06
+#: orix's 38 point groups by name, from the public names of ``orix.quaternion.symmetry`` (the
+#: monoclinic and orthorhombic groups with an axis named are orix's "211", "121", "112", "m11" ...)
+POINT_GROUPS: dict[str, orix_symmetry.Symmetry] = {group.name: group for group in (
+    orix_symmetry.C1, orix_symmetry.Ci,
+    orix_symmetry.C2x, orix_symmetry.C2y, orix_symmetry.C2z, orix_symmetry.Csx, orix_symmetry.Csy,
+    orix_symmetry.Csz, orix_symmetry.C2h,
+    orix_symmetry.D2, orix_symmetry.C2v, orix_symmetry.D2h,
+    orix_symmetry.C4, orix_symmetry.S4, orix_symmetry.C4h, orix_symmetry.D4, orix_symmetry.C4v,
+    orix_symmetry.D2d, orix_symmetry.D4h,
+    orix_symmetry.C3, orix_symmetry.S6, orix_symmetry.D3x, orix_symmetry.D3y, orix_symmetry.D3,
+    orix_symmetry.C3v, orix_symmetry.D3d,
+    orix_symmetry.C6, orix_symmetry.C3h, orix_symmetry.C6h, orix_symmetry.D6, orix_symmetry.C6v,
+    orix_symmetry.D3h, orix_symmetry.D6h,
+    orix_symmetry.T, orix_symmetry.Th, orix_symmetry.O, orix_symmetry.Td, orix_symmetry.Oh)}
 
 
 @dataclass(frozen=True)
@@ -131,8 +147,7 @@ def point_group_symmetry(point_group: str, unique_axis: str | None = None) -> or
     orix's own ``2/m`` puts the 2-fold along z (c unique). Most rock-forming monoclinic minerals
     are described with b unique, where the 2-fold lies along b, which is orix's y axis.
     """
-    groups = {g.name: g for g in orix_symmetry._groups}
-    if point_group not in groups:
+    if point_group not in POINT_GROUPS:
         raise KeyError(point_group)
     if point_group in ("2", "m", "2/m") and unique_axis == "b":
         proper = orix_symmetry.C2y
@@ -141,7 +156,7 @@ def point_group_symmetry(point_group: str, unique_axis: str | None = None) -> or
         group = orix_symmetry.Symmetry.from_generators(proper, orix_symmetry.Ci)
         group.name = "2/m"
         return group
-    return groups[point_group]
+    return POINT_GROUPS[point_group]
 
 
 def crystal_directions(lattice: dict) -> dict[str, np.ndarray]:
@@ -153,6 +168,30 @@ def crystal_directions(lattice: dict) -> dict[str, np.ndarray]:
     recip = {"a*": np.cross(b, c), "b*": np.cross(c, a), "c*": np.cross(a, b)}
     out = {"a": a, "b": b, "c": c, **recip}
     return {k: v / np.linalg.norm(v) for k, v in out.items()}
+
+
+def crystal_direction(mineral: Mineral, label: str) -> np.ndarray:
+    """Unit vector (3,), in orix's crystal frame, of a direction or of a plane normal.
+
+    Parameters
+    ----------
+    mineral : Mineral
+        Gives the lattice (through ``mineral.phase``).
+    label : str
+        Miller indices: ``"[uvw]"`` for a lattice direction, ``"(hkl)"`` for the normal of a plane.
+        Single digits may be written together (``"[100]"``); otherwise separate them with spaces or
+        commas (``"[1 -1 0]"``, ``"(1,0,10)"``).
+
+    Returns
+    -------
+    numpy.ndarray
+        Unit vector (3,) in the crystal Cartesian frame (e1 || a, e3 || c*), dimensionless.
+    """
+    text = label.strip()
+    numbers = [int(c) for c in text[1:-1].replace(",", " ").split()] if " " in text or "," in text \
+        else [int(c) for c in text[1:-1]]
+    kind = "hkl" if text.startswith("(") else "uvw"
+    return Miller(**{kind: numbers}, phase=mineral.phase).unit.data[0]
 
 
 def setting_rotation(lattice: dict, published_axes: dict, source: str = "") -> np.ndarray:
@@ -233,8 +272,7 @@ def load_mineral_file(path: str | Path) -> Mineral:
     try:
         sym = point_group_symmetry(pg, unique)
     except KeyError:
-        names = [g.name for g in orix_symmetry._groups]
-        raise InputError(f"unknown point group '{pg}'{nearest(pg, names)}", src, "point_group") from None
+        raise InputError(f"unknown point group '{pg}'{nearest(pg, POINT_GROUPS)}", src, "point_group") from None
     density = float(entry["density_kg_m3"])
     if not 100 < density < 30000:
         raise InputError(f"density {density} kg/m^3 is not plausible", src, "density_kg_m3")

@@ -53,7 +53,8 @@ def read_ebsd(path: str | Path, angle_units: str = "degrees") -> EBSDData:
     suffix, compressed = format_of(path)
     if not path.is_file():
         raise InputError("no such file", path)
-    readers = {".ang": ang.read, ".ctf": ctf.read, ".h5": h5.read, ".hdf5": h5.read}
     if suffix == ".csv":
         return table.read(path, compressed, angle_units)
-    return readers[suffix](path, compressed) if suffix not in (".h5", ".hdf5") else h5.read(path)
+    if suffix in (".h5", ".hdf5"):
+        return h5.read(path)
+    return {".ang": ang.read, ".ctf": ctf.read}[suffix](path, compressed)

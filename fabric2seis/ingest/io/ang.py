@@ -53,7 +53,8 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
             phase_id[values[:, columns["ci"]] == -1] = -1
         grid, step = check_map(values[:, 3], values[:, 4], path, _declared_grid(header),
                                _header_value(header, "XSTEP"), _expected_points(header), where)
-    quality = {name: values[:, columns[name]].copy() for name in ("ci", "iq", "fit") if name in columns}
+    quality: dict[str, np.ndarray] = {name: values[:, columns[name]].copy() for name in ("ci", "iq", "fit")
+                                      if name in columns}
     return EBSDData(source=str(path), quat=Rotation.from_euler(values[:, :3]).data, phase_id=phase_id,
                     phase_names=names, phase_point_groups=groups, x=values[:, 3].copy(), y=values[:, 4].copy(),
                     step=step, grid=grid, quality=quality)

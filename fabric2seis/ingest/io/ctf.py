@@ -59,10 +59,10 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
         phase_id[phase_id == 0] = -1
         names, groups, _ = header_phases(orix_ctf.file_reader, header, values[one_row_per_phase(phase_id)],
                                          path, ".ctf")
-        cells = [_header_number(header, k) for k in ("XCells", "YCells")]
+        x_cells, y_cells = (_header_number(header, k) for k in ("XCells", "YCells"))
         expected = None
-        if all(c and c > 0 for c in cells):
-            nx, ny = int(cells[0]), int(cells[1])
+        if x_cells and y_cells and x_cells > 0 and y_cells > 0:
+            nx, ny = int(x_cells), int(y_cells)
             expected = (nx * ny, f"XCells {nx} x YCells {ny}")
         grid, step = check_map(values[:, 1], values[:, 2], path, "square", _header_number(header, "XStep"),
                                expected, where)

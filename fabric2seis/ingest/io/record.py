@@ -97,7 +97,8 @@ def check_angles(euler: np.ndarray, units: str, source, where=None) -> None:
         raise InputError(f"the Euler angles look like radians (largest {largest:.3f} in {len(euler)} rows) but "
                          "degrees are declared; set table.angle_units: radians in the settings if they are",
                          source)
-    beyond = np.flatnonzero(np.abs(euler).max(axis=1) > 2 * np.pi + 1e-2) if units == "radians" else []
+    beyond = (np.flatnonzero(np.abs(euler).max(axis=1) > 2 * np.pi + 1e-2) if units == "radians"
+              else np.empty(0, dtype=np.int64))
     if len(beyond) > max(1, 0.05 * len(euler)):
         raise InputError(f"the Euler angles look like degrees (largest {largest:.1f}) but radians are "
                          "expected here", source, _row_place(where, int(beyond[0])))
@@ -174,12 +175,12 @@ def check_map(x: np.ndarray, y: np.ndarray, source, declared_grid: str | None = 
     yv, iy, y_counts = _levels(y, tol)
     if n >= 4 and x_counts.max() < 2 and y_counts.max() < 2:
         raise InputError("map coordinates are not on a grid: no two points share a row or a column", source)
-    dx = _spacing(xv, x_counts, only_shared=len(yv) > 1)
-    dy = _spacing(yv, y_counts, only_shared=len(xv) > 1)
-    if dx is None and dy is None:
+    spacing_x = _spacing(xv, x_counts, only_shared=len(yv) > 1)
+    spacing_y = _spacing(yv, y_counts, only_shared=len(xv) > 1)
+    if spacing_x is None and spacing_y is None:
         raise InputError("map coordinates are not on a grid: no row or column holds two points", source)
-    dx = dy if dx is None else dx
-    dy = dx if dy is None else dy
+    dx: float = spacing_x if spacing_x is not None else spacing_y  # type: ignore[assignment]
+    dy: float = spacing_y if spacing_y is not None else dx
     fx, fy = (x - xv[0]) / dx, (y - yv[0]) / dy
     kx, ky = np.rint(fx), np.rint(fy)
     off = np.flatnonzero((np.abs(fx - kx) > OFF_GRID_TOLERANCE) | (np.abs(fy - ky) > OFF_GRID_TOLERANCE))

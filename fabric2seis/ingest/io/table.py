@@ -52,8 +52,9 @@ def read(path: Path, compressed: bool = False, angle_units: str = "degrees") -> 
     y = numbers.get("y")
     if (x is None) != (y is None):
         raise InputError("a map needs both x and y columns; a grain list has neither", path, "line 1")
-    grid = step = None
-    if x is not None:
+    grid: str | None = None
+    step: float | None = None
+    if x is not None and y is not None:
         grid, step = check_map(x, y, path, where=lambda row: f"line {row + 2}")
     weights = numbers.get("weight")
     if weights is not None and np.any(weights < 0):

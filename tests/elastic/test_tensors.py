@@ -3,10 +3,11 @@
 import numpy as np
 import pytest
 import scipy.linalg
-from hypothesis import given, settings, strategies as st
+from conftest import random_rotation_matrices
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from pymatgen.analysis.elasticity import ElasticTensor
 
-from conftest import random_rotation_matrices
 from fabric2seis import elastic as el
 from fabric2seis.errors import InputError
 
@@ -17,7 +18,8 @@ def hill1952_moduli(c):
     kv = (c[0, 0] + c[1, 1] + c[2, 2] + 2 * (c[0, 1] + c[0, 2] + c[1, 2])) / 9
     gv = (c[0, 0] + c[1, 1] + c[2, 2] - (c[0, 1] + c[0, 2] + c[1, 2]) + 3 * (c[3, 3] + c[4, 4] + c[5, 5])) / 15
     kr = 1 / (s[0, 0] + s[1, 1] + s[2, 2] + 2 * (s[0, 1] + s[0, 2] + s[1, 2]))
-    gr = 15 / (4 * (s[0, 0] + s[1, 1] + s[2, 2]) - 4 * (s[0, 1] + s[0, 2] + s[1, 2]) + 3 * (s[3, 3] + s[4, 4] + s[5, 5]))
+    gr = 15 / (4 * (s[0, 0] + s[1, 1] + s[2, 2]) - 4 * (s[0, 1] + s[0, 2] + s[1, 2])
+               + 3 * (s[3, 3] + s[4, 4] + s[5, 5]))
     return kv, gv, kr, gr
 
 
@@ -86,7 +88,7 @@ def test_random_aggregate_is_isotropic_with_hill1952_moduli(library, name):
     m = library[name]
     g = random_rotation_matrices(n, seed=11)
     w = np.ones(n)
-    out = el.average_tensors([el.PhaseOrientations(m.stiffness_gpa, g, w)])
+    out = el.average_tensors([el.PhaseTensors(m.stiffness_gpa, g, w)])
     kv, gv, kr, gr = hill1952_moduli(m.stiffness_gpa)
     ref = ElasticTensor.from_voigt(m.stiffness_gpa)
     for a, b in [(kv, ref.k_voigt), (gv, ref.g_voigt), (kr, ref.k_reuss), (gr, ref.g_reuss)]:
@@ -115,7 +117,7 @@ def test_random_aggregate_is_isotropic_with_hill1952_moduli(library, name):
 ])
 def test_hill_average_reproduces_published_aggregate(library, name, k_ref, g_ref, source):
     # Hashin-Shtrikman bounds lie inside Voigt-Reuss; for these weakly anisotropic minerals the Hill
-    # mean lies within a few tenths of a GPa of the published aggregate (issue 2).
+    # mean lies within a few tenths of a GPa of the published aggregate (the sources named below).
     k, g = el.hill_moduli(library[name].stiffness_gpa)
     assert abs(k - k_ref) < 0.3, source
     assert abs(g - g_ref) < 0.3, source
@@ -127,8 +129,8 @@ def _textured_aggregate(library, seed=2):
     g_ol = random_rotation_matrices(300, seed)
     # pull olivine towards the identity orientation to make a strong fabric
     small = scipy.spatial.transform.Rotation.from_rotvec(rng.normal(scale=0.25, size=(300, 3))).as_matrix()
-    return [el.PhaseOrientations(library["olivine"].stiffness_gpa, small, rng.uniform(0.5, 2, 300), 0.7),
-            el.PhaseOrientations(library["pyrope"].stiffness_gpa, g_ol[:50], np.ones(50), 0.3)]
+    return [el.PhaseTensors(library["olivine"].stiffness_gpa, small, rng.uniform(0.5, 2, 300), 0.7),
+            el.PhaseTensors(library["pyrope"].stiffness_gpa, g_ol[:50], np.ones(50), 0.3)]
 
 
 import scipy.spatial.transform  # noqa: E402  (used by the helper above)
@@ -176,21 +178,21 @@ def test_weights_act_like_repeated_grains_and_phases_mix_by_fraction(library):
     g = random_rotation_matrices(40, seed=8)
     c = library["olivine"].stiffness_gpa
     w = np.r_[np.full(20, 2.0), np.ones(20)]
-    weighted = el.average_tensors([el.PhaseOrientations(c, g, w)])
-    repeated = el.average_tensors([el.PhaseOrientations(c, np.concatenate([g[:20], g]), np.ones(60))])
+    weighted = el.average_tensors([el.PhaseTensors(c, g, w)])
+    repeated = el.average_tensors([el.PhaseTensors(c, np.concatenate([g[:20], g]), np.ones(60))])
     for k in el.AVERAGES:
         assert np.allclose(weighted[k], repeated[k], rtol=1e-12, atol=1e-10)
     # two phases: Voigt is the fraction-weighted sum of the per-phase Voigt averages
     c2 = library["pyrope"].stiffness_gpa
-    mixed = el.average_tensors([el.PhaseOrientations(c, g, w, 0.25), el.PhaseOrientations(c2, g, w, 0.75)])
-    alone = [el.average_tensors([el.PhaseOrientations(x, g, w)])["voigt"] for x in (c, c2)]
+    mixed = el.average_tensors([el.PhaseTensors(c, g, w, 0.25), el.PhaseTensors(c2, g, w, 0.75)])
+    alone = [el.average_tensors([el.PhaseTensors(x, g, w)])["voigt"] for x in (c, c2)]
     assert np.allclose(mixed["voigt"], 0.25 * alone[0] + 0.75 * alone[1], rtol=1e-12)
 
 
 def test_single_orientation_average_is_the_rotated_crystal(library):
     c = library["muscovite"].stiffness_gpa
     g = random_rotation_matrices(1, seed=4)
-    out = el.average_tensors([el.PhaseOrientations(c, g, np.ones(1))])
+    out = el.average_tensors([el.PhaseTensors(c, g, np.ones(1))])
     for k in el.AVERAGES:
         assert np.allclose(out[k], full_tensor_rotation(c, g[0].T), atol=1e-9)
 

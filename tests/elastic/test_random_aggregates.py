@@ -14,8 +14,8 @@ import numpy as np
 import pytest
 
 from fabric2seis.cli import main
-from fabric2seis.ingest.io.write import write_table
 from fabric2seis.elastic.minerals import load_library
+from fabric2seis.ingest.io.write import write_table
 from fabric2seis.synth import random_quaternions
 
 N_GRAINS = 6000
@@ -68,7 +68,7 @@ def test_random_aggregate_moduli_equal_hills_closed_forms(random_rock_results, n
 
 
 def test_quartz_and_calcite_reuss_shear_moduli(random_rock_results):
-    # The values named in the issue, from the constants (McSkimin et al. 1965; Peselnick & Robie
+    # Reuss shear moduli from the constants (McSkimin et al. 1965; Peselnick & Robie
     # 1962) by Hill's formula, through pymatgen: quartz G_R about 41 GPa, calcite about 26.3 GPa.
     from pymatgen.analysis.elasticity import ElasticTensor
 

@@ -2,10 +2,10 @@
 
 import numpy as np
 import pytest
+from conftest import random_rotation_matrices
 from orix.quaternion import Orientation
 from orix.vector import Vector3d
 
-from conftest import random_rotation_matrices
 from fabric2seis import elastic as el
 from fabric2seis import waves
 
@@ -34,7 +34,7 @@ def test_orthorhombic_axes_give_sqrt_cii_over_rho(library, name):
 
 
 def test_olivine_values_quoted_with_abramson_constants(library):
-    # Issue 5 quotes, for orientation: sqrt(Cii/rho) 9.77 km/s along [100], 7.65 km/s along [010]
+    # For orientation (common practice): sqrt(Cii/rho) 9.77 km/s along [100], 7.65 km/s along [010]
     # with the Abramson et al. (1997) constants and density 3355 kg/m^3.
     m = library["olivine"]
     w = waves.plane_waves(m.stiffness_gpa, m.density_kg_m3, np.eye(3))

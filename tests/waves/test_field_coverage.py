@@ -1,4 +1,4 @@
-"""Coverage of the field fit's intervals (issue 11): over many synthetic stations made from known
+"""Coverage of the field fit's intervals: over many synthetic stations made from known
 layers with known Gaussian errors, the nominal 68 % intervals must hold the truth about 68 % of the
 time; and the demo's generating models must lie inside the intervals `fabric2seis field` reports."""
 
@@ -10,13 +10,13 @@ import pandas as pd
 import pytest
 
 from fabric2seis import elastic
-from fabric2seis.waves import field, seismic, splitting
 from fabric2seis.cli import main
 from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations
+from fabric2seis.waves import field, seismic, splitting
 
 OLIVINE = find_mineral("olivine")
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 N_DATA_SETS = 400
 
 
@@ -46,7 +46,7 @@ def synthetic_station(sample, rng):
     err_fast_deg, err_delay_s = rng.uniform(5.0, 10.0), rng.uniform(0.08, 0.2)
     baz, inc = rng.uniform(0.0, 360.0, n), rng.uniform(5.0, 15.0, n)
     c = splitting.to_geographic(sample.stiffness, splitting.placement(
-        field._attitude_field(truth["attitude"], truth["trend_deg"])))
+        field.attitude_field(truth["attitude"], truth["trend_deg"])))
     pred = splitting.one_layer(c, sample.density_kg_m3, truth["thickness_km"], baz, inc)
     data = pd.DataFrame({"station": "SYN", "baz_deg": baz, "incidence_deg": inc,
                          "fast_azimuth_deg": (pred["fast_azimuth_deg"] + rng.normal(0.0, err_fast_deg, n)) % 180,

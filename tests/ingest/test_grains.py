@@ -3,8 +3,8 @@
 import numpy as np
 import pytest
 
-from fabric2seis.ingest import grains
 from fabric2seis.elastic.minerals import find_mineral
+from fabric2seis.ingest import grains
 from fabric2seis.orientations import misorientation_angles, multiply, proper_symmetry_quaternions
 from fabric2seis.synth import voronoi_map
 

@@ -7,8 +7,15 @@ import pytest
 from orix.vector import Miller
 
 from fabric2seis import elastic as el
+from fabric2seis.elastic.minerals import (
+    POINT_GROUPS,
+    crystal_direction,
+    find_mineral,
+    load_library,
+    load_mineral_file,
+    point_group_symmetry,
+)
 from fabric2seis.errors import InputError
-from fabric2seis.elastic.minerals import (find_mineral, load_library, load_mineral_file)
 
 REQUIRED = ["olivine", "enstatite", "diopside", "pyrope", "quartz", "calcite", "albite",
             "hornblende", "antigorite", "muscovite", "ice"]
@@ -51,6 +58,45 @@ def test_monoclinic_a_star_setting_is_converted_to_orix_frame(library, name):
     # and by hand: with e1 || a and e3 || c*, a* = (sin beta, 0, -cos beta)
     beta = np.radians(m.lattice["beta"])
     assert np.allclose(a_star, [np.sin(beta), 0, -np.cos(beta)], atol=1e-9)
+
+
+def test_crystal_directions_of_orthorhombic_monoclinic_and_hexagonal_lattices(library):
+    # In orix's frame (e1 || a, e3 || c*): an orthorhombic lattice has a, b, c on x, y, z; a
+    # monoclinic one (b unique) has c = (cos beta, 0, sin beta) and a* = (sin beta, 0, -cos beta); a
+    # hexagonal one has a + 2b along y (common practice in crystallography).
+    olivine, diopside, quartz = library["olivine"], library["diopside"], library["quartz"]
+    assert np.allclose(crystal_direction(olivine, "[100]"), [1, 0, 0], atol=1e-12)
+    assert np.allclose(crystal_direction(olivine, "[010]"), [0, 1, 0], atol=1e-12)
+    assert np.allclose(crystal_direction(olivine, "(001)"), [0, 0, 1], atol=1e-12)
+    beta = np.radians(diopside.lattice["beta"])
+    assert np.allclose(crystal_direction(diopside, "[001]"), [np.cos(beta), 0, np.sin(beta)], atol=1e-9)
+    assert np.allclose(crystal_direction(diopside, "(100)"), [np.sin(beta), 0, -np.cos(beta)], atol=1e-9)
+    assert np.allclose(crystal_direction(quartz, "[120]"), [0, 1, 0], atol=1e-9)
+    # indices with more than one digit or a sign are written apart, with spaces or commas
+    assert np.allclose(crystal_direction(quartz, "[1 2 0]"), crystal_direction(quartz, "[1,2,0]"), atol=1e-12)
+    assert np.allclose(crystal_direction(olivine, "[1 -1 0]"), crystal_direction(olivine, "[1,-1,0]"), atol=1e-12)
+    a, b = olivine.lattice["a"], olivine.lattice["b"]
+    assert np.allclose(crystal_direction(olivine, "[1 -1 0]"), np.array([a, -b, 0]) / np.hypot(a, b), atol=1e-9)
+
+
+def test_point_group_table_holds_the_32_crystal_classes_with_their_orders():
+    # The crystallographic point groups and their orders (International Tables for Crystallography,
+    # vol. A, table 10.1.2.2; from memory), under orix's Hermann-Mauguin names: 30 of the 32 here,
+    # and 2 and m below.
+    orders = {"1": 1, "-1": 2, "2/m": 4, "222": 4, "mm2": 4, "mmm": 8, "4": 4, "-4": 4, "4/m": 8, "422": 8,
+              "4mm": 8, "-42m": 8, "4/mmm": 16, "3": 3, "-3": 6, "32": 6, "3m": 6, "-3m": 12, "6": 6, "-6": 6,
+              "6/m": 12, "622": 12, "6mm": 12, "-6m2": 12, "6/mmm": 24, "23": 12, "m-3": 24, "432": 24,
+              "-43m": 24, "m-3m": 48}
+    for name, order in orders.items():
+        assert POINT_GROUPS[name].name == name
+        assert POINT_GROUPS[name].size == order, name
+    # the classes 2 and m are there in orix's settings with the axis named (211, 121, 112, m11 ...)
+    assert {"211", "121", "112", "m11", "1m1", "11m"} <= set(POINT_GROUPS)
+    assert len(POINT_GROUPS) == 38
+    # b-unique 2/m: the 2-fold along y (b), four operations
+    group = point_group_symmetry("2/m", "b")
+    assert group.size == 4 and group.name == "2/m"
+    assert np.allclose(np.abs(group.data[np.abs(group.data[:, 0]) < 1e-9][0]), [0, 0, 1, 0])
 
 
 @pytest.mark.parametrize("name", ["olivine", "enstatite"])

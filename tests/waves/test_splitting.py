@@ -2,14 +2,13 @@
 
 import numpy as np
 import pytest
+from test_seismic import ti_tensor
 
 from fabric2seis import elastic
-from fabric2seis.waves import seismic, splitting
-from fabric2seis.errors import InputError
 from fabric2seis.elastic.minerals import find_mineral
+from fabric2seis.errors import InputError
 from fabric2seis.synth import fabric_orientations
-
-from test_seismic import ti_tensor
+from fabric2seis.waves import seismic, splitting
 
 OLIVINE = find_mineral("olivine")
 

@@ -6,11 +6,11 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from fabric2seis.elastic import conditions, decomposition
 from fabric2seis import elastic, waves
-from fabric2seis.waves import seismic
+from fabric2seis.elastic import conditions, decomposition
 from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.synth import fabric_orientations, random_quaternions
+from fabric2seis.waves import seismic
 
 OLIVINE = find_mineral("olivine")
 
@@ -107,8 +107,8 @@ def test_a_type_olivine_fast_p_along_lineation_and_fast_s_parallel_to_x_along_z(
 
 def test_single_crystal_olivine_anisotropy_against_dense_brute_force():
     # An independent dense search: 400 x 200 directions in (azimuth, colatitude), Christoffel
-    # solved direction by direction with numpy.linalg.eigh. Issue 5 quotes for orientation
-    # 9.77 km/s along [100] and 7.65 km/s along [010], about 24 % AVp.
+    # solved direction by direction with numpy.linalg.eigh. For orientation (from the Abramson et
+    # al. 1997 constants, common practice): 9.77 km/s along [100], 7.65 km/s along [010], about 24 % AVp.
     c, rho = OLIVINE.stiffness_gpa, OLIVINE.density_kg_m3
     s = seismic.seismic_summary(seismic.velocity_grid(c, rho, 1.0), "single crystal")
     az, col = np.meshgrid(np.linspace(0, np.pi, 400), np.linspace(0, np.pi / 2, 200))

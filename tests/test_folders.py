@@ -1,6 +1,6 @@
 """outputs: which folders may be replaced, atomic replacement, stale temporary folders.
 
-The rules are this project's own (issue: never delete a user's files); the facts they rest on are
+The rules are this project's own (never delete a user's files); the facts they rest on are
 POSIX's: rename(2) within one file system is atomic, and kill(pid, 0) fails with ESRCH for a
 process that has ended (common practice).
 """
@@ -12,8 +12,15 @@ import subprocess
 import pytest
 
 from fabric2seis.errors import InputError
-from fabric2seis.folders import (MARKER, _host_tag, check_destination, clear_stale_temporaries,
-                                 folder_written_whole, remove_results, written_kind)
+from fabric2seis.folders import (
+    MARKER,
+    _host_tag,
+    check_destination,
+    clear_stale_temporaries,
+    folder_written_whole,
+    remove_results,
+    written_kind,
+)
 
 
 def dead_pid() -> int:
@@ -45,7 +52,8 @@ def test_refused_destinations(tmp_path, monkeypatch):
     user = tmp_path / "mine"
     user.mkdir()
     (user / "notes.txt").write_text("keep")
-    cases = {".": "current folder", "..": "current folder", "data/..": "current folder", "data/sub/..": "'.' or '..'", str(tmp_path.parent): "current folder",
+    cases = {".": "current folder", "..": "current folder", "data/..": "current folder",
+             "data/sub/..": "'.' or '..'", str(tmp_path.parent): "current folder",
              "results": "results root", str(data): "holds the input", str(user): "not written by fabric2seis",
              str(data / "a.ang"): "holds the input"}
     for out, message in cases.items():

@@ -10,8 +10,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from fabric2seis.waves import layers
 from fabric2seis.cli import main
+from fabric2seis.waves import layers
 
 BAZ = np.arange(0.0, 360.0, 5.0)
 TWO_LAYER_MODELS = [  # (fast1, delay1, fast2, delay2), bottom layer first; invented for the tests
@@ -19,7 +19,7 @@ TWO_LAYER_MODELS = [  # (fast1, delay1, fast2, delay2), bottom layer first; inve
     (10.0, 1.2, 140.0, 0.8)]
 
 
-def constant(values, n=len(BAZ)):
+def constant(values, n=len(BAZ)):  # noqa: B008 -- BAZ is a module constant; its length is fixed at import
     """Layer parameters (L,) repeated for every back-azimuth: (L, n)."""
     return np.asarray(values, float)[:, None] * np.ones((1, n))
 
@@ -78,7 +78,7 @@ def test_closed_form_two_layer_expressions_match_the_operator_product(model):
 
 @pytest.mark.parametrize("model", TWO_LAYER_MODELS)
 def test_analytic_and_synthetic_waveform_measurement_agree_away_from_nulls(model):
-    # Issue 6 / Silver & Savage 1994: the dominant-period expressions predict what the transverse-
+    # Silver & Savage 1994: the dominant-period expressions predict what the transverse-
     # energy method (Silver & Chan 1991) measures, within 5 degrees and 0.1 s, away from nulls
     # (here: transverse energy at least 5 % of the total at the dominant period).
     f1, d1, f2, d2 = model
@@ -182,8 +182,8 @@ def test_predicted_nulls_of_two_layers_leave_little_transverse_energy_on_wavefor
 
 @pytest.fixture(scope="module")
 def result_folder(tmp_path_factory):
-    from fabric2seis.ingest.io.write import write_table
     from fabric2seis.elastic.minerals import find_mineral
+    from fabric2seis.ingest.io.write import write_table
     from fabric2seis.synth import fabric_orientations
 
     folder = tmp_path_factory.mktemp("stack")
@@ -207,7 +207,7 @@ def test_stack_command_writes_table_record_and_figure(result_folder, capsys):
     out = result_folder / "out"
     assert main(["field", "--stack", str(stack), "--out", str(out)]) == 0
     printed = capsys.readouterr().out
-    assert "caution" in printed and "no melt or aligned cracks" in printed      # issue 6, part 5
+    assert "caution" in printed and "no melt or aligned cracks" in printed      # the model's assumptions
     table = pd.read_csv(out / "stack_splitting.csv")
     record = json.loads((out / "stack.json").read_text())
     assert {p.name for p in out.iterdir()} == {"stack_splitting.csv", "stack.json", "stack_splitting.png",
@@ -266,7 +266,8 @@ def test_stack_takes_no_result_folders_on_the_command_line(result_folder, capsys
     ("layers:\n  - {fast_azimuth_deg: 10, delay_s: 1}\n  - {fast_azimuth_deg: 400, delay_s: 1}\n",
      "key layers[1].fast_azimuth_deg: fast_azimuth_deg = 400 is out of range; it must be 0-360"),
     ("layers:\n  - {fast_azimuth_deg: 10}\n", "key layers[0].delay_s: missing key 'delay_s'"),
-    ("layers:\n  - {fast_azimuth_deg: 10, delay_s: 1, dealy_s: 2}\n", "unknown key 'dealy_s' (did you mean 'delay_s'?)"),
+    ("layers:\n  - {fast_azimuth_deg: 10, delay_s: 1, dealy_s: 2}\n",
+     "unknown key 'dealy_s' (did you mean 'delay_s'?)"),
     ("perod_s: 8\nlayers: []\n", "key perod_s: unknown key 'perod_s' (did you mean 'period_s'?)"),
     ("layers:\n  - {result: no_such_folder, thickness_km: 50}\n", "key layers[0].result: no results folder"),
     ("layers:\n  - {result: res, thickness_km: -5}\n", "key layers[0].thickness_km: thickness_km = -5 is out of range"),
@@ -287,7 +288,7 @@ def test_bad_stack_files_are_one_line_errors_with_exit_2_and_no_output(result_fo
 
 def test_bad_stack_file_from_the_shell_has_no_traceback(result_folder):
     stack = write_stack(result_folder, "layers: 3\n")
-    env = {**os.environ, "PYTHONPATH": str(Path(__file__).resolve().parents[1])}
+    env = {**os.environ, "PYTHONPATH": str(Path(__file__).resolve().parents[2])}
     out = subprocess.run([sys.executable, "-m", "fabric2seis", "field", "--stack", str(stack)],
                          capture_output=True, text=True, cwd=result_folder, env=env)
     assert out.returncode == 2 and out.stderr.count("\n") == 1 and "Traceback" not in out.stderr

@@ -1,0 +1,177 @@
+"""A sample's outputs: ``summary.json`` assembled from the stages' results, and the results folder.
+
+``sample_summary`` is the one place that decides what ``summary.json`` holds (CONTRACT.md keys and
+the project's own); ``write_results`` writes every file and figure of a results folder into a
+temporary folder that ``folders.folder_written_whole`` swaps into place whole. Nothing here
+computes physics: the figures draw what the stages computed.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import sys
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from fabric2seis import __version__
+from fabric2seis.folders import folder_written_whole
+from fabric2seis.stages import FabricResult, Intervals, Sample, SeismicResult, plain
+
+if TYPE_CHECKING:
+    from fabric2seis.pipeline import RunLog
+
+
+def ingestion_summary(sample: Sample) -> dict:
+    """Counts, phases and what was dropped: the part of ``summary.json`` known after ingestion."""
+    p = sample.points
+    per_phase = {}
+    for k, m in enumerate(p.minerals):
+        n_points = int((p.mineral_index == k).sum())
+        n = int((sample.grains.mineral_index == k).sum()) if sample.grains is not None else n_points
+        per_phase[m.name] = {"fraction": round(sample.fractions[m.name], 6),
+                             "measured_fraction": round(sample.measured_fractions[m.name], 6),
+                             "n": n, "n_points": n_points}
+    return {
+        "sample": sample.name,
+        "n_points": int(len(p.quat)),
+        "n_grains": int(sample.grains.n_grains) if sample.grains is not None else int(len(p.quat)),
+        "input_kind": "map" if sample.grains is not None else "grain list",
+        "grid": sample.grid,
+        "phases": per_phase,
+        "dropped": {"unindexed_points": p.n_unindexed, "low_quality_points": p.n_low_quality,
+                    "small_grain_points": sample.n_small_grain_points, "points_read": p.n_read},
+        "fraction_source": "settings" if sample.settings.get("modal_fractions") else "measured area",
+    }
+
+
+def sample_summary(sample: Sample, fabric: FabricResult, seismic: SeismicResult, intervals: Intervals) -> dict:
+    """The contents of ``summary.json``: every stage's numbers, their intervals and the cautions."""
+    from fabric2seis.cautions import sample_cautions
+    from fabric2seis.elastic.conditions import assumptions
+    from fabric2seis.fabric import indistinguishable_from_random
+
+    report = ingestion_summary(sample)
+    for name, phase in fabric.phases.items():
+        report["phases"][name].update(phase.indices.as_summary())
+        report["phases"][name]["j_levelled"] = phase.convergence["j_levelled"]
+        report["phases"][name]["random_floor"] = phase.random_floor
+        report["phases"][name]["indistinguishable_from_random"] = indistinguishable_from_random(
+            phase.indices.j, phase.indices.m, phase.random_floor)
+    agg = seismic.aggregate
+    conditions = sample.settings["conditions"]
+    report["density_kg_m3"] = round(agg.density_kg_m3, 3)
+    report["conditions"] = dict(conditions)
+    report["conditions"]["assumptions"] = [note for m in sample.points.minerals for note in assumptions(
+        m, conditions["pressure_gpa"], conditions["temperature_c"])]
+    report["seismic"] = seismic.summary
+    report["splitting"] = {"along_z": seismic.along_z, "field": seismic.field}
+    report["uncertainty"] = dict(intervals.values)
+    outside: list[str] = []
+    if intervals:
+        outside = _estimates_outside(report)
+    report["cautions"] = sample_cautions(sample.points.minerals, report["conditions"]["assumptions"], outside)
+    return report
+
+
+def _estimates_outside(report: dict) -> list[str]:
+    """Keys whose estimate lies outside its interval; also flags anisotropy that random
+    aggregates of as many grains reach (``uncertainty.random_aggregate``)."""
+    from fabric2seis.uncertainty import estimates_outside
+
+    uncertainty = report["uncertainty"]
+    estimates = {k: report["seismic"].get(k) for k in ("avp_pct", "avs_max_pct", "vp_max_km_s")}
+    estimates["delay_s_per_100km"] = report["splitting"]["along_z"]["delay_s_per_100km"]
+    for name, phase in report["phases"].items():
+        estimates.update({f"{name}.J": phase.get("J"), f"{name}.M": phase.get("M")})
+    floor = uncertainty["random_aggregate"]
+    floor["anisotropy_indistinguishable_from_random"] = bool(
+        report["seismic"]["avs_max_pct"] <= floor["avs_max_pct_95"][1]
+        and report["seismic"]["avp_pct"] <= floor["avp_pct_95"][1])
+    outside = estimates_outside(uncertainty, estimates)
+    if outside:
+        uncertainty["estimate_outside_interval"] = ", ".join(outside)
+    return outside
+
+
+def provenance(path: Path, sample: Sample) -> dict:
+    """Input checksum, settings as used, mineral sources and versions."""
+    import orix
+    import pandas
+    import scipy
+
+    digest = hashlib.sha256(path.read_bytes()).hexdigest()
+    return {
+        "input": str(path), "input_sha256": digest,
+        "settings_file": sample.settings_file, "settings": sample.settings,
+        "minerals": {m.name: {"source": m.source, "from_memory": list(m.from_memory)}
+                     for m in sample.points.minerals},
+        "versions": {"fabric2seis": __version__, "orix": orix.__version__, "numpy": np.__version__,
+                     "scipy": scipy.__version__, "pandas": pandas.__version__,
+                     "python": sys.version.split()[0]},
+    }
+
+
+def write_json(path: Path, data: Any) -> None:
+    path.write_text(json.dumps(data, indent=2, sort_keys=False, default=plain) + "\n")
+
+
+def fabric_figures(folder: Path, sample_name: str, fabric: FabricResult) -> None:
+    """Pole figures, inverse pole figures and the convergence of the fabric indices."""
+    from fabric2seis.fabric import default_poles
+    from fabric2seis.figures.poles import convergence_figure, inverse_pole_figures, pole_figures
+
+    if not fabric.phases:
+        return
+    phases = [(p.orientations.mineral, p.orientations.quat, p.orientations.weights,
+               default_poles(p.orientations.mineral)) for p in fabric.phases.values()]
+    pole_figures(folder / "pole_figures", sample_name, phases, fabric.halfwidth_deg, fabric.weighting)
+    inverse_pole_figures(folder / "inverse_pole_figures", sample_name, phases, fabric.halfwidth_deg,
+                         fabric.weighting)
+    convergence_figure(folder / "fabric_convergence", sample_name,
+                       {name: p.convergence for name, p in fabric.phases.items()})
+
+
+def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, seismic: SeismicResult,
+                  summary: dict, log: RunLog, inputs: list, results_root: str | Path | None) -> Path:
+    """Write every file of a sample's results folder, whole or not at all; returns ``out``."""
+    from fabric2seis.ingest.grains import grains_table
+
+    agg = seismic.aggregate
+    with folder_written_whole(out, "sample", inputs, results_root) as tmp:
+        write_json(tmp / "summary.json", summary)
+        log.say("writing tables and figures")
+        fabric_figures(tmp, sample.name, fabric)
+        write_json(tmp / "stiffness.json", {
+            **{k: np.round(v, 6).tolist() for k, v in agg.tensors.items()},
+            "density_kg_m3": round(agg.density_kg_m3, 3), "units": "GPa, Voigt order 11 22 33 23 13 12",
+            "frame": "structural (X lineation, Z foliation normal)", "used_for_velocities": agg.average})
+        seismic.grid.table().to_csv(tmp / "velocities.csv", index=False)
+        if seismic.sweep is not None and seismic.field is not None:
+            _write_sweep(tmp, sample.name, seismic)
+        from fabric2seis.figures.velocities import velocity_figure
+
+        velocity_figure(tmp / "velocities", sample.name, agg.stiffness, agg.density_kg_m3, agg.average,
+                        int(summary["n_grains"]))
+        write_json(tmp / "provenance.json", provenance(path, sample))
+        if sample.grains is not None:
+            grains_table(sample.grains, sample.points.minerals).to_csv(tmp / "grains.csv", index=False)
+        log.say(f"done, results in {out}")
+        (tmp / "run.log").write_text("\n".join(log.lines) + "\n")
+    return out
+
+
+def _write_sweep(folder: Path, sample_name: str, seismic: SeismicResult) -> None:
+    """The splitting of the placed layer against back-azimuth: table and figure."""
+    import pandas as pd
+
+    from fabric2seis.figures.splitting import splitting_figure
+
+    sweep, field = seismic.sweep, seismic.field
+    assert sweep is not None and field is not None
+    pd.DataFrame({"back_azimuth_deg": sweep["back_azimuth_deg"], "fast_azimuth_deg": sweep["fast_azimuth_deg"].round(3),
+                  "delay_s": sweep["delay_s"].round(5), "incidence_deg": field["sweep_incidence_deg"]}
+                 ).to_csv(folder / "splitting_vs_backazimuth.csv", index=False)
+    splitting_figure(folder / "splitting_vs_backazimuth", sample_name, sweep, field)

@@ -1,0 +1,110 @@
+"""The typed results each stage of a sample hands to the next (read -> fabric -> seismic -> intervals).
+
+Every stage function in ``pipeline`` takes the previous stage's dataclass and returns its own;
+``sample_output`` turns them into ``summary.json`` and the files of a results folder.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from fabric2seis.orientations import PhaseOrientations
+
+if TYPE_CHECKING:
+    from fabric2seis.ingest.grains import Grains
+    from fabric2seis.ingest.phases import PointSet
+    from fabric2seis.waves.seismic import Aggregate, VelocityGrid
+
+__all__ = ["Sample", "PhaseOrientations", "PhaseFabricResult", "FabricResult", "SeismicResult", "Intervals"]
+
+
+@dataclass
+class Sample:
+    """A sample after ingestion: clean points of named minerals in the structural frame.
+
+    Attributes
+    ----------
+    name, settings, settings_file
+        The sample's name (its file name's stem), its settings as used, and the file they came
+        from (None: defaults only).
+    points
+        Every kept point (pixels of a map, rows of a grain list): orientations (N, 4), minerals,
+        weights, coordinates.
+    grains
+        The reconstructed grains of a map; None for a grain list.
+    fractions, measured_fractions
+        Volume fraction of each mineral used for the tensors, and as measured (area or weight).
+    grid
+        ``"square"``, ``"hex"`` or None (grain list).
+    n_small_grain_points
+        Points dropped with grains smaller than ``grains.min_pixels``.
+    """
+
+    name: str
+    settings: dict
+    settings_file: str | None
+    points: PointSet
+    grains: Grains | None
+    fractions: dict[str, float]
+    measured_fractions: dict[str, float]
+    grid: str | None
+    n_small_grain_points: int
+
+
+@dataclass
+class PhaseFabricResult:
+    """The fabric of one phase: its indices, convergence, random floor and the orientations used."""
+
+    indices: Any                      # fabric.PhaseFabric: J, M, pfJ, eigenanalysis per pole
+    convergence: dict
+    random_floor: dict
+    orientations: PhaseOrientations
+
+
+@dataclass
+class FabricResult:
+    """The fabric stage: per mineral with at least two orientations, in the settings' weighting."""
+
+    phases: dict[str, PhaseFabricResult]
+    weighting: str
+    halfwidth_deg: float
+
+
+@dataclass
+class SeismicResult:
+    """The seismic stage: aggregate tensors, velocity grid, the seismic part of the summary and
+    the splitting along Z and (with ``field`` settings) in the ground with its back-azimuth sweep."""
+
+    aggregate: Aggregate
+    grid: VelocityGrid
+    summary: dict
+    along_z: dict
+    field: dict | None
+    sweep: dict | None
+    weighting: str
+
+
+@dataclass
+class Intervals:
+    """95 % bootstrap intervals and what comes with them (empty when ``bootstrap.n`` is 0).
+
+    ``values`` holds, by key (``avp_pct``, ``olivine.J`` ...), ``[low, high]`` and the notes and
+    settings that ``summary.json`` shows under ``uncertainty``.
+    """
+
+    values: dict = field(default_factory=dict)
+
+    def __bool__(self) -> bool:
+        return bool(self.values)
+
+
+def plain(value: Any) -> Any:
+    """numpy scalars and arrays as plain Python numbers and lists (for JSON)."""
+    if isinstance(value, np.generic):
+        return value.item()
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    raise TypeError(type(value))

@@ -49,7 +49,19 @@ def _above_or_equal(folder: Path, path: Path) -> bool:
 
 
 def written_kind(folder: str | Path) -> str | None:
-    """The kind recorded in ``folder``'s marker file, or None if it has none (or an unreadable one)."""
+    """Read the kind recorded in ``folder``'s marker file.
+
+    Parameters
+    ----------
+    folder : str or Path
+        A folder that may hold a ``MARKER`` file.
+
+    Returns
+    -------
+    str or None
+        ``"sample"``, ``"field"`` or ``"stack"``; None if the folder has no marker, an unreadable
+        one, or one naming another kind.
+    """
     try:
         kind = json.loads((Path(folder) / MARKER).read_text()).get("kind")
     except (OSError, ValueError, AttributeError):
@@ -63,22 +75,32 @@ def check_destination(out: str | Path, kind: str, inputs: Iterable[str | Path] =
 
     Parameters
     ----------
-    out
+    out : str or Path
         The folder the results are to go to.
-    kind
-        What is written: ``"sample"``, ``"field"`` or ``"stack"``.
-    inputs
+    kind : {"sample", "field", "stack"}
+        What is written.
+    inputs : iterable of str or Path
         Files and folders the run reads; the destination may not be equal to or above any of
         them, nor inside an input folder.
-    results_root
+    results_root : str or Path or None
         The folder that holds a suite's results (default ``results``), which is never replaced.
-    option
+    option : str
         The option the destination came from, for the message.
 
     Returns
     -------
     Path
-        ``out`` as given. Raises :class:`InputError` (source ``out``, place ``option``) otherwise.
+        ``out`` as given.
+
+    Raises
+    ------
+    ValueError
+        If ``kind`` is not one of ``KINDS``.
+    InputError
+        (source ``out``, place ``option``) if the destination is the current folder or above it,
+        the results root, equal to, above or inside an input, a symbolic link or a file, or a
+        non-empty folder not written by fabric2seis as results of this ``kind`` (or holding other
+        results folders).
     """
     if kind not in KINDS:
         raise ValueError(f"kind must be one of {KINDS}, not {kind!r}")
@@ -143,10 +165,20 @@ def _is_stale(entry: Path, host: str, pid: int) -> bool:
 
 
 def clear_stale_temporaries(out: str | Path) -> list[Path]:
-    """Remove the stale temporary folders of ``out`` (matched literally); returns those removed.
+    """Remove the stale temporary folders of ``out`` (matched literally).
 
     If ``out`` is missing and a stale folder holds old results moved aside by a run that died
     before putting the new ones in place, those old results are put back first.
+
+    Parameters
+    ----------
+    out : str or Path
+        The destination whose temporaries are looked for beside it.
+
+    Returns
+    -------
+    list of Path
+        The temporary folders removed (not those put back).
     """
     out = Path(out)
     if not out.parent.is_dir():
@@ -172,11 +204,27 @@ def clear_stale_temporaries(out: str | Path) -> list[Path]:
 def folder_written_whole(out: str | Path, kind: str, inputs: Iterable[str | Path] = (),
                          results_root: str | Path | None = "results", option: str = "--out"
                          ) -> Iterator[Path]:
-    """A temporary folder beside ``out`` that replaces it atomically only if the block succeeds.
+    """Give a temporary folder beside ``out`` that replaces it atomically only if the block succeeds.
 
     The destination is checked first (:func:`check_destination`); stale temporary folders of
     ``out`` are cleared; on any error the temporary folder is removed and ``out`` is left as it
     was. The marker file is written into the new folder last, just before it is put in place.
+
+    Parameters
+    ----------
+    out, kind, inputs, results_root, option
+        As for :func:`check_destination`.
+
+    Yields
+    ------
+    Path
+        The temporary folder to write the results into.
+
+    Raises
+    ------
+    InputError, ValueError
+        If the destination is refused, before the block runs or (if something changed it
+        meanwhile) after it; any error of the block itself is raised again after cleaning up.
     """
     from fabric2seis import __version__
 
@@ -212,7 +260,22 @@ def _discard(folder: Path) -> None:
 
 
 def remove_results(out: str | Path, kind: str) -> bool:
-    """Remove ``out`` if and only if it is a fabric2seis results folder of ``kind``; True if removed."""
+    """Remove ``out`` if and only if it is a fabric2seis results folder of ``kind``.
+
+    A folder that holds another results folder inside it is left alone.
+
+    Parameters
+    ----------
+    out : str or Path
+        The folder to remove.
+    kind : {"sample", "field", "stack"}
+        The kind its marker must name.
+
+    Returns
+    -------
+    bool
+        True if the folder was removed.
+    """
     out = Path(out)
     if out.is_symlink() or not out.is_dir() or written_kind(out) != kind:
         return False

@@ -34,7 +34,18 @@ class PhaseOrientations(NamedTuple):
 
 
 def multiply(a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    """Hamilton product of quaternion arrays (broadcasting over leading axes)."""
+    """Hamilton product of quaternion arrays (broadcasting over leading axes).
+
+    Parameters
+    ----------
+    a, b : array_like, shape (..., 4)
+        Quaternions (w, x, y, z); leading axes broadcast against each other.
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 4)
+        ``a * b``, whose rotation matrix is ``A @ B``.
+    """
     a = np.asarray(a, dtype=float)
     b = np.asarray(b, dtype=float)
     a0, a1, a2, a3 = a[..., 0], a[..., 1], a[..., 2], a[..., 3]
@@ -48,7 +59,18 @@ def multiply(a: np.ndarray, b: np.ndarray) -> np.ndarray:
 
 
 def left_matrix(s: np.ndarray) -> np.ndarray:
-    """4x4 matrices L with ``s * q == L @ q`` (left multiplication by s), shape (..., 4, 4)."""
+    """Build the 4x4 matrices L with ``s * q == L @ q`` (left multiplication by s).
+
+    Parameters
+    ----------
+    s : array_like, shape (..., 4)
+        Quaternions (w, x, y, z).
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 4, 4)
+        One matrix per quaternion.
+    """
     s = np.asarray(s, dtype=float)
     a, b, c, d = s[..., 0], s[..., 1], s[..., 2], s[..., 3]
     return np.stack([np.stack([a, -b, -c, -d], -1), np.stack([b, a, -d, c], -1),
@@ -56,7 +78,18 @@ def left_matrix(s: np.ndarray) -> np.ndarray:
 
 
 def right_matrix(p: np.ndarray) -> np.ndarray:
-    """4x4 matrices R with ``q * p == R @ q`` (right multiplication by p), shape (..., 4, 4)."""
+    """Build the 4x4 matrices R with ``q * p == R @ q`` (right multiplication by p).
+
+    Parameters
+    ----------
+    p : array_like, shape (..., 4)
+        Quaternions (w, x, y, z).
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 4, 4)
+        One matrix per quaternion.
+    """
     p = np.asarray(p, dtype=float)
     a, b, c, d = p[..., 0], p[..., 1], p[..., 2], p[..., 3]
     return np.stack([np.stack([a, -b, -c, -d], -1), np.stack([b, a, d, -c], -1),
@@ -64,12 +97,35 @@ def right_matrix(p: np.ndarray) -> np.ndarray:
 
 
 def conjugate(q: np.ndarray) -> np.ndarray:
+    """Conjugate quaternions (the inverse rotation for unit quaternions).
+
+    Parameters
+    ----------
+    q : array_like, shape (..., 4)
+        Quaternions (w, x, y, z).
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 4)
+        (w, -x, -y, -z).
+    """
     q = np.asarray(q, dtype=float)
     return q * np.array([1.0, -1.0, -1.0, -1.0])
 
 
 def proper_symmetry_quaternions(symmetry) -> np.ndarray:
-    """Quaternions (K, 4) of the proper rotations of an orix point-group Symmetry (cached)."""
+    """Return the quaternions of the proper rotations of an orix point group (cached).
+
+    Parameters
+    ----------
+    symmetry : orix.quaternion.Symmetry
+        Point group of the crystal.
+
+    Returns
+    -------
+    numpy.ndarray, shape (K, 4)
+        The K rotations of its proper subgroup, (w, x, y, z).
+    """
     key = (symmetry.name, np.asarray(symmetry.data).round(12).tobytes())
     if key not in _PROPER_CACHE:
         _PROPER_CACHE[key] = np.asarray(symmetry.proper_subgroup.data, dtype=float).reshape(-1, 4)
@@ -89,12 +145,24 @@ _CHUNK = 1 << 18
 
 
 def misorientation_angles(qa: np.ndarray, qb: np.ndarray, sym: np.ndarray) -> np.ndarray:
-    """Smallest misorientation angle (radians) between orientations ``qa`` and ``qb`` (N, 4).
+    """Compute the smallest misorientation angle between pairs of orientations under crystal symmetry.
 
     Both crystals share the proper symmetry ``sym`` (K, 4). The angle of ``s_1 dq s_2`` depends
     only on ``s_2 s_1 dq`` up to conjugation, so the minimum over both crystals' operations is
     the minimum over one: the largest |w| of ``s * dq`` over s, with ``dq = qb * conj(qa)``; and
     ``w(s * qb * conj(qa)) = (s * qb) . qa``, which needs no product with ``qa``.
+
+    Parameters
+    ----------
+    qa, qb : array_like, shape (N, 4)
+        Unit quaternions of the two orientations of each pair.
+    sym : numpy.ndarray, shape (K, 4)
+        Proper symmetry rotations (:func:`proper_symmetry_quaternions`).
+
+    Returns
+    -------
+    numpy.ndarray, shape (N,)
+        Misorientation angles, radians, in [0, pi].
     """
     qa = np.asarray(qa, dtype=float)
     qb = np.asarray(qb, dtype=float)
@@ -107,10 +175,24 @@ def misorientation_angles(qa: np.ndarray, qb: np.ndarray, sym: np.ndarray) -> np
 
 
 def within_angle(qa: np.ndarray, qb: np.ndarray, sym: np.ndarray, angle_rad: float) -> np.ndarray:
-    """Whether the misorientation of each pair is below ``angle_rad`` (no arc cosine needed).
+    """Tell whether the misorientation of each pair is below ``angle_rad`` (no arc cosine needed).
 
     Most neighbouring pixels of a map store the same symmetry variant, so the plain angle is
     tried first and the symmetry operations only for the pairs it does not settle.
+
+    Parameters
+    ----------
+    qa, qb : numpy.ndarray, shape (N, 4)
+        Unit quaternions of the two orientations of each pair.
+    sym : numpy.ndarray, shape (K, 4)
+        Proper symmetry rotations.
+    angle_rad : float
+        Threshold angle, radians.
+
+    Returns
+    -------
+    numpy.ndarray of bool, shape (N,)
+        True where the smallest misorientation is below ``angle_rad``.
     """
     limit = np.cos(angle_rad / 2.0)
     out = np.abs(np.einsum("nc,nc->n", qa, qb)) > limit
@@ -123,18 +205,43 @@ def within_angle(qa: np.ndarray, qb: np.ndarray, sym: np.ndarray, angle_rad: flo
 
 
 def smallest_operation_angle(sym: np.ndarray) -> float:
-    """Smallest rotation angle (radians) of the non-identity operations (pi for the trivial group)."""
+    """Return the smallest rotation angle of the non-identity operations (pi for the trivial group).
+
+    Parameters
+    ----------
+    sym : numpy.ndarray, shape (K, 4)
+        Proper symmetry rotations.
+
+    Returns
+    -------
+    float
+        Angle, radians.
+    """
     w = np.abs(sym[:, 0])
     w = w[w < 1.0 - 1e-9]
     return float(2.0 * np.arccos(w.max())) if len(w) else np.pi
 
 
 def nearest_equivalent(q: np.ndarray, reference: np.ndarray, sym: np.ndarray) -> np.ndarray:
-    """The symmetry-equivalent of each ``q`` (N, 4) closest to ``reference`` (N, 4), sign-aligned.
+    """Find the symmetry-equivalent of each ``q`` closest to its ``reference``, sign-aligned.
 
     Used to bring the pixels of a grain to one variant before averaging. An orientation within
     half the smallest operation angle of its reference is its own nearest variant (every other
     variant is at least that far), so only the others are searched.
+
+    Parameters
+    ----------
+    q : array_like, shape (N, 4)
+        Unit quaternions to move.
+    reference : array_like, shape (N, 4)
+        Unit quaternion each is brought close to.
+    sym : numpy.ndarray, shape (K, 4)
+        Proper symmetry rotations.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 4)
+        Equivalent orientations with a non-negative dot product with ``reference``.
     """
     q = np.asarray(q, dtype=float)
     reference = np.asarray(reference, dtype=float)
@@ -153,8 +260,25 @@ def nearest_equivalent(q: np.ndarray, reference: np.ndarray, sym: np.ndarray) ->
 
 
 def to_matrices(q: np.ndarray) -> np.ndarray:
-    """Bunge matrices g (N, 3, 3) of orix quaternions (what orix's ``Rotation.to_matrix`` gives,
-    written out: three times faster; checked against orix in tests/test_orientations.py)."""
+    """Convert orix quaternions to Bunge orientation matrices g, ``v_crystal = g @ v_sample``.
+
+    This is what orix's ``Rotation.to_matrix`` gives, written out: three times faster; checked
+    against orix in tests/test_orientations.py.
+
+    Parameters
+    ----------
+    q : array_like, shape (N, 4) or (4,)
+        Quaternions (w, x, y, z); normalised here.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 3, 3)
+        Orientation matrices.
+
+    References
+    ----------
+    Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
+    """
     q = np.atleast_2d(np.asarray(q, dtype=float))
     w, x, y, z = (q / np.sqrt(np.einsum("ij,ij->i", q, q))[:, None]).T
     out = np.empty((len(q), 3, 3))
@@ -165,6 +289,18 @@ def to_matrices(q: np.ndarray) -> np.ndarray:
 
 
 def from_matrices(g: np.ndarray) -> np.ndarray:
+    """Convert orientation matrices to orix quaternions; the inverse of :func:`to_matrices`.
+
+    Parameters
+    ----------
+    g : array_like, shape (N, 3, 3) or (3, 3)
+        Rotation matrices in Bunge's convention.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 4)
+        Unit quaternions (w, x, y, z).
+    """
     from orix.quaternion import Rotation  # imported here: orix takes seconds to import
 
     return np.asarray(Rotation.from_matrix(np.asarray(g, dtype=float)).data, dtype=float).reshape(-1, 4)

@@ -34,7 +34,18 @@ def _quiet(_message: str) -> None:
 
 
 def sample_name(path: str | Path) -> str:
-    """The sample's name: the file name without its format suffix (and ``.gz``)."""
+    """Name a sample after its file: the file name without its format suffix (and ``.gz``).
+
+    Parameters
+    ----------
+    path : str or Path
+        The EBSD file.
+
+    Returns
+    -------
+    str
+        The sample's name.
+    """
     name = Path(path).name
     if name.endswith(".gz"):
         name = name[:-3]
@@ -42,7 +53,23 @@ def sample_name(path: str | Path) -> str:
 
 
 def checked_sample_name(path: str | Path) -> str:
-    """:func:`sample_name`, refused (InputError) when it cannot name a results folder of its own."""
+    """Return :func:`sample_name`, refused when it cannot name a results folder of its own.
+
+    Parameters
+    ----------
+    path : str or Path
+        The EBSD file.
+
+    Returns
+    -------
+    str
+        The sample's name.
+
+    Raises
+    ------
+    InputError
+        If the name is empty or made only of dots.
+    """
     name = sample_name(path)
     if name in ("", ".", "..") or name.strip(".") == "":
         raise InputError(f"the file name gives the sample name '{name}', which cannot name a results "
@@ -52,7 +79,30 @@ def checked_sample_name(path: str | Path) -> str:
 
 def ingest(path: str | Path, settings: dict, settings_file: str | None = None,
            progress: Progress | None = None) -> Sample:
-    """Read, map phases, clean, rotate into the structural frame and reconstruct grains."""
+    """Read, map phases, clean, rotate into the structural frame and reconstruct grains.
+
+    Parameters
+    ----------
+    path : str or Path
+        The EBSD file.
+    settings : dict
+        The sample's validated settings.
+    settings_file : str, optional
+        Where the settings came from, for error messages.
+    progress : callable, optional
+        Called with a message at each step.
+
+    Returns
+    -------
+    Sample
+        Clean points (orientations (N, 4) in the structural frame), grains of a map, and the
+        modal fractions.
+
+    Raises
+    ------
+    InputError
+        If the file or settings are refused at any step, or no grain is large enough.
+    """
     say = progress or _quiet
     path = Path(path)
     say(f"reading {path.name}")
@@ -92,6 +142,23 @@ def orientation_sets(sample: Sample, weighting: str) -> list[PhaseOrientations]:
     ``grain``: one vote per grain (the grain's mean orientation, weight 1). CONVENTIONS.md: tensors
     and velocities use ``area`` by default, fabric indices ``grain``.
     ``grain_area`` (for the bootstrap): one orientation per grain, weighted by the grain's area.
+
+    Parameters
+    ----------
+    sample : Sample
+        The ingested sample.
+    weighting : {"area", "grain", "grain_area"}
+        How orientations are counted.
+
+    Returns
+    -------
+    list of PhaseOrientations
+        Per mineral: quaternions (N, 4) and weights (N,).
+
+    Raises
+    ------
+    ValueError
+        If ``weighting`` is not one of the three.
     """
     if weighting not in ("area", "grain", "grain_area"):
         raise ValueError(f"weighting must be 'area', 'grain' or 'grain_area', not {weighting!r}")
@@ -109,7 +176,22 @@ def orientation_sets(sample: Sample, weighting: str) -> list[PhaseOrientations]:
 
 
 def fabric_stage(sample: Sample, progress: Progress | None = None) -> FabricResult:
-    """Fabric indices per mineral (one point per grain unless settings say otherwise)."""
+    """Compute the fabric indices per mineral (one point per grain unless settings say otherwise).
+
+    Minerals with fewer than two orientations are left out.
+
+    Parameters
+    ----------
+    sample : Sample
+        The ingested sample.
+    progress : callable, optional
+        Called with a message at each step.
+
+    Returns
+    -------
+    FabricResult
+        Indices, convergence and random floor of each mineral.
+    """
     from fabric2seis import fabric
 
     say = progress or _quiet
@@ -131,12 +213,42 @@ def fabric_stage(sample: Sample, progress: Progress | None = None) -> FabricResu
 
 
 def twin_setting(settings: dict) -> str:
-    """``average`` or ``as_indexed``: the settings key ``twins`` (``dauphine``, its older name, if set)."""
+    """Read the settings key ``twins`` (``dauphine``, its older name, if set).
+
+    Parameters
+    ----------
+    settings : dict
+        The sample's settings.
+
+    Returns
+    -------
+    str
+        ``"average"`` (the default) or ``"as_indexed"``.
+    """
     return settings.get("dauphine") or settings.get("twins") or "average"
 
 
 def seismic_stage(sample: Sample, progress: Progress | None = None) -> SeismicResult:
-    """Aggregate tensor, velocity grid, the seismic part of the summary, and splitting."""
+    """Compute the aggregate tensor, velocity grid, the seismic part of the summary, and splitting.
+
+    Parameters
+    ----------
+    sample : Sample
+        The ingested sample.
+    progress : callable, optional
+        Called with a message at each step.
+
+    Returns
+    -------
+    SeismicResult
+        Tensors (GPa), velocities (km/s), summary, splitting along Z and, with ``field``
+        settings, in the ground.
+
+    Raises
+    ------
+    InputError
+        If a mineral cannot be brought to the conditions, or the ``field`` settings are refused.
+    """
     from fabric2seis.elastic.decomposition import decomposition_summary
     from fabric2seis.waves import seismic
 
@@ -168,7 +280,27 @@ def seismic_stage(sample: Sample, progress: Progress | None = None) -> SeismicRe
 
 
 def uncertainty_stage(sample: Sample, seis: SeismicResult, progress: Progress | None = None) -> Intervals:
-    """95 % bootstrap intervals (``bootstrap.n`` resamples of the grains, fixed seed)."""
+    """Compute 95 % bootstrap intervals (``bootstrap.n`` resamples of the grains, fixed seed).
+
+    Parameters
+    ----------
+    sample : Sample
+        The ingested sample.
+    seis : SeismicResult
+        The seismic stage (its aggregate).
+    progress : callable, optional
+        Called with a message at each step.
+
+    Returns
+    -------
+    Intervals
+        Intervals of the seismic statistics and of J and M per mineral, the random-aggregate
+        floor, and the settings used; empty when ``bootstrap.n`` is 0.
+
+    References
+    ----------
+    Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, New York.
+    """
     from fabric2seis import uncertainty
 
     n, seed = int(sample.settings["bootstrap"]["n"]), int(sample.settings["bootstrap"]["seed"])
@@ -211,11 +343,41 @@ def uncertainty_stage(sample: Sample, seis: SeismicResult, progress: Progress | 
 
 
 def default_out_dir(path: str | Path) -> Path:
+    """Return the default results folder of a sample: ``results/<sample name>``.
+
+    Parameters
+    ----------
+    path : str or Path
+        The EBSD file.
+
+    Returns
+    -------
+    Path
+        The folder (relative to the current folder).
+
+    Raises
+    ------
+    InputError
+        If the file name cannot name a folder (:func:`checked_sample_name`).
+    """
     return Path("results") / checked_sample_name(path)
 
 
 class RunLog:
-    """Every step with its time since the start, for run.log and the caller's progress."""
+    """Every step with its time since the start, for run.log and the caller's progress.
+
+    Parameters
+    ----------
+    progress : callable, optional
+        Also called with each message.
+
+    Attributes
+    ----------
+    started
+        ``time.perf_counter()`` at creation, seconds.
+    lines
+        The logged lines, each with its time since the start in seconds.
+    """
 
     def __init__(self, progress: Progress | None = None) -> None:
         self.started = time.perf_counter()
@@ -223,6 +385,13 @@ class RunLog:
         self.progress = progress
 
     def say(self, message: str) -> None:
+        """Log a step and pass it on to ``progress``.
+
+        Parameters
+        ----------
+        message : str
+            What is being done.
+        """
         self.lines.append(f"{time.perf_counter() - self.started:8.2f} s  {message}")
         if self.progress is not None:
             self.progress(message)
@@ -237,6 +406,31 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     passes its config, so that ``snakemake --config key=value`` reaches every sample).
     ``results_root``: the suite's results folder, never replaced (``folders.check_destination``).
     The destination is checked before any work, and replaced only when the run succeeded.
+
+    Parameters
+    ----------
+    path : str or Path
+        The EBSD file.
+    settings_path : str or Path, optional
+        Settings file to use instead of the sidecar.
+    out_dir : str or Path, optional
+        Results folder; ``results/<sample name>`` if not given.
+    progress : callable, optional
+        Called with a message at each step.
+    defaults : dict, optional
+        Settings under the sample's sidecar.
+    results_root : str or Path or None
+        The suite's results folder.
+
+    Returns
+    -------
+    Path
+        The results folder written.
+
+    Raises
+    ------
+    InputError
+        If the input, settings or destination are refused.
     """
     from fabric2seis.sample_output import sample_summary, write_results
 

@@ -25,7 +25,19 @@ if TYPE_CHECKING:
 
 
 def ingestion_summary(sample: Sample) -> dict:
-    """Counts, phases and what was dropped: the part of ``summary.json`` known after ingestion."""
+    """Summarise counts, phases and what was dropped: the part of ``summary.json`` known after ingestion.
+
+    Parameters
+    ----------
+    sample : Sample
+        The ingested sample.
+
+    Returns
+    -------
+    dict
+        Sample name, point and grain counts, input kind, grid, per-phase fractions and counts,
+        points dropped and where the fractions came from.
+    """
     p = sample.points
     per_phase = {}
     for k, m in enumerate(p.minerals):
@@ -48,7 +60,24 @@ def ingestion_summary(sample: Sample) -> dict:
 
 
 def sample_summary(sample: Sample, fabric: FabricResult, seismic: SeismicResult, intervals: Intervals) -> dict:
-    """The contents of ``summary.json``: every stage's numbers, their intervals and the cautions."""
+    """Assemble the contents of ``summary.json``: every stage's numbers, their intervals and the cautions.
+
+    Parameters
+    ----------
+    sample : Sample
+        The ingested sample.
+    fabric : FabricResult
+        The fabric stage.
+    seismic : SeismicResult
+        The seismic stage.
+    intervals : Intervals
+        The bootstrap intervals (may be empty).
+
+    Returns
+    -------
+    dict
+        The summary, ready for JSON.
+    """
     from fabric2seis.cautions import sample_cautions
     from fabric2seis.elastic.conditions import assumptions
     from fabric2seis.fabric import indistinguishable_from_random
@@ -97,7 +126,20 @@ def _estimates_outside(report: dict) -> list[str]:
 
 
 def provenance(path: Path, sample: Sample) -> dict:
-    """Input checksum, settings as used, mineral sources and versions."""
+    """Record the input checksum, settings as used, mineral sources and versions.
+
+    Parameters
+    ----------
+    path : Path
+        The EBSD file.
+    sample : Sample
+        The ingested sample.
+
+    Returns
+    -------
+    dict
+        The contents of ``provenance.json``.
+    """
     import orix
     import pandas
     import scipy
@@ -115,11 +157,30 @@ def provenance(path: Path, sample: Sample) -> dict:
 
 
 def write_json(path: Path, data: Any) -> None:
+    """Write ``data`` as indented JSON, numpy numbers and arrays as plain ones.
+
+    Parameters
+    ----------
+    path : Path
+        File to write.
+    data : object
+        Anything ``json`` serialises, with numpy scalars and arrays allowed.
+    """
     path.write_text(json.dumps(data, indent=2, sort_keys=False, default=plain) + "\n")
 
 
 def fabric_figures(folder: Path, sample_name: str, fabric: FabricResult) -> None:
-    """Pole figures, inverse pole figures and the convergence of the fabric indices."""
+    """Draw pole figures, inverse pole figures and the convergence of the fabric indices.
+
+    Parameters
+    ----------
+    folder : Path
+        Folder the figures are written into.
+    sample_name : str
+        Name shown on the figures.
+    fabric : FabricResult
+        The fabric stage; nothing is drawn when it has no phase.
+    """
     from fabric2seis.fabric import default_poles
     from fabric2seis.figures.poles import convergence_figure, inverse_pole_figures, pole_figures
 
@@ -136,7 +197,35 @@ def fabric_figures(folder: Path, sample_name: str, fabric: FabricResult) -> None
 
 def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, seismic: SeismicResult,
                   summary: dict, log: RunLog, inputs: list, results_root: str | Path | None) -> Path:
-    """Write every file of a sample's results folder, whole or not at all; returns ``out``."""
+    """Write every file of a sample's results folder, whole or not at all.
+
+    Parameters
+    ----------
+    out : Path
+        The results folder.
+    path : Path
+        The EBSD file (for its checksum).
+    sample, fabric, seismic
+        The stages' results.
+    summary : dict
+        The contents of ``summary.json`` (:func:`sample_summary`).
+    log : RunLog
+        The run's log, written as ``run.log``.
+    inputs : list
+        Files the run read (the destination may not hold them).
+    results_root : str or Path or None
+        The suite's results folder, never replaced.
+
+    Returns
+    -------
+    Path
+        ``out``.
+
+    Raises
+    ------
+    InputError
+        If the destination is refused (:func:`folders.check_destination`).
+    """
     from fabric2seis.ingest.grains import grains_table
 
     agg = seismic.aggregate

@@ -26,11 +26,35 @@ PROJECT_DEFAULTS = Path("config") / "config.yaml"
 
 @functools.lru_cache(maxsize=1)
 def schema() -> dict:
+    """Load the JSON schema of the settings (``settings_schema.yaml``, cached).
+
+    Returns
+    -------
+    dict
+        The schema as a mapping.
+    """
     return yaml.safe_load(SCHEMA_FILE.read_text())
 
 
 def read_yaml(path: str | Path) -> dict:
-    """A YAML mapping from a file; an empty file is an empty mapping."""
+    """Read a YAML mapping from a file; an empty file is an empty mapping.
+
+    Parameters
+    ----------
+    path : str or Path
+        The settings file.
+
+    Returns
+    -------
+    dict
+        Its keys and values.
+
+    Raises
+    ------
+    InputError
+        If the file cannot be read, is not UTF-8 or UTF-16 text, is not valid YAML (with line and
+        column), or is not a mapping.
+    """
     path = Path(path)
     try:
         data = yaml.safe_load(settings_text(path))
@@ -48,9 +72,26 @@ def read_yaml(path: str | Path) -> dict:
 
 
 def settings_text(path: Path) -> str:
-    """The text of a settings file: UTF-8 (with or without a byte-order mark) or UTF-16 with its mark.
+    """Read the text of a settings file: UTF-8 (with or without a byte-order mark) or UTF-16 with its mark.
 
     Any other encoding is refused with the place of the first byte that is not UTF-8.
+
+    Parameters
+    ----------
+    path : Path
+        The settings file.
+
+    Returns
+    -------
+    str
+        Its text.
+
+    Raises
+    ------
+    InputError
+        If the text is in another encoding.
+    OSError
+        If the file cannot be read.
     """
     raw = path.read_bytes()
     if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
@@ -67,7 +108,27 @@ def settings_text(path: Path) -> str:
 
 
 def validate(settings: dict, source: str | Path | None = None) -> dict:
-    """Check settings against the schema; raise InputError naming the key and what is valid."""
+    """Check settings against the schema, plus the checks a schema cannot express.
+
+    Parameters
+    ----------
+    settings : dict
+        Settings to check.
+    source : str or Path, optional
+        Where they came from, for error messages.
+
+    Returns
+    -------
+    dict
+        ``settings`` itself.
+
+    Raises
+    ------
+    InputError
+        Naming the key and what is valid: an unknown key (with the nearest valid one), a value the
+        schema refuses, modal fractions that do not sum to 1 (within 1e-3), or a lineation and
+        foliation normal along the same sample axis.
+    """
     _check_keys(settings, schema(), "", source)
     errors = sorted(jsonschema.Draft202012Validator(schema()).iter_errors(settings),
                     key=lambda e: list(e.absolute_path))
@@ -103,6 +164,16 @@ def typed(settings: dict) -> dict:
     Snakemake's ``--config key={a: 15}`` hands nested values over as strings; this restores their
     types before validation. Strings that do not read as the wanted type are left for the schema
     to refuse with its message.
+
+    Parameters
+    ----------
+    settings : dict
+        Settings, possibly with numbers and booleans written as strings.
+
+    Returns
+    -------
+    dict
+        A new mapping with those strings read as YAML scalars.
     """
     def walk(value, node):
         if isinstance(value, dict):
@@ -119,7 +190,22 @@ def typed(settings: dict) -> dict:
 
 
 def merge(base: dict, override: dict) -> dict:
-    """Override ``base`` key by key, recursing into mappings (``field``, ``grains`` ...)."""
+    """Override ``base`` key by key, recursing into mappings (``field``, ``grains`` ...).
+
+    ``phases`` and ``modal_fractions`` are replaced whole, not merged.
+
+    Parameters
+    ----------
+    base : dict
+        Settings to start from (not changed).
+    override : dict
+        Settings whose keys win.
+
+    Returns
+    -------
+    dict
+        A new, merged mapping.
+    """
     out = copy.deepcopy(base)
     for key, value in override.items():
         if isinstance(value, dict) and isinstance(out.get(key), dict) and key not in ("phases", "modal_fractions"):
@@ -130,13 +216,35 @@ def merge(base: dict, override: dict) -> dict:
 
 
 def defaults() -> dict:
-    """The default settings: the project's config/config.yaml if present here, else the packaged copy."""
+    """Load the default settings: the project's config/config.yaml if present here, else the packaged copy.
+
+    Returns
+    -------
+    dict
+        Validated default settings.
+
+    Raises
+    ------
+    InputError
+        If the defaults file is not valid.
+    """
     path = PROJECT_DEFAULTS if PROJECT_DEFAULTS.is_file() else PACKAGED_DEFAULTS
     return validate(read_yaml(path), path)
 
 
 def sidecar_of(input_path: str | Path) -> Path:
-    """``sample.ang`` -> ``sample.yaml`` (also ``sample.ang.gz`` -> ``sample.yaml``)."""
+    """Name a sample's sidecar settings file: ``sample.ang`` -> ``sample.yaml`` (also ``sample.ang.gz``).
+
+    Parameters
+    ----------
+    input_path : str or Path
+        The EBSD file.
+
+    Returns
+    -------
+    Path
+        The sidecar beside it (which may not exist).
+    """
     p = Path(input_path)
     name = p.name[:-3] if p.name.endswith(".gz") else p.name
     return p.with_name(Path(name).stem + ".yaml")
@@ -144,10 +252,31 @@ def sidecar_of(input_path: str | Path) -> Path:
 
 def settings_for(input_path: str | Path, settings_path: str | Path | None = None,
                  base: dict | None = None) -> tuple[dict, str | None]:
-    """Settings of one sample and the file they came from (None: defaults only).
+    """Gather the settings of one sample and the file they came from (None: defaults only).
 
     ``base`` replaces the defaults (the workflow passes its config, ``--config`` values included),
     merged over the defaults so that keys it leaves out keep their default values.
+
+    Parameters
+    ----------
+    input_path : str or Path
+        The EBSD file (its sidecar is looked for beside it).
+    settings_path : str or Path, optional
+        A settings file to use instead of the sidecar; it must exist.
+    base : dict, optional
+        Settings to use instead of the defaults.
+
+    Returns
+    -------
+    settings : dict
+        Validated settings.
+    source : str or None
+        The settings file merged over the base, or None.
+
+    Raises
+    ------
+    InputError
+        If a settings file cannot be read or is not valid.
     """
     base = defaults() if base is None else validate(merge(defaults(), base), "the workflow's config")
     chosen = Path(settings_path) if settings_path else sidecar_of(input_path)

@@ -56,7 +56,19 @@ class Sample:
 
 @dataclass
 class PhaseFabricResult:
-    """The fabric of one phase: its indices, convergence, random floor and the orientations used."""
+    """The fabric of one phase: its indices, convergence, random floor and the orientations used.
+
+    Attributes
+    ----------
+    indices
+        ``fabric.PhaseFabric``: J, M, pfJ and the eigenanalysis of each pole.
+    convergence
+        How the indices settle as orientations are added.
+    random_floor
+        The indices of random orientations of as many grains.
+    orientations
+        The orientations (N, 4) and weights (N,) the indices were computed from.
+    """
 
     indices: Any                      # fabric.PhaseFabric: J, M, pfJ, eigenanalysis per pole
     convergence: dict
@@ -66,7 +78,17 @@ class PhaseFabricResult:
 
 @dataclass
 class FabricResult:
-    """The fabric stage: per mineral with at least two orientations, in the settings' weighting."""
+    """The fabric stage: per mineral with at least two orientations, in the settings' weighting.
+
+    Attributes
+    ----------
+    phases
+        Fabric of each mineral, by name.
+    weighting
+        How orientations were weighted (by the settings, e.g. per grain or per area).
+    halfwidth_deg
+        Halfwidth of the ODF kernel, degrees.
+    """
 
     phases: dict[str, PhaseFabricResult]
     weighting: str
@@ -75,8 +97,25 @@ class FabricResult:
 
 @dataclass
 class SeismicResult:
-    """The seismic stage: aggregate tensors, velocity grid, the seismic part of the summary and
-    the splitting along Z and (with ``field`` settings) in the ground with its back-azimuth sweep."""
+    """The seismic stage: aggregate tensors, velocity grid, summary and splitting.
+
+    Attributes
+    ----------
+    aggregate
+        The four averages (6, 6) in GPa and the density in kg/m^3.
+    grid
+        Velocities (km/s) over the lower hemisphere.
+    summary
+        The seismic part of ``summary.json``.
+    along_z
+        Splitting of a shear wave along Z (:func:`waves.seismic.splitting_along`).
+    field
+        With ``field`` settings, the splitting in the ground; else None.
+    sweep
+        With ``field`` settings, its back-azimuth sweep; else None.
+    weighting
+        How orientations were weighted.
+    """
 
     aggregate: Aggregate
     grid: VelocityGrid
@@ -102,7 +141,23 @@ class Intervals:
 
 
 def plain(value: Any) -> Any:
-    """numpy scalars and arrays as plain Python numbers and lists (for JSON)."""
+    """Turn numpy scalars and arrays into plain Python numbers and lists (a ``default`` for ``json.dumps``).
+
+    Parameters
+    ----------
+    value : object
+        The value json cannot serialise itself.
+
+    Returns
+    -------
+    object
+        A Python number or (nested) list.
+
+    Raises
+    ------
+    TypeError
+        For anything that is not a numpy scalar or array.
+    """
     if isinstance(value, np.generic):
         return value.item()
     if isinstance(value, np.ndarray):

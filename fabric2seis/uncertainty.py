@@ -37,12 +37,30 @@ MAX_J_GRAINS = 30_000
 
 
 def resample_counts(n: int, n_resamples: int, rng: np.random.Generator) -> np.ndarray:
-    """How often each of n grains is drawn in each resample (n_resamples, n), as float32.
+    """Draw bootstrap resamples of n grains, as how often each grain is drawn in each resample.
 
     One resample at a time (a count vector of n fits in cache), the resamples split into
     COUNT_STREAMS fixed groups, each drawn from its own stream spawned from ``rng`` and filled by
     a thread (numpy releases the GIL while drawing and counting). The split does not depend on
     the machine, so the counts are the same everywhere for the same seed.
+
+    Parameters
+    ----------
+    n : int
+        Number of grains.
+    n_resamples : int
+        Number of resamples B.
+    rng : numpy.random.Generator
+        Source of the random streams.
+
+    Returns
+    -------
+    numpy.ndarray, shape (B, n), float32
+        Draw counts; each row sums to n.
+
+    References
+    ----------
+    Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, New York.
     """
     from concurrent.futures import ThreadPoolExecutor
 
@@ -59,6 +77,22 @@ def resample_counts(n: int, n_resamples: int, rng: np.random.Generator) -> np.nd
 
 
 def interval(values: np.ndarray) -> list[float]:
+    """Percentile interval (2.5 and 97.5 percentiles) of resampled values, NaNs ignored.
+
+    Parameters
+    ----------
+    values : array_like, shape (B,)
+        A statistic of every resample, in its own unit.
+
+    Returns
+    -------
+    list of float
+        Lower and upper bound, rounded to 1e-6, in the unit of ``values``.
+
+    References
+    ----------
+    Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, New York.
+    """
     lo, hi = np.nanpercentile(np.asarray(values, dtype=float), INTERVAL)
     return [round(float(lo), 6), round(float(hi), 6)]
 
@@ -70,13 +104,46 @@ def basic_interval(estimate: float, values: np.ndarray) -> list[float]:
     above the estimate (a maximum over directions of noisy velocities: the noise only raises a
     maximum) gets an interval shifted down by that bias, where the percentile interval is shifted
     up by it.
+
+    Parameters
+    ----------
+    estimate : float
+        The statistic of the sample itself.
+    values : array_like, shape (B,)
+        The statistic of every resample (NaNs ignored), in the unit of ``estimate``.
+
+    Returns
+    -------
+    list of float
+        Lower and upper bound, rounded to 1e-6.
+
+    References
+    ----------
+    Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, New York.
     """
     lo, hi = np.nanpercentile(np.asarray(values, dtype=float), INTERVAL)
     return [round(float(2.0 * estimate - hi), 6), round(float(2.0 * estimate - lo), 6)]
 
 
 def bias_corrected_interval(estimate: float, values: np.ndarray) -> list[float]:
-    """Bias-corrected percentile interval (BC: BCa with acceleration 0, Efron & Tibshirani 1993, 14.3)."""
+    """Bias-corrected percentile interval (BC: BCa with acceleration 0, Efron & Tibshirani 1993, 14.3).
+
+    Parameters
+    ----------
+    estimate : float
+        The statistic of the sample itself.
+    values : array_like, shape (B,)
+        The statistic of every resample (non-finite values dropped), in the unit of ``estimate``.
+
+    Returns
+    -------
+    list of float
+        Lower and upper bound, rounded to 1e-6.
+
+    References
+    ----------
+    Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, New York.
+    """
     from scipy.stats import norm
 
     v = np.asarray(values, dtype=float)
@@ -94,7 +161,20 @@ SEISMIC_INTERVAL_METHOD = {"avs_max_pct": "basic", "avp_pct": "basic", "vp_max_k
 
 
 def estimates_outside(intervals: dict, estimates: dict) -> list[str]:
-    """Keys whose estimate lies outside its own 95 % interval (a sign of bias or too few grains)."""
+    """List the keys whose estimate lies outside its own 95 % interval (a sign of bias or too few grains).
+
+    Parameters
+    ----------
+    intervals : dict of str to [float, float]
+        Interval of each statistic.
+    estimates : dict of str to float
+        The statistic of the sample itself; missing, None or non-finite values are skipped.
+
+    Returns
+    -------
+    list of str
+        The keys outside their interval, in the order of ``estimates``.
+    """
     out = []
     for key, value in estimates.items():
         bounds = intervals.get(key)
@@ -134,14 +214,49 @@ def _resampled_means(x_kelvin: np.ndarray, g: np.ndarray, weights: np.ndarray, c
 
 def seismic_bootstrap(grain_sets, fractions: dict, average: str, density_kg_m3: float,
                       counts: dict[str, np.ndarray], crystal_tensors: dict | None = None) -> dict[str, np.ndarray]:
-    """AVp, maximum AVs, Vp max and the delay per 100 km along Z of every resample.
+    """Compute AVp, maximum AVs, Vp max and the delay per 100 km along Z of every resample.
 
     ``crystal_tensors``: per mineral, the Kelvin stiffness, compliance and logarithm the aggregate
     used (``Aggregate.crystal_matrices``, twin variants included); the library's ambient constants
     without twins where a mineral is missing.
+
+    Parameters
+    ----------
+    grain_sets : iterable of (Mineral, numpy.ndarray, numpy.ndarray)
+        Per phase: its library mineral, grain mean orientations as orix quaternions (N, 4) in the
+        structural frame, and grain weights (N,).
+    fractions : dict of str to float
+        Volume fraction of each mineral, by name (renormalised over the phases given).
+    average : {"voigt", "reuss", "hill", "geometric"}
+        The average the statistics are computed from.
+    density_kg_m3 : float
+        Density of the rock, kg/m^3.
+    counts : dict of str to numpy.ndarray, each shape (B, N)
+        Draw counts of each mineral's grains in every resample (:func:`resample_counts`).
+    crystal_tensors : dict, optional
+        Per mineral, its Kelvin ``"stiffness"`` (GPa), ``"compliance"`` (1/GPa) and ``"log"``
+        (each (6, 6)) as the aggregate used them (``Aggregate.crystal_matrices``).
+
+    Returns
+    -------
+    dict of str to numpy.ndarray, each shape (B,)
+        ``avp_pct`` and ``avs_max_pct`` (percent), ``vp_max_km_s`` (km/s) and
+        ``delay_s_per_100km`` (s per 100 km along Z), over a grid of RESAMPLE_GRID_STEP_DEG degrees.
+
+    Raises
+    ------
+    KeyError
+        If ``average`` is not one of the four names, or a mineral is missing from ``fractions``
+        or ``counts``.
+
+    References
+    ----------
+    Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, New York.
     """
     total = sum(fractions[m.name] for m, _, _ in grain_sets)
-    stiff = comp = logs = 0.0
+    stiff: np.ndarray | float = 0.0              # sums of arrays once a mineral is added
+    comp: np.ndarray | float = 0.0
+    logs: np.ndarray | float = 0.0
     for mineral, quat, weights in grain_sets:
         x = (crystal_tensors or {}).get(mineral.name) or elastic.crystal_kelvin_matrices(mineral.stiffness_gpa)
         f = fractions[mineral.name] / total
@@ -155,13 +270,13 @@ def seismic_bootstrap(grain_sets, fractions: dict, average: str, density_kg_m3: 
         if average == "geometric":
             logs = logs + f * means[0]
     if average == "voigt":
-        tensors = elastic.kelvin_to_voigt(stiff)
+        tensors = elastic.kelvin_to_voigt(np.asarray(stiff))
     elif average == "reuss":
         tensors = elastic.kelvin_to_voigt(np.linalg.inv(comp))
     elif average == "hill":
-        tensors = (elastic.kelvin_to_voigt(stiff) + elastic.kelvin_to_voigt(np.linalg.inv(comp))) / 2
+        tensors = (elastic.kelvin_to_voigt(np.asarray(stiff)) + elastic.kelvin_to_voigt(np.linalg.inv(comp))) / 2
     else:
-        tensors = elastic.kelvin_to_voigt(elastic.expm_sym(logs))
+        tensors = elastic.kelvin_to_voigt(elastic.expm_sym(np.asarray(logs)))
     tensors = (tensors + np.swapaxes(tensors, 1, 2)) / 2
     dirs, _, _ = waves.hemisphere_grid(RESAMPLE_GRID_STEP_DEG)
     dirs = np.vstack([dirs, [[0.0, 0.0, -1.0]]])          # the last one: along Z, for the delay
@@ -182,6 +297,37 @@ def seismic_intervals(grain_sets, fractions: dict, average: str, density_kg_m3: 
     computed with the resamples, as one more row of counts (all ones). ``methods`` maps a key to
     "basic", "bc" or "percentile" (default ``SEISMIC_INTERVAL_METHOD``). A basic interval of a
     statistic that cannot be negative is cut at zero.
+
+    Parameters
+    ----------
+    grain_sets : iterable of (Mineral, numpy.ndarray, numpy.ndarray)
+        Per phase: its library mineral, grain mean orientations as orix quaternions (N, 4) in the
+        structural frame, and grain weights (N,).
+    fractions : dict of str to float
+        Volume fraction of each mineral, by name (renormalised over the phases given).
+    average : {"voigt", "reuss", "hill", "geometric"}
+        The average the statistics are computed from.
+    density_kg_m3 : float
+        Density of the rock, kg/m^3.
+    counts : dict of str to numpy.ndarray, each shape (B, N)
+        Draw counts of each mineral's grains in every resample (:func:`resample_counts`).
+    crystal_tensors : dict, optional
+        Per mineral, its Kelvin ``"stiffness"`` (GPa), ``"compliance"`` (1/GPa) and ``"log"``
+        (each (6, 6)) as the aggregate used them (``Aggregate.crystal_matrices``).
+    methods : dict of str to str, optional
+        Interval method by statistic, overriding ``SEISMIC_INTERVAL_METHOD``.
+
+    Returns
+    -------
+    intervals : dict of str to [float, float]
+        95 % interval of ``avp_pct``, ``avs_max_pct`` (percent), ``vp_max_km_s`` (km/s) and
+        ``delay_s_per_100km`` (s per 100 km).
+    estimates : dict of str to float
+        The same statistics of the grains themselves.
+
+    References
+    ----------
+    Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, New York.
     """
     with_sample = {name: np.vstack([np.ones((1, c.shape[1]), dtype=np.float32), c]) for name, c in counts.items()}
     values = seismic_bootstrap(grain_sets, fractions, average, density_kg_m3, with_sample, crystal_tensors)
@@ -189,7 +335,21 @@ def seismic_intervals(grain_sets, fractions: dict, average: str, density_kg_m3: 
 
 
 def intervals_from_resamples(values: dict[str, np.ndarray], methods: dict | None = None) -> dict:
-    """Intervals from statistics whose first row is the sample's own and the rest the resamples'."""
+    """Build intervals from statistics whose first row is the sample's own and the rest the resamples'.
+
+    Parameters
+    ----------
+    values : dict of str to numpy.ndarray, each shape (B + 1,)
+        Each statistic: the sample's value first, then every resample's.
+    methods : dict of str to str, optional
+        ``"basic"``, ``"bc"`` or ``"percentile"`` by statistic, overriding
+        ``SEISMIC_INTERVAL_METHOD``; statistics named in neither get a percentile interval.
+
+    Returns
+    -------
+    dict of str to [float, float]
+        Interval of each statistic, in its unit (basic intervals cut at zero).
+    """
     methods = {**SEISMIC_INTERVAL_METHOD, **(methods or {})}
     out = {}
     for key, v in values.items():
@@ -216,6 +376,33 @@ def random_aggregate_floor(grain_sets, fractions: dict, average: str, density_kg
     with their counts divided by one factor k and the anisotropies multiplied by 1 / sqrt(k).
     ``n_sets`` aggregates (fixed seed) give the mean (the floor) and the 2.5-97.5 percentile range.
     Cached in memory and in ``$XDG_CACHE_HOME/fabric2seis``.
+
+    Parameters
+    ----------
+    grain_sets : iterable of (Mineral, numpy.ndarray, numpy.ndarray)
+        Per phase: its library mineral, grain mean orientations as orix quaternions (N, 4) in the
+        structural frame, and grain weights (N,).
+    fractions : dict of str to float
+        Volume fraction of each mineral, by name (renormalised over the phases given).
+    average : {"voigt", "reuss", "hill", "geometric"}
+        The average the statistics are computed from.
+    density_kg_m3 : float
+        Density of the rock, kg/m^3.
+    crystal_tensors : dict, optional
+        Per mineral, its Kelvin ``"stiffness"`` (GPa), ``"compliance"`` (1/GPa) and ``"log"``
+        (each (6, 6)) as the aggregate used them (``Aggregate.crystal_matrices``).
+    n_sets : int
+        Number of random aggregates.
+    max_grains : int
+        Largest grain count simulated for one phase.
+    seed : int
+        Seed of the random orientations.
+
+    Returns
+    -------
+    dict
+        ``avs_max_pct`` and ``avp_pct`` (mean, percent) with their ``_95`` ranges, and
+        ``random_sets``, ``simulated_grains`` (by mineral) and ``scaled_by`` (1 / sqrt(k)).
     """
     import hashlib
     import json
@@ -273,7 +460,35 @@ _AGGREGATE_FLOORS: dict = {}
 
 def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.ndarray,
                      halfwidth_deg: float, rng: np.random.Generator) -> dict[str, np.ndarray | None]:
-    """J (quadratic form over the pair matrix) and M (weighted pairs of distinct grains) of every resample."""
+    """Compute J (quadratic form over the pair matrix) and M (weighted pairs of distinct grains) of every resample.
+
+    Parameters
+    ----------
+    mineral : fabric2seis.elastic.minerals.Mineral
+        Library entry of the phase (its crystal symmetry).
+    quat : numpy.ndarray, shape (N, 4)
+        Grain mean orientations, orix quaternions.
+    weights : numpy.ndarray, shape (N,)
+        Grain weights.
+    counts : numpy.ndarray, shape (B, N)
+        Draw counts of every resample (:func:`resample_counts`).
+    halfwidth_deg : float
+        Halfwidth of the kernel of the ODF behind J, degrees.
+    rng : numpy.random.Generator
+        Picks the grain pairs of the M-index when there are too many to take all.
+
+    Returns
+    -------
+    dict
+        ``"J"``: J-index of every resample, shape (B,), or None above MAX_J_GRAINS grains;
+        ``"M"``: bias-shifted M-index of every resample, shape (B,), NaN where a resample has no pair.
+
+    References
+    ----------
+    Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
+    Skemer, P., Katayama, I., Jiang, Z. & Karato, S. (2005). Tectonophysics 411, 157-167.
+    Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, New York.
+    """
     j = None
     if len(quat) <= MAX_J_GRAINS:
         v = (counts * weights[None, :]).T                            # (N, B), unnormalised
@@ -323,6 +538,26 @@ def resampled_j(forms: np.ndarray, diagonal: np.ndarray, counts: np.ndarray, wei
     would raise J by about J_1 / N.
 
     ``forms`` are v^T A v with v = c w (``fabric.j_quadratic_forms``), ``diagonal`` the A_ii.
+
+    Parameters
+    ----------
+    forms : numpy.ndarray, shape (B,)
+        v^T A v of every resample.
+    diagonal : numpy.ndarray, shape (N,)
+        Self-pair terms A_ii.
+    counts : numpy.ndarray, shape (B, N)
+        Draw counts of every resample.
+    weights : numpy.ndarray, shape (N,)
+        Grain weights.
+
+    Returns
+    -------
+    numpy.ndarray, shape (B,)
+        J-index of every resample, dimensionless.
+
+    References
+    ----------
+    Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
     """
     c = np.asarray(counts, dtype=float)
     w2 = np.asarray(weights, dtype=float) ** 2

@@ -34,25 +34,105 @@ NEGLIGIBLE_DP_GPA = 0.1
 
 
 def offsets(mineral, pressure_gpa: float, temperature_c: float) -> tuple[float, float]:
-    """(dP GPa, dT K) of the sample's conditions from those the mineral's constants were measured at."""
+    """Offsets of the sample's conditions from those the mineral's constants were measured at.
+
+    Parameters
+    ----------
+    mineral : fabric2seis.elastic.minerals.Mineral
+        Library entry with its reference conditions.
+    pressure_gpa : float
+        Pressure, GPa.
+    temperature_c : float
+        Temperature, degrees Celsius.
+
+    Returns
+    -------
+    tuple of float
+        dP in GPa and dT in K.
+    """
     return (pressure_gpa - mineral.reference_pressure_gpa, temperature_c - mineral.reference_temperature_c)
 
 
 def at_reference(mineral, pressure_gpa: float, temperature_c: float) -> bool:
-    """True when the conditions are those the constants were measured at (no correction at all)."""
+    """Tell whether the conditions are those the constants were measured at (no correction at all).
+
+    Parameters
+    ----------
+    mineral : fabric2seis.elastic.minerals.Mineral
+        Library entry with its reference conditions.
+    pressure_gpa : float
+        Pressure, GPa.
+    temperature_c : float
+        Temperature, degrees Celsius.
+
+    Returns
+    -------
+    bool
+        True when both offsets vanish (to rounding).
+    """
     dp, dt = offsets(mineral, pressure_gpa, temperature_c)
     return abs(dp) < 1e-12 and abs(dt) < 1e-9
 
 
 def birch_murnaghan_pressure(x: float, k0_gpa: float, k0_prime: float) -> float:
-    """Third-order Birch-Murnaghan pressure (GPa) at x = (rho / rho0)^(1/3)."""
+    """Third-order Birch-Murnaghan pressure at a given compression.
+
+    Parameters
+    ----------
+    x : float
+        Compression (rho / rho0)^(1/3), dimensionless.
+    k0_gpa : float
+        Bulk modulus at zero pressure, GPa.
+    k0_prime : float
+        Its pressure derivative, dimensionless.
+
+    Returns
+    -------
+    float
+        Pressure, GPa.
+
+    References
+    ----------
+    Birch, F. (1947). Finite elastic strain of cubic crystals. Phys. Rev. 71, 809-824.
+    """
     return 1.5 * k0_gpa * (x ** 7 - x ** 5) * (1.0 + 0.75 * (k0_prime - 4.0) * (x ** 2 - 1.0))
 
 
 def density_at(rho0: float, pressure_gpa: float, temperature_c: float, k0_gpa: float, k0_prime: float,
                alpha_per_k: float, reference_c: float = AMBIENT_C) -> float:
-    """Density (kg/m^3) by thermal expansion from ``reference_c`` then third-order Birch-Murnaghan
-    compression (``pressure_gpa`` counted from the reference pressure)."""
+    """Density by thermal expansion from ``reference_c`` then third-order Birch-Murnaghan compression.
+
+    Parameters
+    ----------
+    rho0 : float
+        Density at the reference conditions, kg/m^3.
+    pressure_gpa : float
+        Pressure counted from the reference pressure, GPa.
+    temperature_c : float
+        Temperature, degrees Celsius.
+    k0_gpa : float
+        Bulk modulus at zero pressure, GPa.
+    k0_prime : float
+        Its pressure derivative, dimensionless.
+    alpha_per_k : float
+        Volumetric thermal expansion coefficient, 1/K.
+    reference_c : float
+        Temperature at which ``rho0`` holds, degrees Celsius.
+
+    Returns
+    -------
+    float
+        Density, kg/m^3.
+
+    Raises
+    ------
+    ValueError
+        If the pressure needs a compression x outside [1, 1.5] (from ``scipy.optimize.brentq``).
+
+    References
+    ----------
+    Birch, F. (1947). Finite elastic strain of cubic crystals. Phys. Rev. 71, 809-824.
+    """
     rho_t = rho0 * np.exp(-alpha_per_k * (temperature_c - reference_c))
     if pressure_gpa == 0:
         return float(rho_t)
@@ -61,7 +141,23 @@ def density_at(rho0: float, pressure_gpa: float, temperature_c: float, k0_gpa: f
 
 
 def assumptions(mineral, pressure_gpa: float, temperature_c: float) -> list[str]:
-    """What had to be assumed to bring ``mineral`` to the conditions (empty at its reference conditions)."""
+    """List what had to be assumed to bring ``mineral`` to the conditions (empty at its reference conditions).
+
+    Parameters
+    ----------
+    mineral : fabric2seis.elastic.minerals.Mineral
+        Library entry.
+    pressure_gpa : float
+        Pressure, GPa.
+    temperature_c : float
+        Temperature, degrees Celsius.
+
+    Returns
+    -------
+    list of str
+        One sentence per assumption (missing derivatives, equation of state or thermal
+        expansion; derivatives marked from memory).
+    """
     notes = []
     dp, dt = offsets(mineral, pressure_gpa, temperature_c)
     where = (f"{mineral.name}: constants measured at {mineral.reference_temperature_c:g} C, "
@@ -98,10 +194,34 @@ def _refuse_unless(allowed: bool, mineral, missing: str, target: str, key: str) 
 
 def at_conditions(mineral, pressure_gpa: float, temperature_c: float,
                   allow_ambient: bool = False) -> tuple[np.ndarray, float]:
-    """(stiffness in orix's crystal frame, density) of ``mineral`` at P (GPa) and T (C).
+    """Bring a mineral's stiffness (orix's crystal frame) and density to pressure and temperature.
 
     Corrections start from the mineral's reference conditions; a missing derivative is refused
     (unless ``allow_ambient``) only beyond ``NEGLIGIBLE_DP_GPA`` / ``NEGLIGIBLE_DT_C`` of them.
+
+    Parameters
+    ----------
+    mineral : fabric2seis.elastic.minerals.Mineral
+        Library entry with its constants, derivatives and equation of state.
+    pressure_gpa : float
+        Pressure, GPa.
+    temperature_c : float
+        Temperature, degrees Celsius.
+    allow_ambient : bool
+        Use the constants as measured where derivatives or thermal expansion are missing.
+
+    Returns
+    -------
+    stiffness : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa.
+    density : float
+        Density, kg/m^3.
+
+    Raises
+    ------
+    InputError
+        If a derivative or the thermal expansion the conditions need is missing and
+        ``allow_ambient`` is false, or the corrected stiffness is not valid.
     """
     c = mineral.stiffness_gpa.copy()
     dp, dt = offsets(mineral, pressure_gpa, temperature_c)

@@ -32,12 +32,49 @@ def _group_average(c: np.ndarray, rotations: np.ndarray) -> np.ndarray:
 
 
 def isotropic_projection(c: np.ndarray) -> np.ndarray:
+    """Project a stiffness onto the isotropic tensors (its Voigt bulk and shear moduli).
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa.
+
+    Returns
+    -------
+    numpy.ndarray, shape (6, 6)
+        Isotropic Voigt stiffness, GPa.
+
+    References
+    ----------
+    Browaeys, J. T. & Chevrot, S. (2004). Decomposition of the elastic tensor and geophysical applications.
+    Geophys. J. Int. 159, 667-678.
+    """
     return elastic.isotropic_stiffness(*elastic.voigt_moduli(c))
 
 
 def hexagonal_projection(c: np.ndarray, axis: np.ndarray) -> np.ndarray:
-    """Average over rotations about ``axis`` (12 angles are exact: elastic tensors hold angular
-    harmonics up to 4 theta)."""
+    """Project a stiffness onto the tensors transversely isotropic about ``axis``.
+
+    The projection is the average over rotations about ``axis`` (12 angles are exact: elastic
+    tensors hold angular harmonics up to 4 theta).
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa.
+    axis : array_like, shape (3,)
+        Symmetry axis (normalised here).
+
+    Returns
+    -------
+    numpy.ndarray, shape (6, 6)
+        Transversely isotropic Voigt stiffness, GPa.
+
+    References
+    ----------
+    Browaeys, J. T. & Chevrot, S. (2004). Decomposition of the elastic tensor and geophysical applications.
+    Geophys. J. Int. 159, 667-678.
+    """
     return _group_average(c, _rotation_about(np.asarray(axis, float), np.arange(12) * np.pi / 6))
 
 
@@ -56,7 +93,25 @@ def _frame_group(frame: np.ndarray, kind: str) -> np.ndarray:
 
 
 def best_hexagonal_axis(c: np.ndarray) -> np.ndarray:
-    """Axis whose transversely isotropic projection of the anisotropic part has the largest norm."""
+    """Find the axis whose transversely isotropic projection of the anisotropic part has the largest norm.
+
+    A search over a 6-degree hemisphere grid, refined by Nelder-Mead in azimuth and plunge.
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa.
+
+    Returns
+    -------
+    numpy.ndarray, shape (3,)
+        Unit axis with z <= 0.
+
+    References
+    ----------
+    Browaeys, J. T. & Chevrot, S. (2004). Decomposition of the elastic tensor and geophysical applications.
+    Geophys. J. Int. 159, 667-678.
+    """
     aniso = elastic.voigt_to_kelvin(c - isotropic_projection(c))
 
     def norm_of(v):
@@ -77,7 +132,26 @@ def best_hexagonal_axis(c: np.ndarray) -> np.ndarray:
 
 
 def decompose(c: np.ndarray) -> dict:
-    """Successive decomposition by symmetry class; parts (Voigt, GPa), percentages and the frame."""
+    """Decompose a stiffness successively by symmetry class.
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa.
+
+    Returns
+    -------
+    dict
+        ``"parts"``: the isotropic, hexagonal, tetragonal, orthorhombic, monoclinic and triclinic
+        parts, each a Voigt stiffness (6, 6) in GPa, summing to ``c``; ``"percent"``: each part's
+        share of the squared Kelvin norm, percent; ``"hexagonal_axis"``: unit vector (3,);
+        ``"frame"``: the symmetry frame (3, 3), rows axes 1, 2, 3.
+
+    References
+    ----------
+    Browaeys, J. T. & Chevrot, S. (2004). Decomposition of the elastic tensor and geophysical applications.
+    Geophys. J. Int. 159, 667-678.
+    """
     c = np.asarray(c, dtype=float)
     total = np.linalg.norm(elastic.voigt_to_kelvin(c)) ** 2
     iso = isotropic_projection(c)
@@ -115,7 +189,28 @@ def decompose(c: np.ndarray) -> dict:
 
 
 def thomsen_parameters(c_ti: np.ndarray, axis: np.ndarray, density_kg_m3: float) -> dict:
-    """Thomsen (1986) epsilon, gamma, delta and the axial velocities of a TI tensor with ``axis``."""
+    """Compute Thomsen (1986) epsilon, gamma, delta and the axial velocities of a TI tensor with ``axis``.
+
+    Parameters
+    ----------
+    c_ti : numpy.ndarray, shape (6, 6)
+        Transversely isotropic Voigt stiffness, GPa.
+    axis : array_like, shape (3,)
+        Its symmetry axis (normalised here).
+    density_kg_m3 : float
+        Density, kg/m^3.
+
+    Returns
+    -------
+    dict
+        ``epsilon``, ``gamma``, ``delta`` (dimensionless), ``vp0_km_s`` and ``vs0_km_s`` (P and S
+        velocities along the axis, km/s), and ``c_ti_axis_frame_gpa``: c11, c33, c44, c66, c13 in
+        GPa in a frame with the axis along 3.
+
+    References
+    ----------
+    Thomsen, L. (1986). Weak elastic anisotropy. Geophysics 51, 1954-1966.
+    """
     axis = np.asarray(axis, float) / np.linalg.norm(axis)
     e1 = np.cross(axis, [1.0, 0, 0] if abs(axis[0]) < 0.9 else [0, 1.0, 0])
     e1 /= np.linalg.norm(e1)
@@ -134,6 +229,28 @@ def thomsen_parameters(c_ti: np.ndarray, axis: np.ndarray, density_kg_m3: float)
 
 
 def decomposition_summary(c: np.ndarray, density_kg_m3: float) -> dict:
+    """Summarise the decomposition of a stiffness and the Thomsen parameters of its TI part, rounded.
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa.
+    density_kg_m3 : float
+        Density, kg/m^3.
+
+    Returns
+    -------
+    dict
+        ``percent`` by symmetry class, ``hexagonal_axis`` (3,), ``symmetry_frame`` (3, 3),
+        ``thomsen`` (:func:`thomsen_parameters` of the isotropic plus hexagonal parts) and a
+        ``definition`` of the percentages.
+
+    References
+    ----------
+    Browaeys, J. T. & Chevrot, S. (2004). Decomposition of the elastic tensor and geophysical applications.
+    Geophys. J. Int. 159, 667-678.
+    Thomsen, L. (1986). Weak elastic anisotropy. Geophysics 51, 1954-1966.
+    """
     d = decompose(c)
     ti = d["parts"]["isotropic"] + d["parts"]["hexagonal"]
     return {

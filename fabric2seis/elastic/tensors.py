@@ -26,7 +26,7 @@ import numpy as np
 from fabric2seis.errors import InputError
 
 __all__ = [
-    "VOIGT_PAIRS", "CHUNK", "AVERAGES", "voigt_to_tensor", "tensor_to_voigt", "voigt_to_kelvin",
+    "VOIGT_PAIRS", "check_rotations", "CHUNK", "AVERAGES", "voigt_to_tensor", "tensor_to_voigt", "voigt_to_kelvin",
     "kelvin_to_voigt", "compliance", "check_stiffness", "kelvin_rotation", "rotate_voigt",
     "crystal_to_sample", "rotated_kelvin", "rotated_kelvin_upper", "logm_spd", "expm_sym",
     "PhaseTensors", "crystal_kelvin_matrices", "weighted_rotated_mean", "average_tensors",
@@ -52,22 +52,61 @@ AVERAGES = ("voigt", "reuss", "hill", "geometric")
 
 
 def voigt_to_tensor(c: np.ndarray) -> np.ndarray:
-    """6x6 Voigt stiffness (..., 6, 6) -> full tensor (..., 3, 3, 3, 3)."""
+    """Expand Voigt stiffness matrices into full fourth-rank tensors.
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (..., 6, 6)
+        Voigt stiffness, index order 11, 22, 33, 23, 13, 12, GPa (any unit is carried through).
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 3, 3, 3, 3)
+        The same stiffness as ``C_ijkl``, in the unit of ``c``.
+    """
     c = np.asarray(c, dtype=float)
     return c[..., _VOIGT_OF[:, :, None, None], _VOIGT_OF[None, None, :, :]]
 
 
 def tensor_to_voigt(t: np.ndarray) -> np.ndarray:
-    """Full stiffness tensor (..., 3, 3, 3, 3) -> 6x6 Voigt matrix (..., 6, 6)."""
+    """Contract full fourth-rank stiffness tensors to Voigt matrices.
+
+    Parameters
+    ----------
+    t : numpy.ndarray, shape (..., 3, 3, 3, 3)
+        Stiffness ``C_ijkl`` with the usual minor and major symmetries, GPa.
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 6, 6)
+        Voigt stiffness, index order 11, 22, 33, 23, 13, 12, in the unit of ``t``.
+    """
     t = np.asarray(t, dtype=float)
     return t[..., _I[:, None], _J[:, None], _I[None, :], _J[None, :]]
 
 
 def voigt_to_kelvin(c: np.ndarray, kind: str = "stiffness") -> np.ndarray:
-    """Voigt stiffness or compliance (..., 6, 6) -> Kelvin (Mandel) form.
+    """Convert a Voigt stiffness or compliance to Kelvin (Mandel) form.
 
     A Voigt compliance carries factors 2 and 4 on its shear terms; its Kelvin form divides
     them out again, so that the Kelvin compliance is the inverse of the Kelvin stiffness.
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (..., 6, 6)
+        Voigt stiffness (GPa) or Voigt compliance (1/GPa).
+    kind : {"stiffness", "compliance"}
+        Which of the two ``c`` is.
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 6, 6)
+        Kelvin form, in the unit of ``c``.
+
+    Raises
+    ------
+    ValueError
+        If ``kind`` is neither ``"stiffness"`` nor ``"compliance"``.
     """
     c = np.asarray(c, dtype=float)
     if kind == "stiffness":
@@ -78,7 +117,25 @@ def voigt_to_kelvin(c: np.ndarray, kind: str = "stiffness") -> np.ndarray:
 
 
 def kelvin_to_voigt(k: np.ndarray, kind: str = "stiffness") -> np.ndarray:
-    """Inverse of :func:`voigt_to_kelvin`."""
+    """Convert a Kelvin (Mandel) matrix back to Voigt form; the inverse of :func:`voigt_to_kelvin`.
+
+    Parameters
+    ----------
+    k : numpy.ndarray, shape (..., 6, 6)
+        Kelvin stiffness (GPa) or Kelvin compliance (1/GPa).
+    kind : {"stiffness", "compliance"}
+        Which of the two ``k`` is.
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 6, 6)
+        Voigt stiffness or Voigt compliance (shear factors 2 and 4 restored), in the unit of ``k``.
+
+    Raises
+    ------
+    ValueError
+        If ``kind`` is neither ``"stiffness"`` nor ``"compliance"``.
+    """
     k = np.asarray(k, dtype=float)
     if kind == "stiffness":
         return k / _KELVIN_OUTER
@@ -88,7 +145,23 @@ def kelvin_to_voigt(k: np.ndarray, kind: str = "stiffness") -> np.ndarray:
 
 
 def compliance(c: np.ndarray) -> np.ndarray:
-    """Voigt compliance (1/GPa) of a Voigt stiffness (GPa): the plain 6x6 inverse."""
+    """Voigt compliance of a Voigt stiffness: the plain 6x6 inverse.
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (..., 6, 6)
+        Voigt stiffness, GPa.
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 6, 6)
+        Voigt compliance (shear factors 2 and 4 included), 1/GPa.
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        If ``c`` is singular.
+    """
     return np.linalg.inv(np.asarray(c, dtype=float))
 
 
@@ -99,8 +172,25 @@ def check_stiffness(c: np.ndarray, source: str | None = None, where: str | None 
                     rtol: float = 1e-8) -> np.ndarray:
     """Return ``c`` as a float 6x6 array after checking it is a valid stiffness.
 
-    Raises :class:`InputError` unless ``c`` is 6x6, finite, symmetric (to ``rtol`` of its
-    largest entry) and positive definite (strain energy positive for every strain).
+    Parameters
+    ----------
+    c : array_like, shape (6, 6)
+        Voigt stiffness, GPa.
+    source, where : str, optional
+        File and place (key, line) the stiffness came from, carried by the error message.
+    rtol : float
+        Largest asymmetry ``|c_ij - c_ji|`` allowed, relative to the largest entry of ``c``.
+
+    Returns
+    -------
+    numpy.ndarray, shape (6, 6)
+        ``c`` as floats, GPa.
+
+    Raises
+    ------
+    InputError
+        Unless ``c`` is 6x6, finite, symmetric (to ``rtol`` of its largest entry) and positive
+        definite (strain energy positive for every strain).
     """
     c = np.asarray(c, dtype=float)
     if c.shape != (6, 6):
@@ -126,12 +216,27 @@ def check_stiffness(c: np.ndarray, source: str | None = None, where: str | None 
 
 
 def kelvin_rotation(r: np.ndarray) -> np.ndarray:
-    """6x6 Kelvin rotation matrices (..., 6, 6) of 3x3 rotations ``r`` (..., 3, 3).
+    """Build the 6x6 Kelvin rotation matrices of 3x3 rotations.
 
     For a tensor rotated as ``T'_ijkl = r_ia r_jb r_kc r_ld T_abcd`` the Kelvin form rotates as
     ``K' = Q K Q^T`` with ``Q`` orthogonal (Mehrabadi & Cowin 1990):
     ``Q_ab = s_a s_b / 2 (r_ik r_jl + r_il r_jk)`` for Voigt pairs a = (i, j), b = (k, l) and
     ``s = 1`` on normal, ``sqrt(2)`` on shear indices.
+
+    Parameters
+    ----------
+    r : numpy.ndarray, shape (..., 3, 3)
+        Orthogonal matrices mapping old axes to new (not checked here).
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 6, 6)
+        Orthogonal Kelvin rotations ``Q``.
+
+    References
+    ----------
+    Mehrabadi, M. M. & Cowin, S. C. (1990). Eigentensors of linear anisotropic elastic materials.
+    Q. J. Mech. Appl. Math. 43, 15-41.
     """
     r = np.asarray(r, dtype=float)
     lead = r.shape[:-2]
@@ -164,23 +269,128 @@ def _kelvin_rotation_by_component(rc: np.ndarray) -> np.ndarray:
     return out
 
 
+def check_rotations(r: np.ndarray, what: str = "rotation matrices", tolerance: float = 1e-6,
+                    proper: bool = True) -> np.ndarray:
+    """Check that matrices are orthogonal (and, if ``proper``, of determinant +1).
+
+    ``tolerance`` is the largest entry of ``r r^T - I`` allowed (rounding of matrices built from
+    quaternions is ~1e-15). Improper operations (reflections, inversion) are fine for tensors of
+    even rank, so :func:`rotate_voigt` accepts them.
+
+    Parameters
+    ----------
+    r : array_like, shape (..., 3, 3)
+        Matrices to check.
+    what : str
+        How the matrices are named in error messages.
+    tolerance : float
+        Largest absolute entry of ``r r^T - I`` accepted.
+    proper : bool
+        Whether reflections (determinant -1) are refused.
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 3, 3)
+        ``r`` as floats.
+
+    Raises
+    ------
+    ValueError
+        If ``r`` is not of shape (..., 3, 3), not orthogonal within ``tolerance``, or, with
+        ``proper``, includes a reflection.
+    """
+    r = np.asarray(r, dtype=float)
+    if r.ndim < 2 or r.shape[-2:] != (3, 3):
+        raise ValueError(f"{what} must have shape (..., 3, 3), got {r.shape}")
+    if r.size == 0:
+        return r
+    gram = np.einsum("...ij,...kj->...ik", r, r) - np.eye(3)
+    worst = float(np.abs(gram).max())
+    if not worst <= tolerance:
+        raise ValueError(f"{what} are not orthogonal: r r^T differs from the identity by up to {worst:.2e}")
+    if proper and np.any(np.linalg.det(r) < 0):
+        raise ValueError(f"{what} include reflections (determinant -1); proper rotations are needed")
+    return r
+
+
 def rotate_voigt(c: np.ndarray, r: np.ndarray) -> np.ndarray:
-    """Rotate Voigt stiffness ``c`` (6, 6) by rotations ``r`` (..., 3, 3): ``r`` maps old axes to new."""
-    q = kelvin_rotation(r)
+    """Rotate a Voigt stiffness by one or more rotations; ``r`` maps old axes to new.
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa.
+    r : numpy.ndarray, shape (..., 3, 3)
+        Orthogonal matrices; reflections are fine for a tensor of even rank.
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 6, 6)
+        Rotated Voigt stiffnesses, GPa.
+
+    Raises
+    ------
+    ValueError
+        If ``r`` are not orthogonal (:func:`check_rotations`).
+
+    References
+    ----------
+    Mehrabadi, M. M. & Cowin, S. C. (1990). Q. J. Mech. Appl. Math. 43, 15-41 (Kelvin rotations).
+    """
+    q = kelvin_rotation(check_rotations(r, proper=False))
     return kelvin_to_voigt(q @ voigt_to_kelvin(c) @ np.swapaxes(q, -1, -2))
 
 
 def crystal_to_sample(c_crystal: np.ndarray, g: np.ndarray, chunk: int = CHUNK) -> np.ndarray:
-    """Crystal-frame Voigt stiffness -> sample-frame stiffnesses (N, 6, 6) for Bunge matrices ``g``.
+    """Express a crystal-frame Voigt stiffness in the sample frame for each of N orientations.
 
     Used where every grain's tensor is needed (the bootstrap); for averages use
     :func:`weighted_rotated_mean`, which never stores them.
+
+    Parameters
+    ----------
+    c_crystal : numpy.ndarray, shape (6, 6)
+        Voigt stiffness in the crystal Cartesian frame, GPa.
+    g : numpy.ndarray, shape (N, 3, 3)
+        Bunge orientation matrices, ``v_crystal = g @ v_sample``.
+    chunk : int
+        Orientations rotated at once (bounds memory).
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 6, 6)
+        Sample-frame Voigt stiffnesses, GPa.
+
+    Raises
+    ------
+    ValueError
+        If ``g`` is not of shape (N, 3, 3).
     """
     return kelvin_to_voigt(rotated_kelvin(voigt_to_kelvin(c_crystal), g, chunk))
 
 
 def rotated_kelvin(x_kelvin: np.ndarray, g: np.ndarray, chunk: int = CHUNK) -> np.ndarray:
-    """Crystal-frame Kelvin matrix rotated into the sample frame for every orientation (N, 6, 6)."""
+    """Rotate a crystal-frame Kelvin matrix into the sample frame for every orientation.
+
+    Parameters
+    ----------
+    x_kelvin : numpy.ndarray, shape (6, 6)
+        Kelvin stiffness (GPa), compliance (1/GPa) or its logarithm, in the crystal frame.
+    g : numpy.ndarray, shape (N, 3, 3)
+        Bunge orientation matrices, ``v_crystal = g @ v_sample``.
+    chunk : int
+        Orientations rotated at once (bounds memory).
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 6, 6)
+        ``Q_n X Q_n^T`` for each orientation, in the unit of ``x_kelvin``.
+
+    Raises
+    ------
+    ValueError
+        If ``g`` is not of shape (N, 3, 3).
+    """
     g = np.asarray(g, dtype=float)
     if g.ndim != 3 or g.shape[1:] != (3, 3):
         raise ValueError(f"orientation matrices must have shape (N, 3, 3), got {g.shape}")
@@ -195,11 +405,27 @@ def rotated_kelvin(x_kelvin: np.ndarray, g: np.ndarray, chunk: int = CHUNK) -> n
 
 def rotated_kelvin_upper(x_stack: np.ndarray, g: np.ndarray, weights: np.ndarray | None = None,
                          chunk: int = CHUNK) -> np.ndarray:
-    """The 21 upper-triangle entries of several rotated Kelvin matrices: (N, 21 T) for x (T, 6, 6).
+    """Return the 21 upper-triangle entries of several Kelvin matrices rotated by each orientation.
 
     Columns t*21 .. t*21+20 hold matrix t (``numpy.triu_indices(6)`` order), optionally times
     ``weights`` per orientation. The rotation of each orientation is built once for all T
     matrices (the bootstrap needs the stiffness and the compliance of every grain).
+
+    Parameters
+    ----------
+    x_stack : numpy.ndarray, shape (T, 6, 6)
+        Crystal-frame Kelvin matrices (stiffness in GPa, compliance in 1/GPa, ...).
+    g : numpy.ndarray, shape (N, 3, 3)
+        Bunge orientation matrices, ``v_crystal = g @ v_sample``.
+    weights : numpy.ndarray, shape (N,), optional
+        Factor applied to each orientation's row.
+    chunk : int
+        Orientations rotated at once (bounds memory).
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 21 * T)
+        Upper-triangle entries of every rotated matrix, in the units of ``x_stack``.
     """
     g = np.asarray(g, dtype=float)
     xs = np.asarray(x_stack, dtype=float)
@@ -220,13 +446,35 @@ def rotated_kelvin_upper(x_stack: np.ndarray, g: np.ndarray, weights: np.ndarray
 
 
 def logm_spd(a: np.ndarray) -> np.ndarray:
-    """Matrix logarithm of symmetric positive-definite matrices (..., n, n)."""
+    """Matrix logarithm of symmetric positive-definite matrices, by eigendecomposition.
+
+    Parameters
+    ----------
+    a : numpy.ndarray, shape (..., n, n)
+        Symmetric positive-definite matrices (e.g. Kelvin stiffnesses in GPa).
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., n, n)
+        Symmetric matrix logarithms (of the numbers in the unit of ``a``).
+    """
     w, v = np.linalg.eigh(a)
     return (v * np.log(w)[..., None, :]) @ np.swapaxes(v, -1, -2)
 
 
 def expm_sym(a: np.ndarray) -> np.ndarray:
-    """Matrix exponential of symmetric matrices (..., n, n)."""
+    """Matrix exponential of symmetric matrices, by eigendecomposition; the inverse of :func:`logm_spd`.
+
+    Parameters
+    ----------
+    a : numpy.ndarray, shape (..., n, n)
+        Symmetric matrices.
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., n, n)
+        Symmetric positive-definite matrix exponentials.
+    """
     w, v = np.linalg.eigh(a)
     return (v * np.exp(w)[..., None, :]) @ np.swapaxes(v, -1, -2)
 
@@ -236,8 +484,10 @@ def expm_sym(a: np.ndarray) -> np.ndarray:
 
 @dataclass(frozen=True)
 class PhaseTensors:
-    """One phase of an aggregate as the averages need it: its crystal stiffness, the orientation
-    matrices it occurs in, their weights, its volume fraction and its twin variants.
+    """One phase of an aggregate as the averages need it.
+
+    Holds its crystal stiffness, the orientation matrices it occurs in, their weights, its volume
+    fraction and its twin variants.
 
     (The stages carry a phase's orientations as ``orientations.PhaseOrientations``; this is the
     tensor-level view of the same phase.)
@@ -264,13 +514,26 @@ class PhaseTensors:
 
 
 def crystal_kelvin_matrices(stiffness_gpa: np.ndarray, variants=()) -> dict[str, np.ndarray]:
-    """A crystal's Kelvin stiffness, compliance and matrix logarithm, each its mean over twin variants.
+    """Return a crystal's Kelvin stiffness, compliance and matrix logarithm, each its mean over twin variants.
 
     ``variants`` are crystal-frame rotations (3, 3) to the twin variants that stand in equal parts
     with the crystal for every measured orientation (``Mineral.twin_rotations``). A mean over
     variants is a weighted sum over orientations, so it is taken in each average's own linear
     space: stiffness for Voigt, compliance for Reuss, the matrix logarithm for the geometric mean.
     Averaging the stiffness first and inverting it would give a wrong Reuss average.
+
+    Parameters
+    ----------
+    stiffness_gpa : numpy.ndarray, shape (6, 6)
+        Voigt stiffness in the crystal frame, GPa.
+    variants : sequence of numpy.ndarray, each shape (3, 3)
+        Crystal-frame rotations to the twin variants; empty for none.
+
+    Returns
+    -------
+    dict of str to numpy.ndarray, each shape (6, 6)
+        ``"stiffness"`` (Kelvin, GPa), ``"compliance"`` (Kelvin, 1/GPa) and ``"log"`` (matrix
+        logarithm of the Kelvin stiffness in GPa).
     """
     tensors = [np.asarray(stiffness_gpa, dtype=float)] + [rotate_voigt(stiffness_gpa, r) for r in variants]
     kelvin = [voigt_to_kelvin(c) for c in tensors]
@@ -288,6 +551,29 @@ def weighted_rotated_mean(x_kelvin: np.ndarray, g: np.ndarray, weights: np.ndarr
     Reuss (compliance) and geometric (matrix logarithm) averages. Orientations are handled in
     chunks laid out component-major, so that every step is a contiguous elementwise product or
     one matrix product, and memory stays bounded for millions of orientations.
+
+    Parameters
+    ----------
+    x_kelvin : numpy.ndarray, shape (6, 6)
+        Symmetric crystal-frame Kelvin matrix (stiffness in GPa, compliance in 1/GPa, or the
+        logarithm of a stiffness).
+    g : numpy.ndarray, shape (N, 3, 3)
+        Bunge orientation matrices, ``v_crystal = g @ v_sample``.
+    weights : numpy.ndarray, shape (N,)
+        Non-negative weight of each orientation, with a positive sum.
+    chunk : int
+        Orientations handled at once.
+
+    Returns
+    -------
+    numpy.ndarray, shape (6, 6)
+        Symmetric weighted mean in the sample frame, in the unit of ``x_kelvin``.
+
+    Raises
+    ------
+    ValueError
+        If ``g`` is not (N, 3, 3) proper rotations, ``weights`` is not (N,) non-negative with a
+        positive sum, or ``x_kelvin`` is not a symmetric 6x6 matrix.
     """
     x = np.asarray(x_kelvin, dtype=float)
     g, w = _orientations_and_weights(g, weights)
@@ -310,6 +596,7 @@ def _orientations_and_weights(g: np.ndarray, weights: np.ndarray) -> tuple[np.nd
     w = np.asarray(weights, dtype=float)
     if g.ndim != 3 or g.shape[1:] != (3, 3):
         raise ValueError(f"orientation matrices must have shape (N, 3, 3), got {g.shape}")
+    check_rotations(g, "orientation matrices")
     if w.shape != (len(g),):
         raise ValueError(f"{len(g)} orientations but weights of shape {w.shape}")
     if np.any(w < 0) or not w.sum() > 0:
@@ -318,7 +605,7 @@ def _orientations_and_weights(g: np.ndarray, weights: np.ndarray) -> tuple[np.nd
 
 
 def average_tensors(phases: Sequence[PhaseTensors]) -> dict[str, np.ndarray]:
-    """The four averages of an aggregate of one or more phases, as 6x6 Voigt stiffnesses in GPa.
+    """Compute the four averages of an aggregate of one or more phases, as 6x6 Voigt stiffnesses in GPa.
 
     * ``voigt``: volume-weighted mean stiffness (Voigt 1928);
     * ``reuss``: inverse of the volume-weighted mean compliance (Reuss 1929);
@@ -329,6 +616,33 @@ def average_tensors(phases: Sequence[PhaseTensors]) -> dict[str, np.ndarray]:
     Orientations within a phase are weighted by ``weights``; phases by ``fraction``
     (renormalised to sum to 1). A phase's twin ``variants`` enter each average in its own space
     (:func:`crystal_kelvin_matrices`).
+
+    Parameters
+    ----------
+    phases : sequence of PhaseTensors
+        The phases of the aggregate, each with its crystal stiffness (GPa), orientations and
+        weights.
+
+    Returns
+    -------
+    dict of str to numpy.ndarray, each shape (6, 6)
+        Sample-frame Voigt stiffness in GPa under the keys ``"voigt"``, ``"reuss"``, ``"hill"``
+        and ``"geometric"`` (the names in :data:`AVERAGES`).
+
+    Raises
+    ------
+    ValueError
+        If ``phases`` is empty, the fractions are negative or sum to zero, or a phase's
+        orientations or weights are invalid (:func:`weighted_rotated_mean`).
+
+    References
+    ----------
+    Voigt, W. (1928). Lehrbuch der Kristallphysik. Teubner, Leipzig.
+    Reuss, A. (1929). Berechnung der Fliessgrenze von Mischkristallen auf Grund der
+    Plastizitaetsbedingung fuer Einkristalle. Z. Angew. Math. Mech. 9, 49-58.
+    Hill, R. (1952). The elastic behaviour of a crystalline aggregate. Proc. Phys. Soc. A 65, 349-354.
+    Matthies, S. & Humbert, M. (1993). The realization of the concept of a geometric mean for
+    calculating physical constants of polycrystalline materials. Phys. Status Solidi B 177, K47-K50.
     """
     if not phases:
         raise ValueError("an aggregate needs at least one phase")
@@ -357,7 +671,23 @@ def average_tensors(phases: Sequence[PhaseTensors]) -> dict[str, np.ndarray]:
 
 
 def voigt_moduli(c: np.ndarray) -> tuple[float, float]:
-    """Voigt bound of the bulk and shear modulus (GPa) of a stiffness (Hill 1952)."""
+    """Voigt bound of the bulk and shear modulus of a stiffness.
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa.
+
+    Returns
+    -------
+    tuple of float
+        Bulk modulus and shear modulus, GPa.
+
+    References
+    ----------
+    Voigt, W. (1928). Lehrbuch der Kristallphysik. Teubner, Leipzig.
+    Hill, R. (1952). Proc. Phys. Soc. A 65, 349-354.
+    """
     c = np.asarray(c, dtype=float)
     a = c[0, 0] + c[1, 1] + c[2, 2]
     b = c[1, 2] + c[0, 2] + c[0, 1]
@@ -366,7 +696,28 @@ def voigt_moduli(c: np.ndarray) -> tuple[float, float]:
 
 
 def reuss_moduli(c: np.ndarray) -> tuple[float, float]:
-    """Reuss bound of the bulk and shear modulus (GPa) of a stiffness (Hill 1952)."""
+    """Reuss bound of the bulk and shear modulus of a stiffness.
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa.
+
+    Returns
+    -------
+    tuple of float
+        Bulk modulus and shear modulus, GPa.
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        If ``c`` is singular.
+
+    References
+    ----------
+    Reuss, A. (1929). Z. Angew. Math. Mech. 9, 49-58.
+    Hill, R. (1952). Proc. Phys. Soc. A 65, 349-354.
+    """
     s = compliance(c)
     a = s[0, 0] + s[1, 1] + s[2, 2]
     b = s[1, 2] + s[0, 2] + s[0, 1]
@@ -375,14 +726,42 @@ def reuss_moduli(c: np.ndarray) -> tuple[float, float]:
 
 
 def hill_moduli(c: np.ndarray) -> tuple[float, float]:
-    """Voigt-Reuss-Hill bulk and shear modulus (GPa)."""
+    """Voigt-Reuss-Hill bulk and shear modulus: the means of the Voigt and Reuss bounds.
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa.
+
+    Returns
+    -------
+    tuple of float
+        Bulk modulus and shear modulus, GPa.
+
+    References
+    ----------
+    Hill, R. (1952). Proc. Phys. Soc. A 65, 349-354.
+    """
     kv, gv = voigt_moduli(c)
     kr, gr = reuss_moduli(c)
     return (kv + kr) / 2.0, (gv + gr) / 2.0
 
 
 def isotropic_stiffness(bulk_gpa: float, shear_gpa: float) -> np.ndarray:
-    """6x6 Voigt stiffness of an isotropic solid with the given bulk and shear moduli."""
+    """Build the Voigt stiffness of an isotropic solid with the given bulk and shear moduli.
+
+    Parameters
+    ----------
+    bulk_gpa : float
+        Bulk modulus, GPa.
+    shear_gpa : float
+        Shear modulus, GPa.
+
+    Returns
+    -------
+    numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa.
+    """
     lam = bulk_gpa - 2.0 * shear_gpa / 3.0
     c = np.zeros((6, 6))
     c[:3, :3] = lam

@@ -74,8 +74,8 @@ def fourier_sums(quat: np.ndarray, weights: np.ndarray, rows: np.ndarray, degree
     w = np.asarray(weights, dtype=float)
     k = np.arange(degree + 1)
     n = np.arange(degree + 1)
-    cos_sum = np.zeros((2 * len(rows) * len(n), len(k)))
-    sin_sum = np.zeros_like(cos_sum)
+    cos_sum: np.ndarray = np.zeros((2 * len(rows) * len(n), len(k)))
+    sin_sum: np.ndarray = np.zeros_like(cos_sum)
     for start in range(0, len(w), chunk):
         part = slice(start, start + chunk)
         phase = ((w[part, None] * np.exp(-1j * alpha[part, None] * rows[None, :]))[:, :, None]

@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import hashlib
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -138,7 +139,7 @@ def phase_fabric(mineral, quat: np.ndarray, weights: np.ndarray, weighting: str,
     """
     _check_phase(quat, weights, halfwidth_deg)
     labels = poles or default_poles(mineral)
-    result = {}
+    result: dict[str, dict[str, Any]] = {}
     for label in labels:
         vectors = pole_vectors(quat, crystal_direction(mineral, label), mineral.symmetry)
         pfj, top, where = pf_j(vectors, weights, halfwidth_deg)

@@ -81,13 +81,12 @@ def pole_vectors(quat: np.ndarray, crystal_direction: np.ndarray, symmetry) -> n
     ops = to_matrices(proper_symmetry_quaternions(symmetry))
     h = crystal_direction / np.linalg.norm(crystal_direction)
     variants = ops @ h                                    # (K, 3) in the crystal frame
-    distinct = []
+    distinct: list[np.ndarray] = []
     for v in variants:
         if not any(abs(abs(v @ u) - 1.0) < 1e-6 for u in distinct):
             distinct.append(v)
-    distinct = np.array(distinct)
     g = to_matrices(quat)                                 # v_crystal = g v_structural
-    return np.einsum("nji,mj->nmi", g, distinct)          # g^T h for each equivalent
+    return np.einsum("nji,mj->nmi", g, np.array(distinct))          # g^T h for each equivalent
 
 
 def orientation_tensor(poles: np.ndarray, weights: np.ndarray) -> np.ndarray:

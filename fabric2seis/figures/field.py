@@ -34,7 +34,15 @@ def _verdict_text(model: dict) -> str:
 
 
 def poor_fit_note(fig, model: dict) -> None:
-    """A red box at the foot of the figure naming why the fit is poor (nothing for a good fit)."""
+    """Add a red box at the foot of the figure naming why the fit is poor (nothing for a good fit).
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        The figure.
+    model : dict
+        The best model of a station fit, with its verdict.
+    """
     if model.get("poor_fit"):
         fig.text(0.5, 0.005, "POOR FIT: " + "; ".join(model["poor_fit_reasons"]), ha="center", va="bottom",
                  fontsize=7, color="darkred", wrap=True,
@@ -42,9 +50,21 @@ def poor_fit_note(fig, model: dict) -> None:
 
 
 def data_and_predictions(stem, fit) -> list[str]:
-    """Measured fast azimuths and delays against back-azimuth, with the best model's predicted curve.
+    """Draw measured fast azimuths and delays against back-azimuth, with the best model's predicted curve.
 
     ``fit`` is a ``waves.field.StationFit``; returns the files written (``stem`` .png and .pdf).
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    fit : waves.field.StationFit
+        Measurements (degrees, s) and best model of one station.
+
+    Returns
+    -------
+    list of str
+        The files written.
     """
     sample, station, data, m = fit.sample, fit.station, fit.measurements, fit.model
     fig, (ax1, ax2) = plt.subplots(2, 1, figsize=(6.5, 5.6), sharex=True)
@@ -83,6 +103,18 @@ def misfit_surface(stem, fit) -> list[str]:
     best fit of each sense of the lineation and the 68 % intervals as error bars.
 
     ``fit`` is a ``waves.field.StationFit``; returns the files written (``stem`` .png and .pdf).
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    fit : waves.field.StationFit
+        Misfit grid and best model of one station.
+
+    Returns
+    -------
+    list of str
+        The files written.
     """
     sample, station, grid, model = fit.sample, fit.station, fit.grid, fit.model
     a = grid["attitudes"].index(model["foliation"])
@@ -116,7 +148,20 @@ def misfit_surface(stem, fit) -> list[str]:
 
 
 def fast_direction_rose(stem, predictions) -> list[str]:
-    """Rose diagrams of measured and predicted fast azimuths, one per station (the predictions table)."""
+    """Draw rose diagrams of measured and predicted fast azimuths, one per station (the predictions table).
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    predictions : pandas.DataFrame
+        The predictions table: station, measured and predicted fast azimuths (degrees).
+
+    Returns
+    -------
+    list of str
+        The files written.
+    """
     stations = sorted(set(predictions["station"]))
     fig, axes = plt.subplots(1, len(stations), subplot_kw={"projection": "polar"},
                              figsize=(3.0 * len(stations), 3.2), squeeze=False)

@@ -11,7 +11,26 @@ from fabric2seis.figures.projection import disk_grid, frame_axes, plt, save
 
 
 def pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_deg: float, weighting: str) -> list[str]:
-    """Contoured pole densities in m.u.d.; ``phases`` holds (mineral, quat, weights, pole labels)."""
+    """Draw contoured pole densities in m.u.d., one row per phase and one panel per pole.
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    sample_name : str
+        Name shown in the title.
+    phases : list of tuple
+        Per phase: (mineral, quaternions (N, 4), weights (N,), pole labels).
+    halfwidth_deg : float
+        Halfwidth of the density kernel, degrees.
+    weighting : str
+        How orientations were weighted, shown in the title.
+
+    Returns
+    -------
+    list of str
+        The files written.
+    """
     n_cols = max(len(p[3]) for p in phases)
     fig, axes = plt.subplots(len(phases), n_cols, figsize=(2.6 * n_cols + 0.8, 2.7 * len(phases)),
                              squeeze=False)
@@ -55,6 +74,26 @@ def inverse_pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_
 
     The crystal frame is shown with a (e1) to the right and c* (e3) at the top, the same equal-area
     projection as the pole figures; all symmetry equivalents are plotted.
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    sample_name : str
+        Name shown in the title.
+    phases : list of tuple
+        Per phase: (mineral, quaternions (N, 4), weights (N,), pole labels).
+    halfwidth_deg : float
+        Halfwidth of the density kernel, degrees.
+    weighting : str
+        How orientations were weighted, shown in the title.
+    sample_directions : sequence of (str, tuple)
+        Label and structural-frame vector (3,) of each direction drawn.
+
+    Returns
+    -------
+    list of str
+        The files written.
     """
     fig, axes = plt.subplots(len(phases), len(sample_directions),
                              figsize=(2.7 * len(sample_directions) + 0.6, 2.7 * len(phases)), squeeze=False)
@@ -81,7 +120,22 @@ def inverse_pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_
 
 
 def convergence_figure(stem, sample_name: str, results: dict) -> list[str]:
-    """J, M and maximum pole density against the number of grains, per phase."""
+    """Draw J, M and maximum pole density against the number of grains, per phase.
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    sample_name : str
+        Name shown in the title.
+    results : dict
+        Convergence of the fabric indices by mineral name (``PhaseFabricResult.convergence``).
+
+    Returns
+    -------
+    list of str
+        The files written.
+    """
     fig, axes = plt.subplots(1, 3, figsize=(10, 3.0))
     for mineral, conv in results.items():
         n = [r["n"] for r in conv["rows"]]

@@ -15,7 +15,22 @@ import matplotlib.pyplot as plt  # noqa: E402
 
 
 def project(v: np.ndarray) -> np.ndarray:
-    """Screen coordinates (N, 2) of axial unit vectors (N, 3)."""
+    """Project axial unit vectors to screen coordinates (equal area, Y at the centre).
+
+    Parameters
+    ----------
+    v : array_like, shape (N, 3)
+        Unit vectors in the structural frame; their sign is ignored.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 2)
+        Screen coordinates within the unit disk.
+
+    References
+    ----------
+    Lambert azimuthal equal-area projection (common practice).
+    """
     v = np.asarray(v, dtype=float)
     v = np.where(v[..., 1:2] < 0, -v, v)
     scale = np.sqrt(1.0 / (1.0 + v[..., 1]))          # sqrt(2/(1+y)) / sqrt(2)
@@ -23,7 +38,22 @@ def project(v: np.ndarray) -> np.ndarray:
 
 
 def disk_grid(n: int = 161) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """A square grid of screen points, their directions (y >= 0) and a mask of the unit disk."""
+    """Build a square grid of screen points, their directions (y >= 0) and a mask of the unit disk.
+
+    Parameters
+    ----------
+    n : int
+        Points along each side of the grid.
+
+    Returns
+    -------
+    a, b : numpy.ndarray, shape (n, n)
+        Screen coordinates of the grid.
+    dirs : numpy.ndarray, shape (n, n, 3)
+        Unit direction of each grid point (points outside the disk map to the rim).
+    inside : numpy.ndarray of bool, shape (n, n)
+        Which points lie in the unit disk.
+    """
     s = np.linspace(-1.0, 1.0, n)
     a, b = np.meshgrid(s, s)
     rho2 = a ** 2 + b ** 2
@@ -37,7 +67,15 @@ def disk_grid(n: int = 161) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndar
 
 
 def frame_axes(ax, labels=("X", "Z", "Y")) -> None:
-    """Primitive circle, the foliation trace and axis labels (X right, Z top, Y centre)."""
+    """Draw the primitive circle, the foliation trace and axis labels (X right, Z top, Y centre).
+
+    Parameters
+    ----------
+    ax : matplotlib.axes.Axes
+        Panel to draw on.
+    labels : tuple of str
+        Labels of the right, top and centre directions.
+    """
     t = np.linspace(0, 2 * np.pi, 361)
     ax.plot(np.cos(t), np.sin(t), color="black", lw=0.8)
     ax.plot([-1, 1], [0, 0], color="0.4", lw=0.5, ls="--")
@@ -52,7 +90,20 @@ def frame_axes(ax, labels=("X", "Z", "Y")) -> None:
 
 
 def save(fig, stem) -> list[str]:
-    """Write ``stem``.png and ``stem``.pdf; returns the file names."""
+    """Write ``stem``.png and ``stem``.pdf and close the figure.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        The figure.
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+
+    Returns
+    -------
+    list of str
+        The files written.
+    """
     out = []
     for ext in ("png", "pdf"):
         path = f"{stem}.{ext}"

@@ -13,6 +13,22 @@ def splitting_figure(stem, sample_name: str, sweep: dict, summary: dict) -> list
     ``sweep``: ``back_azimuth_deg``, ``fast_azimuth_deg``, ``delay_s`` (arrays (B,)); ``summary``:
     the vertical-incidence values and placement drawn as reference lines and title. Returns the
     files written (``stem`` .png and .pdf); nothing is computed here.
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    sample_name : str
+        Name shown in the title.
+    sweep : dict
+        Back-azimuth (degrees), fast azimuth (degrees) and delay (s), arrays (B,).
+    summary : dict
+        The ``field`` summary of the layer.
+
+    Returns
+    -------
+    list of str
+        The files written.
     """
     fig, (ax1, ax2) = plt.subplots(2, 1, figsize=(6.0, 5.0), sharex=True)
     baz = sweep["back_azimuth_deg"]

@@ -20,6 +20,18 @@ def stack_figure(stem, sweep) -> list[str]:
 
     ``sweep`` is a ``waves.stack.StackSweep``: the figure draws its fine analytic curve, table,
     nulls and measurements; returns the files written (``stem`` .png and .pdf).
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    sweep : waves.stack.StackSweep
+        Apparent splitting (fast azimuth in degrees, delay in s) against back-azimuth (degrees).
+
+    Returns
+    -------
+    list of str
+        The files written.
     """
     stack, table, nulls, data = sweep.stack, sweep.table, sweep.nulls, sweep.measurements
     fig, (ax1, ax2) = plt.subplots(2, 1, figsize=(6.5, 5.4), sharex=True)

@@ -9,6 +9,21 @@ from fabric2seis.figures.projection import plt, save
 
 
 def suite_figure(stem, table) -> list[str]:
+    """Draw the suite comparison: fabric strength against AVs, delay per 100 km, and the P-G-R triangle.
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    table : pandas.DataFrame
+        The suite table (``workflow.suite.suite_table``); samples whose status is not ``ok`` are
+        left out.
+
+    Returns
+    -------
+    list of str
+        The files written.
+    """
     ok = table[table["status"] == "ok"].copy()
     fig, (ax1, ax2, ax3) = plt.subplots(1, 3, figsize=(14, 4.4), gridspec_kw={"width_ratios": [1, 1, 0.9]})
     colours = {}
@@ -50,7 +65,22 @@ _POLE_MARKERS = ("o", "s", "^", "D")
 
 
 def shape_triangle(ax, ok, colours) -> None:
-    """P, G, R of each pole of each sample's main phase as a point of the triangle (P top, G and R below)."""
+    """Plot P, G, R of each pole of each sample's main phase as a point of the triangle (P top, G and R below).
+
+    Parameters
+    ----------
+    ax : matplotlib.axes.Axes
+        Panel to draw on.
+    ok : pandas.DataFrame
+        Rows of the suite table of samples that succeeded.
+    colours : dict
+        Colour of each sample.
+
+    References
+    ----------
+    Vollmer, F. W. (1990). An application of eigenvalue methods to structural domain analysis.
+    Geol. Soc. Am. Bull. 102, 786-791.
+    """
     corner = np.array([_CORNERS[k] for k in "PGR"])
     ax.plot(*np.vstack([corner, corner[:1]]).T, color="0.3", lw=1)
     for name, (x, y) in _CORNERS.items():

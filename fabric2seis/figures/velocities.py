@@ -11,6 +11,28 @@ from fabric2seis.figures.projection import disk_grid, frame_axes, plt, project, 
 
 def velocity_figure(stem, sample_name: str, c: np.ndarray, density_kg_m3: float, average: str,
                     n_grains: int) -> list[str]:
+    """Draw Vp, AVs with fast shear-wave polarisations, Vs1, Vs2, dVs and Vp/Vs1 over the lower hemisphere.
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    sample_name : str
+        Name shown in the title.
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa, structural frame.
+    density_kg_m3 : float
+        Density, kg/m^3.
+    average : str
+        Name of the average ``c`` is, shown in the title.
+    n_grains : int
+        Number of grains, shown in the title.
+
+    Returns
+    -------
+    list of str
+        The files written.
+    """
     a, b, dirs, inside = disk_grid(151)
     w = waves.plane_waves(c, density_kg_m3, dirs[inside])
     fields = {

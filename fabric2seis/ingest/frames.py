@@ -16,13 +16,50 @@ _AXES = {"x": 0, "y": 1, "z": 2}
 
 
 def signed_axis(name: str) -> np.ndarray:
+    """Turn a signed sample-axis name such as ``"+x"`` or ``"-z"`` into a unit vector.
+
+    Parameters
+    ----------
+    name : str
+        Sign (``+`` or ``-``) followed by ``x``, ``y`` or ``z``.
+
+    Returns
+    -------
+    numpy.ndarray, shape (3,)
+        The unit vector in sample coordinates.
+
+    Raises
+    ------
+    KeyError
+        If the axis letter is not x, y or z.
+    """
     v = np.zeros(3)
     v[_AXES[name[1]]] = 1.0 if name[0] == "+" else -1.0
     return v
 
 
 def structural_matrix(frame: dict, source=None) -> np.ndarray:
-    """F (3, 3) whose rows are X, Y, Z of the structural frame in sample coordinates."""
+    """Build the matrix F whose rows are X, Y, Z of the structural frame in sample coordinates.
+
+    Parameters
+    ----------
+    frame : dict
+        The settings block ``frame``: ``rotation`` (3x3, rows X, Y, Z), or ``lineation`` and
+        ``foliation_normal`` as signed sample axes (default ``+x`` and ``+z``).
+    source : str or Path, optional
+        The settings file, for error messages.
+
+    Returns
+    -------
+    numpy.ndarray, shape (3, 3)
+        Proper rotation F with ``v_structural = F v_sample``.
+
+    Raises
+    ------
+    InputError
+        If ``rotation`` is not a proper rotation, or the lineation and foliation normal are the
+        same sample axis.
+    """
     if frame.get("rotation") is not None:
         f = np.array(frame["rotation"], dtype=float)
         if not np.allclose(f @ f.T, np.eye(3), atol=1e-4) or np.linalg.det(f) < 0:
@@ -38,5 +75,18 @@ def structural_matrix(frame: dict, source=None) -> np.ndarray:
 
 
 def to_structural(quat: np.ndarray, f: np.ndarray) -> np.ndarray:
-    """Orientations (orix quaternions) re-expressed in the structural frame: g -> g F^T."""
+    """Re-express orientations (orix quaternions) in the structural frame: g -> g F^T.
+
+    Parameters
+    ----------
+    quat : numpy.ndarray, shape (N, 4)
+        Orientations in the sample frame.
+    f : numpy.ndarray, shape (3, 3)
+        Structural matrix (:func:`structural_matrix`).
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 4)
+        Orientations in the structural frame.
+    """
     return quat @ right_matrix(from_matrices(f.T[None])[0]).T

@@ -22,7 +22,29 @@ from fabric2seis.orientations import nearest_equivalent, proper_symmetry_quatern
 
 @dataclass
 class Grains:
-    """Per-grain arrays (G,) and the grain of every point (N,)."""
+    """Per-grain arrays (G,) and the grain of every point (N,).
+
+    Attributes
+    ----------
+    point_grain
+        Grain of every point (N,), 0-based.
+    mineral_index
+        Mineral of every grain (G,), an index into the sample's list of minerals.
+    quat
+        Mean orientation of every grain (G, 4), orix quaternions.
+    n_pixels
+        Points in every grain (G,).
+    area
+        Area of every grain (G,), in the map's length unit squared (square micrometres).
+    x, y
+        Centroid of every grain (G,), in the map's length unit.
+    equivalent_diameter
+        Diameter of the circle of the same area (G,), in the map's length unit.
+    aspect_ratio
+        Ratio of the long to the short axis of the grain's second-moment ellipse (G,).
+    long_axis_deg
+        Direction of the long axis (G,), degrees from map x towards map y, 0-180.
+    """
 
     point_grain: np.ndarray
     mineral_index: np.ndarray
@@ -37,11 +59,27 @@ class Grains:
 
     @property
     def n_grains(self) -> int:
+        """Number of grains G."""
         return len(self.n_pixels)
 
 
 def grid_indices(x: np.ndarray, y: np.ndarray, grid: str, step: float) -> tuple[np.ndarray, np.ndarray]:
-    """Integer (row, column) of every point; hexagonal columns count half steps."""
+    """Place every point on integer grid (row, column) indices; hexagonal columns count half steps.
+
+    Parameters
+    ----------
+    x, y : numpy.ndarray, shape (N,)
+        Map coordinates, in the map's length unit.
+    grid : {"square", "hex"}
+        Grid type.
+    step : float
+        Map step, in the unit of ``x``.
+
+    Returns
+    -------
+    row, column : numpy.ndarray of int, each shape (N,)
+        Indices counted from the smallest y and x.
+    """
     if grid == "hex":
         row = np.rint((y - y.min()) / (step * np.sqrt(3.0) / 2.0)).astype(np.int64)
         col = np.rint(2.0 * (x - x.min()) / step).astype(np.int64)
@@ -56,6 +94,25 @@ def neighbour_pairs(x: np.ndarray, y: np.ndarray, grid: str, step: float) -> tup
 
     Points are placed in a dense table of grid cells (maps are nearly full rectangles), so finding
     a neighbour is a lookup, not a search.
+
+    Parameters
+    ----------
+    x, y : numpy.ndarray, shape (N,)
+        Map coordinates, in the map's length unit.
+    grid : {"square", "hex"}
+        Grid type: 4 neighbours on a square grid, 6 on a hexagonal one.
+    step : float
+        Map step, in the unit of ``x``.
+
+    Returns
+    -------
+    i, j : numpy.ndarray of int, each shape (P,)
+        Point indices of the neighbouring pairs.
+
+    Raises
+    ------
+    ValueError
+        If the points fill too little of their grid for the step.
     """
     row, col = grid_indices(x, y, grid, step)
     n_rows, n_cols = int(row.max()) + 2, int(col.max()) + 3
@@ -78,7 +135,37 @@ def neighbour_pairs(x: np.ndarray, y: np.ndarray, grid: str, step: float) -> tup
 
 def reconstruct(x, y, grid: str, step: float, quat: np.ndarray, mineral_index: np.ndarray,
                 minerals: list[Mineral], threshold_deg: float, pixel_area: float) -> Grains:
-    """Grains of a map (see the module docstring); all grains, before any size filter."""
+    """Reconstruct the grains of a map (see the module docstring); all grains, before any size filter.
+
+    Parameters
+    ----------
+    x, y : numpy.ndarray, shape (N,)
+        Map coordinates, in the map's length unit.
+    grid : {"square", "hex"}
+        Grid type.
+    step : float
+        Map step, in the unit of ``x``.
+    quat : numpy.ndarray, shape (N, 4)
+        Orientations, orix quaternions.
+    mineral_index : numpy.ndarray of int, shape (N,)
+        Mineral of every point, an index into ``minerals``.
+    minerals : list of Mineral
+        The sample's minerals (their crystal symmetry).
+    threshold_deg : float
+        Largest misorientation between neighbours of one grain, degrees.
+    pixel_area : float
+        Area of one point, in the unit of ``x`` squared.
+
+    Returns
+    -------
+    Grains
+        Every grain's mean orientation, size and shape, and the grain of every point.
+
+    Raises
+    ------
+    ValueError
+        If the points fill too little of their grid (:func:`neighbour_pairs`).
+    """
     n = len(quat)
     i, j = neighbour_pairs(x, y, grid, step)
     same = mineral_index[i] == mineral_index[j]
@@ -100,7 +187,31 @@ def reconstruct(x, y, grid: str, step: float, quat: np.ndarray, mineral_index: n
 
 
 def grain_statistics(label, x, y, quat, mineral_index, minerals, pixel_area, step) -> Grains:
-    """Mean orientation, size and shape of every labelled grain."""
+    """Compute the mean orientation, size and shape of every labelled grain.
+
+    Parameters
+    ----------
+    label : numpy.ndarray of int, shape (N,)
+        Grain label of every point (any numbering; grains are renumbered by first point).
+    x, y : numpy.ndarray, shape (N,)
+        Map coordinates, in the map's length unit.
+    quat : numpy.ndarray, shape (N, 4)
+        Orientations, orix quaternions.
+    mineral_index : numpy.ndarray of int, shape (N,)
+        Mineral of every point, an index into ``minerals``.
+    minerals : list of Mineral
+        The sample's minerals.
+    pixel_area : float
+        Area of one point, in the unit of ``x`` squared.
+    step : float
+        Map step, in the unit of ``x`` (each pixel's own second moment).
+
+    Returns
+    -------
+    Grains
+        Per-grain mean orientation, pixel count, area, centroid, equivalent diameter, aspect
+        ratio and long-axis direction (degrees).
+    """
     # renumber grains by first appearance so results do not depend on the graph library
     g = int(label.max()) + 1
     first = np.empty(g, dtype=np.int64)
@@ -141,7 +252,22 @@ def grain_statistics(label, x, y, quat, mineral_index, minerals, pixel_area, ste
 
 
 def keep_large(grains: Grains, min_pixels: int) -> tuple[Grains, np.ndarray]:
-    """Grains with at least ``min_pixels`` pixels, and the mask of the points they keep."""
+    """Keep the grains with at least ``min_pixels`` pixels.
+
+    Parameters
+    ----------
+    grains : Grains
+        All grains of a map.
+    min_pixels : int
+        Fewest pixels a grain must have.
+
+    Returns
+    -------
+    kept : Grains
+        The grains kept, renumbered, with the grain of every point kept.
+    point_keep : numpy.ndarray of bool, shape (N,)
+        Which points of the map lie in a kept grain.
+    """
     big = grains.n_pixels >= min_pixels
     new_id = np.full(grains.n_grains, -1)
     new_id[big] = np.arange(int(big.sum()))
@@ -154,7 +280,25 @@ def keep_large(grains: Grains, min_pixels: int) -> tuple[Grains, np.ndarray]:
 
 
 def grains_table(grains: Grains, minerals: list[Mineral]) -> pd.DataFrame:
-    """``grains.csv``: one row per grain, orientation as Bunge angles in the structural frame."""
+    """Build ``grains.csv``: one row per grain, orientation as Bunge angles in the structural frame.
+
+    Parameters
+    ----------
+    grains : Grains
+        The grains (orientations in the structural frame).
+    minerals : list of Mineral
+        The sample's minerals, indexed by ``grains.mineral_index``.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Grain number (1-based), mineral, Bunge angles (degrees), pixels, area (um^2), equivalent
+        diameter (um), aspect ratio, long-axis direction (degrees from map x) and centroid (um).
+
+    References
+    ----------
+    Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
+    """
     from orix.quaternion import Rotation
 
     euler = np.degrees(Rotation(grains.quat).to_euler()) % 360.0

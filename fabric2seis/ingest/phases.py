@@ -19,6 +19,23 @@ class PointSet:
     """Indexed, cleaned points of named minerals (still in the sample frame).
 
     ``mineral_index`` points into ``minerals``; the counts say what was dropped and why.
+
+    Attributes
+    ----------
+    source
+        The file read.
+    quat
+        Orientations (N, 4), orix quaternions, sample frame.
+    mineral_index
+        Mineral of every point (N,), an index into ``minerals``.
+    minerals
+        The library minerals present.
+    x, y
+        Map coordinates (N,) in the file's length unit, or None for grain lists.
+    weights
+        Weight of every point (N,): the file's weights, else the pixel area, else 1.
+    n_read, n_unindexed, n_low_quality
+        Points read, dropped as unindexed, and dropped below the quality threshold.
     """
 
     source: str
@@ -40,6 +57,26 @@ def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
     By the settings mapping ``phases`` (file name -> library name) first, else by the library's
     names and aliases, case-insensitively. A point group in the file whose Laue class differs
     from the library entry's is an error (EBSD sees the Laue class, Friedel's law).
+
+    Parameters
+    ----------
+    data : EBSDData
+        The file's record.
+    phases : dict of str to str, optional
+        Settings mapping from phase names in the file to library names.
+    library : dict of str to Mineral, optional
+        The mineral library; the bundled one if not given.
+
+    Returns
+    -------
+    dict of int to Mineral
+        Library mineral by phase id.
+
+    Raises
+    ------
+    InputError
+        If a phase is not a library mineral (or is mapped to one that is not), or its point group
+        in the file has another Laue class than the library entry.
     """
     library = load_library() if library is None else library
     by_file_name = {k.lower(): v for k, v in (phases or {}).items()}
@@ -72,7 +109,29 @@ def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
 
 def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_min: float | None = None,
                   quality_field: str | None = None) -> PointSet:
-    """Drop unindexed points and points below the quality threshold; attach minerals and weights."""
+    """Drop unindexed points and points below the quality threshold; attach minerals and weights.
+
+    Parameters
+    ----------
+    data : EBSDData
+        The file's record.
+    phase_minerals : dict of int to Mineral
+        Library mineral by phase id (:func:`map_phases`).
+    quality_min : float, optional
+        Smallest quality value kept, in the unit of the quality measure.
+    quality_field : str, optional
+        Quality measure to use; the first of ``DEFAULT_QUALITY`` the file has if not given.
+
+    Returns
+    -------
+    PointSet
+        The points kept, with their minerals and weights, and the counts dropped.
+
+    Raises
+    ------
+    InputError
+        If every point is unindexed, the quality measure is missing, or no point passes the threshold.
+    """
     indexed = data.phase_id >= 0
     n_unindexed = int((~indexed).sum())
     if not indexed.any():
@@ -118,7 +177,33 @@ def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_mi
 
 def modal_fractions(mineral_index: np.ndarray, weights: np.ndarray, minerals: list[Mineral],
                     override: dict[str, float] | None = None, source=None) -> dict[str, float]:
-    """Measured area (or weight) fraction of each mineral, or the settings' fractions."""
+    """Return the measured area (or weight) fraction of each mineral, or the settings' fractions.
+
+    Parameters
+    ----------
+    mineral_index : numpy.ndarray of int, shape (N,)
+        Mineral of every point or grain, an index into ``minerals``.
+    weights : numpy.ndarray, shape (N,)
+        Weight (area) of every point or grain.
+    minerals : list of Mineral
+        The sample's minerals.
+    override : dict of str to float, optional
+        Fractions from the settings, by mineral name or alias; must name exactly the sample's
+        minerals and sum to 1 (within 1e-3).
+    source : str or Path, optional
+        The settings file, for error messages.
+
+    Returns
+    -------
+    dict of str to float
+        Fraction of each mineral by name, summing to 1.
+
+    Raises
+    ------
+    InputError
+        If ``override`` names a mineral not in the library, does not name exactly the sample's
+        minerals, or does not sum to 1.
+    """
     measured = np.bincount(mineral_index, weights=weights, minlength=len(minerals))
     measured = measured / measured.sum()
     if not override:

@@ -18,7 +18,7 @@ from fabric2seis.elastic import voigt_to_tensor
 
 __all__ = [
     "SPEEDS_NEAR_TOLERANCE", "NEAR_BLOCK", "PlaneWaves", "speeds_near", "christoffel_matrices",
-    "plane_waves", "christoffel_eigen", "EIGEN_BLOCK", "group_velocities", "hemisphere_grid",
+    "plane_waves", "EIGEN_BLOCK", "group_velocities", "hemisphere_grid",
     "direction_from_angles", "to_lower_hemisphere",
 ]
 
@@ -32,14 +32,14 @@ NEAR_BLOCK = 16
 
 @dataclass(frozen=True)
 class PlaneWaves:
-    """Christoffel solutions for M directions.
+    """Christoffel solutions for M directions: phase velocities and polarisations.
 
     Attributes
     ----------
     directions
         Unit propagation directions (M, 3).
     vp_km_s, vs1_km_s, vs2_km_s
-        Phase velocities (M,), Vp > Vs1 >= Vs2.
+        Phase velocities (M,) in km/s, Vp > Vs1 >= Vs2.
     polarisations
         Unit polarisation vectors (M, 3, 3): ``[:, 0]`` of P, ``[:, 1]`` of S1 (fast shear wave),
         ``[:, 2]`` of S2. Their sign is arbitrary (axial vectors).
@@ -53,7 +53,7 @@ class PlaneWaves:
 
     @property
     def avs_pct(self) -> np.ndarray:
-        """Shear-wave anisotropy 200 (Vs1 - Vs2) / (Vs1 + Vs2) per direction, in percent."""
+        """Shear-wave anisotropy 200 (Vs1 - Vs2) / (Vs1 + Vs2) per direction, in percent, shape (M,)."""
         return 200.0 * (self.vs1_km_s - self.vs2_km_s) / (self.vs1_km_s + self.vs2_km_s)
 
 
@@ -87,7 +87,7 @@ def _component_coefficients(c_voigt: np.ndarray) -> np.ndarray:
 
 
 def speeds_near(c_reference: np.ndarray, c_voigt: np.ndarray, density_kg_m3: float, directions: np.ndarray):
-    """Vp, Vs1, Vs2 (B, M) of B stiffnesses close to ``c_reference``, by perturbation about it.
+    """Compute Vp, Vs1, Vs2 of B stiffnesses close to ``c_reference``, by perturbation about it.
 
     With Gamma = Gamma_ref + D and e_1 (P), e_2, e_3 (S) the reference polarisations, the P root is
     lam_1 + D_11 + sum_s D_1s^2 / (lam_1 - lam_s), and the S roots are the eigenvalues of the 2x2
@@ -97,6 +97,32 @@ def speeds_near(c_reference: np.ndarray, c_voigt: np.ndarray, density_kg_m3: flo
     difference, so all B tensors take one matrix product. Entries whose third-order bound exceeds
     SPEEDS_NEAR_TOLERANCE of their root are solved exactly. The bootstrap uses this: resampled
     aggregates differ from the estimate by a small fraction.
+
+    Parameters
+    ----------
+    c_reference : numpy.ndarray, shape (6, 6)
+        Voigt stiffness the others are close to, GPa.
+    c_voigt : numpy.ndarray, shape (B, 6, 6)
+        Voigt stiffnesses to solve, GPa.
+    density_kg_m3 : float
+        Density, kg/m^3.
+    directions : numpy.ndarray, shape (M, 3)
+        Propagation directions (normalised here).
+
+    Returns
+    -------
+    tuple of numpy.ndarray, each shape (B, M)
+        Vp, Vs1 and Vs2, km/s.
+
+    Raises
+    ------
+    ValueError
+        If a direction is zero or not finite.
+
+    References
+    ----------
+    Loewdin, P.-O. (1951). A note on the quantum-mechanical perturbation theory. J. Chem. Phys. 19,
+    1396-1401 (the partitioning used for the shear block).
     """
     n = _unit(directions)
     reference = _christoffel_components(c_reference, n)                           # (M, 6)
@@ -138,7 +164,25 @@ def speeds_near(c_reference: np.ndarray, c_voigt: np.ndarray, density_kg_m3: flo
 
 
 def christoffel_matrices(c_voigt: np.ndarray, directions: np.ndarray) -> np.ndarray:
-    """Christoffel matrices ``Gamma_ik = C_ijkl n_j n_l`` (M, 3, 3) in GPa."""
+    """Build the Christoffel matrices ``Gamma_ik = C_ijkl n_j n_l`` for many directions.
+
+    Parameters
+    ----------
+    c_voigt : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa.
+    directions : numpy.ndarray, shape (M, 3) or (3,)
+        Propagation directions (normalised here).
+
+    Returns
+    -------
+    numpy.ndarray, shape (M, 3, 3)
+        Symmetric Christoffel matrices, GPa.
+
+    Raises
+    ------
+    ValueError
+        If a direction is zero or not finite.
+    """
     g = _christoffel_components(c_voigt, _unit(directions))
     full = np.empty((len(g), 3, 3))
     for col, (i, k) in enumerate(((0, 0), (1, 1), (2, 2), (1, 2), (0, 2), (0, 1))):
@@ -147,7 +191,27 @@ def christoffel_matrices(c_voigt: np.ndarray, directions: np.ndarray) -> np.ndar
 
 
 def plane_waves(c_voigt: np.ndarray, density_kg_m3: float, directions: np.ndarray) -> PlaneWaves:
-    """Phase velocities and polarisations for every direction (vectorised Christoffel solution)."""
+    """Solve the Christoffel equation for phase velocities and polarisations in every direction.
+
+    Parameters
+    ----------
+    c_voigt : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa.
+    density_kg_m3 : float
+        Density, kg/m^3.
+    directions : numpy.ndarray, shape (M, 3) or (3,)
+        Propagation directions (normalised here).
+
+    Returns
+    -------
+    PlaneWaves
+        Unit directions (M, 3), Vp, Vs1, Vs2 (M,) in km/s and polarisations (M, 3, 3).
+
+    Raises
+    ------
+    ValueError
+        If a direction is zero or not finite, or the density is not positive.
+    """
     n = _unit(directions)
     if not density_kg_m3 > 0:
         raise ValueError(f"density must be positive, got {density_kg_m3}")
@@ -156,8 +220,13 @@ def plane_waves(c_voigt: np.ndarray, density_kg_m3: float, directions: np.ndarra
     return PlaneWaves(n, v[:, 0], v[:, 1], v[:, 2], pol)
 
 
-def christoffel_eigen(gamma: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Eigenvalues (M, 3) ordered P, S1, S2 and unit eigenvectors (M, 3, 3) of Christoffel matrices.
+#: directions per block of the closed-form solution: its ~50 temporaries then stay in cache
+EIGEN_BLOCK = 4096
+
+
+def _eigen_from_components(g: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Eigenvalues ordered P, S1, S2 and unit eigenvectors of Christoffel matrices given by their six
+    components (M, 6), in blocks of EIGEN_BLOCK directions.
 
     Vectorised closed form, accurate where the shear waves are nearly degenerate: the P root
     (always separated from the shear roots in a stable solid) from the trigonometric solution of
@@ -165,18 +234,6 @@ def christoffel_eigen(gamma: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     Gamma - lambda_P I and its value refined as the Rayleigh quotient; then the two shear roots
     from the 2x2 matrix of Gamma in the plane normal to the P polarisation, whose discriminant is a
     sum of squares and loses no accuracy when the roots meet (shear-wave singularities).
-    """
-    a = np.asarray(gamma, dtype=float)
-    comps = np.column_stack([a[:, 0, 0], a[:, 1, 1], a[:, 2, 2], a[:, 1, 2], a[:, 0, 2], a[:, 0, 1]])
-    return _eigen_from_components(comps)
-
-
-#: directions per block of the closed-form solution: its ~50 temporaries then stay in cache
-EIGEN_BLOCK = 4096
-
-
-def _eigen_from_components(g: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """christoffel_eigen on the six components (M, 6), in blocks of EIGEN_BLOCK directions.
 
     The results are filled component by component (contiguous rows) and returned as transposed
     views, values (M, 3) and vectors (M, 3, 3), row k of vectors[m] the polarisation of root k.
@@ -256,10 +313,28 @@ def _eigen_block(g: np.ndarray, values: np.ndarray, vectors: np.ndarray) -> None
 
 
 def group_velocities(c_voigt: np.ndarray, density_kg_m3: float, waves: PlaneWaves) -> np.ndarray:
-    """Group (energy) velocity vectors (M, 3, 3) in km/s of the P, S1 and S2 waves.
+    """Compute the group (energy) velocity vectors of the P, S1 and S2 waves.
 
     ``V_i = C_ijkl p_j p_k n_l / (rho v)`` for unit polarisation p (Auld 1973); its component
     along n equals the phase velocity.
+
+    Parameters
+    ----------
+    c_voigt : numpy.ndarray, shape (6, 6)
+        Voigt stiffness the plane waves were solved for, GPa.
+    density_kg_m3 : float
+        Density, kg/m^3.
+    waves : PlaneWaves
+        Christoffel solutions for M directions (:func:`plane_waves`).
+
+    Returns
+    -------
+    numpy.ndarray, shape (M, 3, 3)
+        Group velocity vectors in km/s; ``[:, k]`` is that of wave k (P, S1, S2).
+
+    References
+    ----------
+    Auld, B. A. (1973). Acoustic Fields and Waves in Solids, vol. 1. Wiley, New York.
     """
     t = voigt_to_tensor(c_voigt)
     v = np.stack([waves.vp_km_s, waves.vs1_km_s, waves.vs2_km_s], axis=1)  # (M, 3)
@@ -278,9 +353,24 @@ def hemisphere_grid(step_deg: float = 1.0) -> tuple[np.ndarray, np.ndarray, np.n
     measured from +x towards +y. The horizontal ring runs all the way round (0 to 360 degrees)
     although n and -n are the same direction, so that plotted rings close.
 
+    Parameters
+    ----------
+    step_deg : float
+        Spacing of the rings and of the points on them, degrees, in (0, 45].
+
     Returns
     -------
-    directions (M, 3), azimuth_deg (M,), plunge_deg (M,)
+    directions : numpy.ndarray, shape (M, 3)
+        Unit vectors with z <= 0.
+    azimuth_deg : numpy.ndarray, shape (M,)
+        Azimuth from +x towards +y, degrees.
+    plunge_deg : numpy.ndarray, shape (M,)
+        Plunge below the horizontal, degrees.
+
+    Raises
+    ------
+    ValueError
+        If ``step_deg`` is not in (0, 45].
     """
     if not 0 < step_deg <= 45:
         raise ValueError(f"step_deg must lie in (0, 45], got {step_deg}")
@@ -299,14 +389,38 @@ def hemisphere_grid(step_deg: float = 1.0) -> tuple[np.ndarray, np.ndarray, np.n
 
 
 def direction_from_angles(azimuth_deg: np.ndarray, plunge_deg: np.ndarray) -> np.ndarray:
-    """Unit vectors from azimuth (from +x towards +y) and downward plunge (towards -z), degrees."""
+    """Build unit vectors from azimuth (from +x towards +y) and downward plunge (towards -z).
+
+    Parameters
+    ----------
+    azimuth_deg : array_like, shape (...)
+        Azimuth, degrees.
+    plunge_deg : array_like, shape (...)
+        Plunge below the x-y plane, degrees (broadcast against ``azimuth_deg``).
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 3)
+        Unit vectors.
+    """
     a = np.radians(np.asarray(azimuth_deg, dtype=float))
     p = np.radians(np.asarray(plunge_deg, dtype=float))
     return np.stack([np.cos(p) * np.cos(a), np.cos(p) * np.sin(a), -np.sin(p)], axis=-1)
 
 
 def to_lower_hemisphere(v: np.ndarray) -> np.ndarray:
-    """Axial vectors flipped so that z <= 0 (CONVENTIONS.md)."""
+    """Flip axial vectors so that z <= 0 (CONVENTIONS.md).
+
+    Parameters
+    ----------
+    v : array_like, shape (..., 3)
+        Vectors standing for axes (their sign carries no meaning).
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., 3)
+        ``v`` with those of positive z negated.
+    """
     v = np.asarray(v, dtype=float)
     return np.where(v[..., 2:3] > 0, -v, v)
 

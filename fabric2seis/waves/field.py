@@ -69,15 +69,14 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from fabric2seis.cautions import LAYER_MODEL
 from fabric2seis.errors import InputError
 from fabric2seis.waves import splitting
 
 REQUIRED = ("station", "baz_deg", "fast_azimuth_deg", "delay_s")
 DEFAULT_AZIMUTH_ERR_DEG = 10.0
 DEFAULT_DELAY_ERR_S = 0.2
-CAUTIONS = ("The prediction assumes a fabric coherent over the whole layer, no melt or aligned cracks, and a "
-            "plane-wave, ray-theory view (no ray bending, phase velocities); real splitting depends on frequency "
-            "and on structure the sample does not see.")
+CAUTIONS = LAYER_MODEL
 
 
 def read_measurements(path: str | Path) -> pd.DataFrame:
@@ -604,7 +603,7 @@ def fit_station(sample: SampleTensor, data: pd.DataFrame, fixed: set[str], azimu
     intervals = _intervals(quads, trends, profile, best, search, sample)
     per_attitude = np.sort(profile.min(axis=1))
     foliation_delta = float(per_attitude[1] - per_attitude[0]) if len(per_attitude) > 1 else None
-    senses, sense_delta = _senses(trends, profile[i_att], best_l[i_att], k)
+    senses, sense_delta = _senses(trends, profile[i_att], best_l[i_att], int(k))
 
     dof = obs.n_terms - (("thickness" not in fixed) + ("azimuth" not in fixed))
     reduced = best["chi_square"] / dof if dof > 0 else None

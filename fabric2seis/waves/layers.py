@@ -164,6 +164,8 @@ def stack_operator(fast_azimuth_deg, delay_s, angular_frequency) -> np.ndarray:
     for phi, dt in zip(fast, delay):
         g = splitting_operators(phi, dt, angular_frequency)
         total = g if total is None else g @ total
+    if total is None:                       # not reached: _layer_arrays asks for one layer at least
+        raise ValueError("give at least one layer")
     return total
 
 

@@ -20,10 +20,22 @@ from fabric2seis.orientations import to_matrices
 class Aggregate:
     """The four averages of a rock (6x6 Voigt, GPa, structural frame) and its density.
 
-    ``crystal_tensors``: the single-crystal stiffness of each mineral at the conditions (Voigt,
-    crystal frame); ``crystal_matrices``: its Kelvin stiffness, compliance and logarithm as the
-    averages used them (twin variants included), for the bootstrap; ``twins``: the twin laws
-    applied, by mineral.
+    Attributes
+    ----------
+    tensors
+        Voigt stiffness (6, 6) in GPa under ``"voigt"``, ``"reuss"``, ``"hill"``, ``"geometric"``.
+    density_kg_m3
+        Fraction-weighted density of the rock, kg/m^3.
+    average
+        Name of the average that feeds the seismic outputs (:attr:`stiffness`).
+    crystal_tensors
+        The single-crystal stiffness of each mineral at the conditions (Voigt (6, 6), GPa,
+        crystal frame), by mineral name.
+    crystal_matrices
+        Its Kelvin stiffness, compliance and logarithm (each (6, 6)) as the averages used them
+        (twin variants included), for the bootstrap.
+    twins
+        The twin laws applied, by mineral.
     """
 
     tensors: dict[str, np.ndarray]
@@ -35,16 +47,40 @@ class Aggregate:
 
     @property
     def stiffness(self) -> np.ndarray:
-        """The average chosen to feed the seismic outputs."""
+        """The average chosen to feed the seismic outputs: Voigt stiffness (6, 6), GPa."""
         return self.tensors[self.average]
 
 
 def mineral_at_conditions(mineral, pressure_gpa: float = 0.0, temperature_c: float = 25.0,
                           allow_ambient: bool = False) -> tuple[np.ndarray, float]:
-    """Single-crystal stiffness (orix frame) and density at the conditions (as published at the
-    conditions the constants were measured at).
+    """Return a mineral's single-crystal stiffness (orix frame) and density at the given conditions.
 
-    Other conditions need the mineral's derivatives beyond a small range; see fabric2seis.elastic.conditions.
+    At the conditions the constants were measured at, they are returned as published. Other
+    conditions need the mineral's derivatives beyond a small range; see fabric2seis.elastic.conditions.
+
+    Parameters
+    ----------
+    mineral : fabric2seis.elastic.minerals.Mineral
+        Library entry of the mineral.
+    pressure_gpa : float
+        Pressure, GPa.
+    temperature_c : float
+        Temperature, degrees Celsius.
+    allow_ambient : bool
+        Use the constants as measured where the library lacks the derivatives needed.
+
+    Returns
+    -------
+    stiffness : numpy.ndarray, shape (6, 6)
+        Voigt stiffness in the crystal frame orix uses, GPa.
+    density : float
+        Density, kg/m^3.
+
+    Raises
+    ------
+    InputError
+        If the mineral lacks derivatives the conditions need and ``allow_ambient`` is false, or
+        the corrected stiffness is not valid (:func:`fabric2seis.elastic.conditions.at_conditions`).
     """
     from fabric2seis.elastic.conditions import at_conditions, at_reference
 
@@ -57,12 +93,49 @@ def mineral_at_conditions(mineral, pressure_gpa: float = 0.0, temperature_c: flo
 def aggregate(orientation_sets, fractions: dict[str, float], average: str = "hill",
               pressure_gpa: float = 0.0, temperature_c: float = 25.0, allow_ambient: bool = False,
               twin_average: bool = True) -> Aggregate:
-    """Aggregate tensor of a rock from (mineral, quaternions, weights) per phase and volume fractions.
+    """Compute the aggregate tensors of a rock from (mineral, quaternions, weights) per phase and volume fractions.
 
     Single-crystal constants are brought to the conditions first. A mineral whose library entry
     lists twin laws (``twins``: the Dauphine twin of quartz) enters every measured orientation as
     the crystal and its variants in equal parts when ``twin_average`` (EBSD cannot tell them
     apart), each average in its own linear space (``elastic.crystal_kelvin_matrices``).
+
+    Parameters
+    ----------
+    orientation_sets : iterable of (Mineral, numpy.ndarray, numpy.ndarray)
+        Per phase: its library mineral, orix quaternions (N, 4) in the structural frame, and
+        non-negative weights (N,).
+    fractions : dict of str to float
+        Volume fraction of each mineral, by mineral name (renormalised to sum to 1).
+    average : {"voigt", "reuss", "hill", "geometric"}
+        The average that feeds the seismic outputs.
+    pressure_gpa : float
+        Pressure, GPa.
+    temperature_c : float
+        Temperature, degrees Celsius.
+    allow_ambient : bool
+        Use the constants as measured where the library lacks the derivatives needed.
+    twin_average : bool
+        Whether twin laws of the library enter the averages.
+
+    Returns
+    -------
+    Aggregate
+        The four averages (6, 6) in GPa, the density in kg/m^3 and what went into them.
+
+    Raises
+    ------
+    InputError
+        If a mineral cannot be brought to the conditions, or an average is not a valid stiffness.
+    KeyError
+        If a mineral has no entry in ``fractions``.
+    ValueError
+        If orientations, weights or fractions are invalid (:func:`elastic.average_tensors`).
+
+    References
+    ----------
+    Voigt (1928), Reuss (1929), Hill (1952), Matthies & Humbert (1993): see
+    :func:`fabric2seis.elastic.tensors.average_tensors`.
     """
     parts, densities, used, matrices, twins = [], [], {}, {}, {}
     for mineral, quat, weights in orientation_sets:
@@ -86,7 +159,19 @@ def aggregate(orientation_sets, fractions: dict[str, float], average: str = "hil
 
 @dataclass
 class VelocityGrid:
-    """Velocities on the lower-hemisphere grid (one entry per direction)."""
+    """Velocities on the lower-hemisphere grid (one entry per direction).
+
+    Attributes
+    ----------
+    directions
+        Unit propagation directions (M, 3), structural frame, z <= 0.
+    azimuth_deg, plunge_deg
+        Azimuth from X towards Y and plunge below the XY plane (M,), degrees.
+    vp_km_s, vs1_km_s, vs2_km_s
+        Phase velocities (M,), km/s.
+    s1_polarisation
+        Unit polarisation vectors of the fast shear wave (M, 3); their sign is arbitrary.
+    """
 
     directions: np.ndarray
     azimuth_deg: np.ndarray
@@ -98,13 +183,23 @@ class VelocityGrid:
 
     @property
     def avs_pct(self):
+        """Shear-wave anisotropy 200 (Vs1 - Vs2) / (Vs1 + Vs2) per direction (M,), percent."""
         return 200.0 * (self.vs1_km_s - self.vs2_km_s) / (self.vs1_km_s + self.vs2_km_s)
 
     @property
     def dvs_km_s(self):
+        """Difference Vs1 - Vs2 per direction (M,), km/s."""
         return self.vs1_km_s - self.vs2_km_s
 
     def table(self):
+        """Return the grid as a table, one row per direction.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Columns x, y, z, azimuth_deg, plunge_deg, vp_km_s, vs1_km_s, vs2_km_s, avs_pct,
+            dvs_km_s, vp_vs1, vp_vs2 and the fast polarisation (flipped to z <= 0), rounded.
+        """
         import pandas as pd
 
         pol = waves.to_lower_hemisphere(self.s1_polarisation)
@@ -122,6 +217,27 @@ class VelocityGrid:
 
 
 def velocity_grid(c: np.ndarray, density_kg_m3: float, step_deg: float = 1.0) -> VelocityGrid:
+    """Solve the Christoffel equation on a near-uniform lower-hemisphere grid of directions.
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa, structural frame.
+    density_kg_m3 : float
+        Density, kg/m^3.
+    step_deg : float
+        Spacing of the grid, degrees, in (0, 45] (:func:`waves.hemisphere_grid`).
+
+    Returns
+    -------
+    VelocityGrid
+        Velocities (km/s) and fast polarisations for every direction of the grid.
+
+    Raises
+    ------
+    ValueError
+        If ``step_deg`` is out of range or the density is not positive.
+    """
     dirs, az, pl = waves.hemisphere_grid(step_deg)
     w = waves.plane_waves(c, density_kg_m3, dirs)
     return VelocityGrid(dirs, az, pl, w.vp_km_s, w.vs1_km_s, w.vs2_km_s, w.polarisations[:, 1])
@@ -133,7 +249,21 @@ def _direction(v):
 
 
 def seismic_summary(grid: VelocityGrid, average: str) -> dict:
-    """The ``seismic`` block of summary.json (CONTRACT.md keys plus a few more)."""
+    """Build the ``seismic`` block of summary.json (CONTRACT.md keys plus a few more).
+
+    Parameters
+    ----------
+    grid : VelocityGrid
+        Velocities over the lower hemisphere (:func:`velocity_grid`).
+    average : str
+        Name of the average the velocities were computed from.
+
+    Returns
+    -------
+    dict
+        Extremes of Vp, Vs1, Vs2 (km/s) and of AVs (percent), AVp (percent), largest dVs (km/s),
+        directions of the extremes as unit vectors with z <= 0, and the grid step (degrees).
+    """
     i_max, i_min = int(np.argmax(grid.vp_km_s)), int(np.argmin(grid.vp_km_s))
     vp_max, vp_min = float(grid.vp_km_s[i_max]), float(grid.vp_km_s[i_min])
     avs = grid.avs_pct
@@ -156,7 +286,26 @@ def seismic_summary(grid: VelocityGrid, average: str) -> dict:
 
 
 def along_axes(c: np.ndarray, density_kg_m3: float) -> dict:
-    """Vp, Vs1, Vs2 and AVs for propagation along X, Y and Z."""
+    """Compute Vp, Vs1, Vs2 and AVs for propagation along X, Y and Z.
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa, structural frame.
+    density_kg_m3 : float
+        Density, kg/m^3.
+
+    Returns
+    -------
+    dict
+        For each of ``"X"``, ``"Y"``, ``"Z"``: ``vp_km_s``, ``vs1_km_s``, ``vs2_km_s`` (km/s,
+        rounded to 1e-5) and ``avs_pct`` (percent, rounded to 1e-4).
+
+    Raises
+    ------
+    ValueError
+        If the density is not positive.
+    """
     w = waves.plane_waves(c, density_kg_m3, np.eye(3))
     return {axis: {"vp_km_s": round(float(w.vp_km_s[k]), 5), "vs1_km_s": round(float(w.vs1_km_s[k]), 5),
                    "vs2_km_s": round(float(w.vs2_km_s[k]), 5), "avs_pct": round(float(w.avs_pct[k]), 4)}
@@ -165,7 +314,7 @@ def along_axes(c: np.ndarray, density_kg_m3: float) -> dict:
 
 def splitting_along(c: np.ndarray, density_kg_m3: float, direction=(0.0, 0.0, 1.0),
                     reference=(1.0, 0.0, 0.0), thickness_km: float = 100.0) -> dict:
-    """Fast polarisation and delay for a shear wave along ``direction`` through ``thickness_km``.
+    """Compute the fast polarisation and delay of a shear wave along ``direction`` through ``thickness_km``.
 
     The fast polarisation angle is measured in the plane normal to the ray, from ``reference``
     (projected into that plane) towards ``direction x reference``: for the default, a ray along Z,

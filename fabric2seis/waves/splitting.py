@@ -32,6 +32,7 @@ from __future__ import annotations
 import numpy as np
 
 from fabric2seis import elastic, waves
+from fabric2seis.cautions import LAYER_MODEL
 from fabric2seis.errors import InputError
 
 IN_PLANE_TOLERANCE_DEG = 2.0
@@ -64,7 +65,7 @@ def placement(field: dict, source=None) -> np.ndarray:
     elif "lineation_trend_deg" in field and "lineation_plunge_deg" in field:
         t, pl = np.radians(float(field["lineation_trend_deg"])), np.radians(float(field["lineation_plunge_deg"]))
         x = np.array([np.cos(pl) * np.cos(t), np.cos(pl) * np.sin(t), np.sin(pl)])
-        off = np.degrees(np.arcsin(min(1.0, abs(x @ z))))
+        off = np.degrees(np.arcsin(min(1.0, abs(float(x @ z)))))
         if off > IN_PLANE_TOLERANCE_DEG:
             raise InputError(f"the lineation (trend {field['lineation_trend_deg']}, plunge "
                              f"{field['lineation_plunge_deg']}) lies {off:.1f} degrees out of the foliation plane "
@@ -137,10 +138,11 @@ def broadcast_rays(back_azimuth_deg, incidence_deg) -> tuple[np.ndarray, np.ndar
     baz = _finite_array(back_azimuth_deg, "back_azimuth_deg")
     inc = check_incidence(incidence_deg)
     try:
-        return np.broadcast_arrays(baz, inc)
+        baz_b, inc_b = np.broadcast_arrays(baz, inc)
     except ValueError:
         raise ValueError(f"back_azimuth_deg (shape {baz.shape}) and incidence_deg (shape {inc.shape}) "
                          "must have the same length, or one of them be a single value") from None
+    return baz_b, inc_b
 
 
 def axial_difference(a_deg, b_deg) -> np.ndarray:
@@ -384,8 +386,6 @@ def field_summary(c_structural: np.ndarray, density_kg_m3: float, field: dict, s
                                            else (float(field["foliation_strike_deg"]) + 90.0) % 360.0), 3),
         "lineation_plunge_deg": round(float(np.degrees(np.arcsin(np.clip(lineation[2], -1, 1)))), 3),
         "sweep_incidence_deg": incidence_deg,
-        "cautions": "coherent fabric over the whole layer, no melt or aligned cracks, plane waves and ray "
-                    "theory (no ray bending, phase velocities); real splitting depends on frequency and on "
-                    "structure the sample does not see",
+        "cautions": LAYER_MODEL,
     }
     return summary, {"back_azimuth_deg": baz, **sweep}

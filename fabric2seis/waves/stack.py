@@ -30,6 +30,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -126,7 +127,7 @@ def read_stack(path: str | Path) -> dict:
     entries = data["layers"]
     if not isinstance(entries, list) or not entries:
         raise InputError("layers must be a non-empty list of layers, bottom to top", path, "key layers")
-    stack = {"file": str(path),
+    stack: dict[str, Any] = {"file": str(path),
              "period_s": _number(data.get("period_s", layers.DEFAULT_PERIOD_S), "period_s", path, "key period_s"),
              "incidence_deg": _number(data.get("incidence_deg", splitting.SKS_INCIDENCE_DEG), "incidence_deg",
                                       path, "key incidence_deg"),
@@ -219,9 +220,9 @@ def _layer_record(layer: dict) -> dict:
 
 
 def stack_cautions(stack: dict) -> list[str]:
-    from fabric2seis.waves.field import CAUTIONS
+    from fabric2seis.cautions import LAYER_MODEL
 
-    notes = [CAUTIONS, "Apparent splitting of several layers depends on the initial polarisation and on the "
+    notes = [LAYER_MODEL, "Apparent splitting of several layers depends on the initial polarisation and on the "
              f"period; these predictions are for a dominant period of {stack['period_s']:g} s (Silver & Savage 1994)."]
     delays = [layer.get("delay_s", layer.get("vertical_delay_s", 0.0)) for layer in stack["layers"]]
     if sum(delays) >= stack["period_s"] / 2.0:

@@ -22,7 +22,24 @@ REPORT_TABLES = ("splitting_vs_backazimuth",)
 
 
 def key_numbers(summary: dict) -> pd.DataFrame:
-    """A short table of one sample's main numbers: quantity, value, 95 % interval, unit."""
+    """Build a short table of one sample's main numbers: quantity, value, 95 % interval, unit.
+
+    Parameters
+    ----------
+    summary : dict
+        The sample's ``summary.json``.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns quantity, value, low, high, unit (km/s, %, s, degrees, kg/m^3 or none); the first
+        row is the status, the last ones the cautions.
+
+    Raises
+    ------
+    KeyError
+        If the summary lacks a key every summary has.
+    """
     interval = summary.get("uncertainty") or {}
     rows: list[tuple[str, Any, Any, str]] = [
         ("points", summary["n_points"], None, ""), ("grains", summary["n_grains"], None, ""),
@@ -73,6 +90,18 @@ def gather_report_files(status_file: str | Path, out_dir: str | Path) -> list[Pa
 
     Always writes ``key_numbers.csv``: the sample's main numbers, or for a sample that failed one
     row with its error, so a bad sample shows in the report without stopping it.
+
+    Parameters
+    ----------
+    status_file : str or Path
+        The workflow's status file of the sample (JSON with ``status`` and ``summary``).
+    out_dir : str or Path
+        Folder to copy into (created if missing).
+
+    Returns
+    -------
+    list of Path
+        The files written.
     """
     status = json.loads(Path(status_file).read_text())
     out = Path(out_dir)
@@ -96,6 +125,18 @@ def gather_field_report_files(field_dir: str | Path, out_dir: str | Path) -> lis
     """Copy the field comparison's figures (PNG) and ``predictions.csv`` into ``out_dir``.
 
     ``field_fit.json`` itself is reported from the field folder, so it is not copied.
+
+    Parameters
+    ----------
+    field_dir : str or Path
+        The field comparison's results folder.
+    out_dir : str or Path
+        Folder to copy into (created if missing).
+
+    Returns
+    -------
+    list of Path
+        The files written.
     """
     field_dir, out = Path(field_dir), Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)

@@ -17,7 +17,25 @@ WORKFLOW_NAMES = ("status", "logs", "benchmarks", "report_parts", "field", "stac
 
 
 def check_workflow_sample_name(name: str, path: str | Path) -> str:
-    """Refuse (InputError) a sample name that cannot be a folder of its own in the results folder."""
+    """Refuse a sample name that cannot be a folder of its own in the results folder.
+
+    Parameters
+    ----------
+    name : str
+        The sample's name.
+    path : str or Path
+        Its EBSD file.
+
+    Returns
+    -------
+    str
+        ``name``.
+
+    Raises
+    ------
+    InputError
+        If the file name cannot name a folder, or ``name`` is one of ``WORKFLOW_NAMES``.
+    """
     checked_sample_name(path)
     if name.lower() in WORKFLOW_NAMES:
         raise InputError(f"the sample name '{name}' is the name of one of the workflow's own folders or "
@@ -26,7 +44,18 @@ def check_workflow_sample_name(name: str, path: str | Path) -> str:
 
 
 def is_measurements_file(path: Path) -> bool:
-    """A CSV whose header names the columns of field measurements (station, baz_deg ...)."""
+    """Tell whether a file is a CSV whose header names the columns of field measurements (station, baz_deg ...).
+
+    Parameters
+    ----------
+    path : Path
+        The file.
+
+    Returns
+    -------
+    bool
+        True if its first line has ``station`` and ``baz_deg`` columns.
+    """
     if path.suffix.lower() != ".csv":
         return False
     try:
@@ -38,6 +67,18 @@ def is_measurements_file(path: Path) -> bool:
 
 
 def discover_measurements(folder: str | Path) -> list[Path]:
+    """List the field-measurement CSV files in ``folder`` (not recursive).
+
+    Parameters
+    ----------
+    folder : str or Path
+        Folder to look in; a missing folder holds none.
+
+    Returns
+    -------
+    list of Path
+        The files, sorted.
+    """
     folder = Path(folder)
     return sorted(p for p in folder.iterdir() if p.is_file() and is_measurements_file(p)) if folder.is_dir() else []
 
@@ -46,6 +87,21 @@ def discover_samples(folder: str | Path) -> dict[str, Path]:
     """Every supported EBSD export in ``folder`` (not recursive), by sample name.
 
     CSV files of field measurements (a header with ``station`` and ``baz_deg``) are not samples.
+
+    Parameters
+    ----------
+    folder : str or Path
+        Folder to look in; a missing folder holds none.
+
+    Returns
+    -------
+    dict of str to Path
+        EBSD file by sample name.
+
+    Raises
+    ------
+    ValueError
+        If two files give the same sample name.
     """
     folder = Path(folder)
     found: dict[str, Path] = {}
@@ -61,7 +117,23 @@ def discover_samples(folder: str | Path) -> dict[str, Path]:
 
 
 def flatten(data: dict, prefix: str = "") -> dict:
-    """Scalar entries of a nested mapping, keys joined with dots."""
+    """Flatten the scalar entries of a nested mapping, keys joined with dots.
+
+    Two-element lists under ``uncertainty`` (95 % intervals) become ``.low`` and ``.high``; other
+    lists are left out.
+
+    Parameters
+    ----------
+    data : dict
+        Nested mapping.
+    prefix : str
+        Put before every key.
+
+    Returns
+    -------
+    dict
+        Flat mapping.
+    """
     out = {}
     for key, value in data.items():
         name = f"{prefix}{key}"
@@ -75,7 +147,18 @@ def flatten(data: dict, prefix: str = "") -> dict:
 
 
 def suite_table(summary_files: list[str | Path]) -> pd.DataFrame:
-    """One row per sample: the scalar keys of each summary.json and a status column."""
+    """Build the suite table, one row per sample: the scalar keys of each summary.json and a status column.
+
+    Parameters
+    ----------
+    summary_files : list of str or Path
+        The samples' ``summary.json`` files.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per file.
+    """
     rows = []
     for f in summary_files:
         summary = json.loads(Path(f).read_text())
@@ -84,7 +167,18 @@ def suite_table(summary_files: list[str | Path]) -> pd.DataFrame:
 
 
 def suite_table_from_status(status_files: list[str | Path]) -> pd.DataFrame:
-    """The suite table from the workflow's per-sample status files (failed samples keep a row)."""
+    """Build the suite table from the workflow's per-sample status files (failed samples keep a row).
+
+    Parameters
+    ----------
+    status_files : list of str or Path
+        The workflow's status files (JSON with ``sample``, ``status`` and ``summary``).
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per sample, its status and, when it succeeded, its summary's scalar keys.
+    """
     rows = []
     for f in status_files:
         status = json.loads(Path(f).read_text())

@@ -229,3 +229,18 @@ def test_averaging_kernel_refuses_malformed_input(library):
         el.weighted_rotated_mean(x, g.reshape(3, 9), np.ones(3))
     with pytest.raises(ValueError, match="symmetric 6x6"):
         el.weighted_rotated_mean(x[:3, :3], g, np.ones(3))
+
+
+def test_rotations_are_checked_early():
+    # Orthogonal matrices only (common practice): a sheared or scaled matrix is not a rotation, and
+    # an orientation matrix must also be proper (determinant +1, Bunge's passive rotations).
+    c = np.diag([200.0, 200.0, 200.0, 80.0, 80.0, 80.0])
+    with pytest.raises(ValueError, match="not orthogonal"):
+        el.rotate_voigt(c, np.diag([1.0, 1.0, 1.1]))
+    assert np.allclose(el.rotate_voigt(c, -np.eye(3)), c)        # inversion leaves an even-rank tensor
+    with pytest.raises(ValueError, match="reflections"):
+        el.weighted_rotated_mean(el.voigt_to_kelvin(c), -np.eye(3)[None], np.ones(1))
+    with pytest.raises(ValueError, match=r"shape \(N, 3, 3\)"):
+        el.weighted_rotated_mean(el.voigt_to_kelvin(c), np.eye(3), np.ones(1))
+    with pytest.raises(ValueError, match="weights of shape"):
+        el.weighted_rotated_mean(el.voigt_to_kelvin(c), np.eye(3)[None], np.ones(2))

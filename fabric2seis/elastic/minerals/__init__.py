@@ -61,6 +61,44 @@ class Mineral:
     ``cij_published_gpa`` keeps the constants as published, in the setting ``published_axes``.
     ``from_memory`` lists the fields recalled without the source at hand (empty when all were
     read in the source).
+
+    Attributes
+    ----------
+    name, aliases
+        Lower-case name and other names it is found by.
+    point_group, unique_axis
+        Point group as written in the file, and ``"b"`` or ``"c"`` for monoclinic groups.
+    density_kg_m3
+        Density at the reference conditions, kg/m^3.
+    lattice
+        Lattice parameters a, b, c (angstrom) and alpha, beta, gamma (degrees).
+    published_axes
+        Crystal directions of two published Cartesian axes, e.g. ``{x: a, z: c}``.
+    cij_published_gpa
+        Voigt stiffness (6, 6) as published, GPa.
+    setting_rotation
+        Rotation (3, 3) with ``v_orix = R @ v_published``.
+    stiffness_gpa
+        Voigt stiffness (6, 6) in orix's crystal frame, GPa.
+    source, from_memory
+        Citation of the constants, and the fields recalled without it at hand.
+    dcij_dp, d2cij_dp2, pressure_source
+        Pressure derivatives (6, 6) (dimensionless; second derivatives in 1/GPa) and their source,
+        or None.
+    dcij_dt_gpa_per_k, temperature_source
+        Temperature derivatives (6, 6) in GPa/K and their source, or None.
+    derivatives_from_memory
+        Which derivative blocks were recalled without the source at hand.
+    eos
+        Equation of state: ``k0_gpa``, ``k0_prime``, ``thermal_expansion_per_k`` (1/K), ``source``.
+    notes, file
+        Free notes and the file the entry was read from.
+    twins
+        Twin laws: name, axis (a, b, c, a*, b*, c*), angle_deg (degrees), source.
+    reference_temperature_c, reference_pressure_gpa
+        Conditions the constants were measured at, degrees Celsius and GPa.
+    aggregate_check
+        Published aggregate moduli ``k_gpa``, ``g_gpa`` (GPa) and their ``source``, or None.
     """
 
     name: str
@@ -101,12 +139,21 @@ class Mineral:
         return "cij_gpa" in self.from_memory
 
     def aggregate_comparison(self) -> dict | None:
-        """The Hill moduli of the constants against published aggregate moduli (key ``aggregate_check``).
+        """Compare the Hill moduli of the constants with published aggregate moduli (key ``aggregate_check``).
 
         Returns None without such a key, else ``{k_hill_gpa, g_hill_gpa, k_published_gpa,
         g_published_gpa, largest_difference (relative), disputed, source}``; disputed when the
         larger relative difference exceeds ``DISPUTED_ABOVE`` (8 %, this project's threshold: the
         published values are fitted model parameters with a spread of about 5-8 %).
+
+        Returns
+        -------
+        dict or None
+            Moduli in GPa, the relative difference (dimensionless), the verdict and the source.
+
+        References
+        ----------
+        Hill, R. (1952). Proc. Phys. Soc. A 65, 349-354.
         """
         if self.aggregate_check is None:
             return None
@@ -120,11 +167,16 @@ class Mineral:
                 "disputed": bool(largest > DISPUTED_ABOVE), "source": self.aggregate_check["source"]}
 
     def twin_rotations(self) -> list[np.ndarray]:
-        """Crystal-frame rotations (3, 3) taking a crystal to each of its twin variants.
+        """Return the crystal-frame rotations taking a crystal to each of its twin variants.
 
         A twin law (library key ``twins``) whose variants EBSD cannot tell apart, such as the
         Dauphine twin of quartz, makes every measured orientation stand for the crystal and its
         variants in equal parts.
+
+        Returns
+        -------
+        list of numpy.ndarray, each shape (3, 3)
+            One rotation per twin law, in orix's crystal frame; empty without twins.
         """
         out = []
         for twin in self.twins:
@@ -142,10 +194,27 @@ class Mineral:
 
 
 def point_group_symmetry(point_group: str, unique_axis: str | None = None) -> orix_symmetry.Symmetry:
-    """orix Symmetry for a point-group name; monoclinic groups honour ``unique_axis``.
+    """Return the orix Symmetry for a point-group name; monoclinic groups honour ``unique_axis``.
 
     orix's own ``2/m`` puts the 2-fold along z (c unique). Most rock-forming monoclinic minerals
     are described with b unique, where the 2-fold lies along b, which is orix's y axis.
+
+    Parameters
+    ----------
+    point_group : str
+        One of the names in ``POINT_GROUPS`` (e.g. ``"mmm"``, ``"2/m"``, ``"-3m"``).
+    unique_axis : {"b", "c"}, optional
+        Unique axis of a monoclinic group.
+
+    Returns
+    -------
+    orix.quaternion.Symmetry
+        The point group in orix's crystal frame.
+
+    Raises
+    ------
+    KeyError
+        If the name is not a point group orix knows.
     """
     if point_group not in POINT_GROUPS:
         raise KeyError(point_group)
@@ -160,7 +229,18 @@ def point_group_symmetry(point_group: str, unique_axis: str | None = None) -> or
 
 
 def crystal_directions(lattice: dict) -> dict[str, np.ndarray]:
-    """Unit vectors of a, b, c, a*, b*, c* in orix's crystal Cartesian frame (e1 || a, e3 || c*)."""
+    """Compute unit vectors of a, b, c, a*, b*, c* in orix's crystal Cartesian frame (e1 || a, e3 || c*).
+
+    Parameters
+    ----------
+    lattice : dict
+        Lattice parameters ``a``, ``b``, ``c`` (angstrom) and ``alpha``, ``beta``, ``gamma`` (degrees).
+
+    Returns
+    -------
+    dict of str to numpy.ndarray, each shape (3,)
+        Unit vectors by name.
+    """
     base = Phase(point_group="1", structure=Structure(lattice=Lattice(
         lattice["a"], lattice["b"], lattice["c"],
         lattice["alpha"], lattice["beta"], lattice["gamma"]))).structure.lattice.base
@@ -171,7 +251,7 @@ def crystal_directions(lattice: dict) -> dict[str, np.ndarray]:
 
 
 def crystal_direction(mineral: Mineral, label: str) -> np.ndarray:
-    """Unit vector (3,), in orix's crystal frame, of a direction or of a plane normal.
+    """Return the unit vector, in orix's crystal frame, of a direction or of a plane normal.
 
     Parameters
     ----------
@@ -199,6 +279,26 @@ def setting_rotation(lattice: dict, published_axes: dict, source: str = "") -> n
 
     ``published_axes`` names the crystal directions of two published axes, e.g. ``{x: a, z: c}``
     or ``{x: a*, z: c}``; the third completes a right-handed set.
+
+    Parameters
+    ----------
+    lattice : dict
+        Lattice parameters ``a``, ``b``, ``c`` (angstrom) and ``alpha``, ``beta``, ``gamma`` (degrees).
+    published_axes : dict
+        Two of ``x``, ``y``, ``z`` mapped to a, b, c, a*, b* or c*.
+    source : str
+        The mineral file, for error messages.
+
+    Returns
+    -------
+    numpy.ndarray, shape (3, 3)
+        Rotation whose columns are the published x, y, z axes in orix's frame.
+
+    Raises
+    ------
+    InputError
+        If not exactly two of x, y, z are named, a direction is unknown, or the two are not
+        perpendicular in this lattice.
     """
     keys = sorted(published_axes)
     if len(keys) != 2 or not set(keys) <= {"x", "y", "z"}:
@@ -229,7 +329,24 @@ def setting_rotation(lattice: dict, published_axes: dict, source: str = "") -> n
 
 def check_symmetry_pattern(c: np.ndarray, sym: orix_symmetry.Symmetry, source: str = "",
                            where: str = "cij_gpa", tol: float = SYMMETRY_TOLERANCE_GPA) -> None:
-    """Raise InputError unless ``c`` (orix crystal frame) is invariant under every operation of ``sym``."""
+    """Check that a stiffness is invariant under every operation of a point group.
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness (GPa) or derivative matrix in orix's crystal frame.
+    sym : orix.quaternion.Symmetry
+        Point group; its proper parts suffice, elastic tensors being centrosymmetric.
+    source, where : str
+        File and key, for error messages.
+    tol : float
+        Largest change of an entry allowed, in the unit of ``c`` (GPa for a stiffness).
+
+    Raises
+    ------
+    InputError
+        Unless ``c`` (orix crystal frame) is invariant under every operation of ``sym``.
+    """
     ops = Rotation(sym.data).to_matrix()  # proper parts; elastic tensors are centrosymmetric
     rotated = rotate_voigt(c, ops)
     diff = np.abs(rotated - c).max(axis=0)
@@ -252,7 +369,25 @@ def _matrix(entry: dict, key: str, source: str) -> np.ndarray:
 
 
 def load_mineral_file(path: str | Path) -> Mineral:
-    """Read, convert and check one mineral file; raises InputError naming file and key."""
+    """Read, convert and check one mineral file.
+
+    Parameters
+    ----------
+    path : str or Path
+        A YAML mineral file (see DEVELOPERS.md, "Adding a mineral").
+
+    Returns
+    -------
+    Mineral
+        The entry, its constants in orix's crystal frame.
+
+    Raises
+    ------
+    InputError
+        Naming file and key, if the file cannot be read, has unknown or missing keys, an unknown
+        point group, an implausible density, or constants that are not a valid stiffness or
+        break the symmetry of the point group.
+    """
     path = Path(path)
     src = str(path)
     try:
@@ -379,7 +514,25 @@ def _twins(block, src: str) -> tuple[dict, ...]:
 
 
 def load_library(extra_dirs: Iterable[str | Path] = ()) -> dict[str, Mineral]:
-    """All minerals of the bundled library plus any ``*.yaml`` in ``extra_dirs``, by name."""
+    """Load all minerals of the bundled library plus any ``*.yaml`` in ``extra_dirs``, by name.
+
+    A user's file of the same name replaces the bundled entry. Results are cached.
+
+    Parameters
+    ----------
+    extra_dirs : iterable of str or Path
+        Folders with more mineral files.
+
+    Returns
+    -------
+    dict of str to Mineral
+        The minerals by name.
+
+    Raises
+    ------
+    InputError
+        If a mineral file is invalid (:func:`load_mineral_file`).
+    """
     extra = tuple(str(d) for d in extra_dirs)
     return dict(_load_library_cached(extra))
 
@@ -397,7 +550,25 @@ def _load_library_cached(extra_dirs: tuple[str, ...]) -> tuple[tuple[str, Minera
 
 
 def find_mineral(name: str, library: dict[str, Mineral] | None = None) -> Mineral:
-    """Look a mineral up by name or alias, case-insensitively; suggests the nearest on failure."""
+    """Look a mineral up by name or alias, case-insensitively.
+
+    Parameters
+    ----------
+    name : str
+        Name or alias; underscores count as spaces.
+    library : dict of str to Mineral, optional
+        Where to look; the bundled library if not given.
+
+    Returns
+    -------
+    Mineral
+        The entry found.
+
+    Raises
+    ------
+    InputError
+        If no mineral has that name, suggesting the nearest.
+    """
     library = load_library() if library is None else library
     key = " ".join(str(name).lower().replace("_", " ").split())
     for m in library.values():

@@ -22,7 +22,25 @@ SUPPORTED_SUFFIXES = (".ang", ".ctf", ".h5", ".hdf5", ".csv")
 
 
 def format_of(path: str | Path) -> tuple[str, bool]:
-    """(suffix without .gz, compressed?) of a file name; InputError if unsupported."""
+    """Tell a file's format from its name.
+
+    Parameters
+    ----------
+    path : str or Path
+        File name; only the name is looked at.
+
+    Returns
+    -------
+    suffix : str
+        Lower-case suffix without ``.gz`` (one of ``SUPPORTED_SUFFIXES``).
+    compressed : bool
+        Whether the name ends in ``.gz``.
+
+    Raises
+    ------
+    InputError
+        If the suffix is not supported, or an HDF5 file is gzip-compressed.
+    """
     name = Path(path).name.lower()
     compressed = name.endswith(".gz")
     if compressed:
@@ -35,6 +53,18 @@ def format_of(path: str | Path) -> tuple[str, bool]:
 
 
 def is_supported(path: str | Path) -> bool:
+    """Tell whether a file name has a format ``read_ebsd`` reads (:func:`format_of` without raising).
+
+    Parameters
+    ----------
+    path : str or Path
+        File name.
+
+    Returns
+    -------
+    bool
+        True if supported.
+    """
     try:
         format_of(path)
     except InputError:
@@ -43,9 +73,30 @@ def is_supported(path: str | Path) -> bool:
 
 
 def read_ebsd(path: str | Path, angle_units: str = "degrees") -> EBSDData:
-    """Read one EBSD export into an :class:`EBSDData` record (raises InputError on bad input).
+    """Read one EBSD export into an :class:`EBSDData` record, choosing the reader by file name.
 
     ``angle_units`` applies to CSV tables only; the other formats fix their own units.
+
+    Parameters
+    ----------
+    path : str or Path
+        An .ang, .ctf, .h5/.hdf5 or .csv file (text formats also gzip-compressed).
+    angle_units : {"degrees", "radians"}
+        Unit of the Bunge Euler angles of a CSV table.
+
+    Returns
+    -------
+    EBSDData
+        Orientations as orix quaternions (N, 4), phases, coordinates and quality measures.
+
+    Raises
+    ------
+    InputError
+        If the format is unsupported, the file is missing, or its contents fail the checks.
+
+    References
+    ----------
+    Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
     """
     from fabric2seis.ingest.io import ang, ctf, h5, table
 

@@ -17,7 +17,7 @@ import numpy as np
 from orix.io.plugins import ang as orix_ang
 from orix.quaternion import Rotation
 
-from fabric2seis.ingest.io._crystal_map import header_phases, one_row_per_phase
+from fabric2seis.ingest.io.orix_parts import header_phases, one_row_per_phase
 from fabric2seis.ingest.io.record import EBSDData, check_angles, check_map
 from fabric2seis.ingest.io.text import line_of_row, plain_text_file, read_numbers
 
@@ -35,6 +35,32 @@ def _header(path: Path) -> list[str]:
 
 
 def read(path: Path, compressed: bool = False) -> EBSDData:
+    """Read an .ang map, checking every row.
+
+    Parameters
+    ----------
+    path : Path
+        The file.
+    compressed : bool
+        Whether it is gzip-compressed.
+
+    Returns
+    -------
+    EBSDData
+        Orientations (N, 4) from Bunge angles in radians, phase ids (-1 where the confidence
+        index is -1), x, y in the file's length unit, grid and step, and ``ci``, ``iq``, ``fit``
+        where the file has them.
+
+    Raises
+    ------
+    InputError
+        On unreadable rows, angles out of range, a point count or grid other than the header
+        announces, or points off the grid.
+
+    References
+    ----------
+    Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
+    """
     with plain_text_file(path, compressed) as plain:
         header = _header(plain)
         first_line = len(header) + 1

@@ -16,7 +16,7 @@ from orix.io.plugins import ctf as orix_ctf
 from orix.quaternion import Rotation
 
 from fabric2seis.errors import InputError
-from fabric2seis.ingest.io._crystal_map import header_phases, one_row_per_phase
+from fabric2seis.ingest.io.orix_parts import header_phases, one_row_per_phase
 from fabric2seis.ingest.io.record import EBSDData, check_angles, check_map
 from fabric2seis.ingest.io.text import line_of_row, plain_text_file, read_numbers
 
@@ -44,6 +44,31 @@ def _header_number(header: list[str], key: str) -> float | None:
 
 
 def read(path: Path, compressed: bool = False) -> EBSDData:
+    """Read a .ctf map, checking every row.
+
+    Parameters
+    ----------
+    path : Path
+        The file.
+    compressed : bool
+        Whether it is gzip-compressed.
+
+    Returns
+    -------
+    EBSDData
+        Orientations (N, 4) from Bunge angles in degrees, phase ids (-1 for phase 0), x, y in the
+        file's length unit, square grid and step, and ``mad``, ``bc``, ``bs``.
+
+    Raises
+    ------
+    InputError
+        If the column line is missing, or on unreadable rows, angles out of range, a point count
+        other than XCells x YCells, a step other than XStep, or points off the grid.
+
+    References
+    ----------
+    Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
+    """
     with plain_text_file(path, compressed) as plain:
         header = _header(plain)
         if not header:

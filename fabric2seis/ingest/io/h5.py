@@ -7,12 +7,30 @@ from pathlib import Path
 from orix import io as orix_io
 
 from fabric2seis.errors import InputError
-from fabric2seis.ingest.io._crystal_map import from_crystal_map
+from fabric2seis.ingest.io.orix_parts import from_crystal_map
 from fabric2seis.ingest.io.record import EBSDData
 from fabric2seis.ingest.io.text import quiet
 
 
 def read(path: Path) -> EBSDData:
+    """Read an HDF5 EBSD file through orix.
+
+    Parameters
+    ----------
+    path : Path
+        The file.
+
+    Returns
+    -------
+    EBSDData
+        Orientations (N, 4), phases, coordinates and the quality measures orix finds (``ci``,
+        ``iq``, ``fit``, ``bc``, ``bs``, ``mad``).
+
+    Raises
+    ------
+    InputError
+        If the file is empty, orix cannot read it, or it holds fewer than two points.
+    """
     if path.stat().st_size == 0:
         raise InputError("the file is empty", path)
     try:

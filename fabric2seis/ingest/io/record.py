@@ -53,15 +53,20 @@ class EBSDData:
 
     @property
     def n_points(self) -> int:
+        """Number of points (map pixels or listed grains), indexed or not."""
         return len(self.phase_id)
 
     @property
     def is_map(self) -> bool:
+        """True for a map with coordinates, False for a list of grains."""
         return self.x is not None
 
     @property
     def pixel_area(self) -> float:
-        """Area of one map point (square: step^2; hexagonal: step^2 sqrt(3)/2)."""
+        """Area of one map point (square: step^2; hexagonal: step^2 sqrt(3)/2), in the file's length unit squared.
+
+        1.0 for grain lists, which have no step.
+        """
         if self.step is None:
             return 1.0
         return self.step ** 2 * (np.sqrt(3.0) / 2.0 if self.grid == "hex" else 1.0)
@@ -85,6 +90,27 @@ def check_angles(euler: np.ndarray, units: str, source, where=None) -> None:
     angles beyond 2 pi (plus rounding) cannot be radians. Both are refused rather than guessed.
 
     ``where(row) -> str`` names the place of a 0-based data row in the file ("line 12").
+
+    Parameters
+    ----------
+    euler : array_like, shape (N, 3)
+        Bunge Euler angles phi1, Phi, phi2, one row per point.
+    units : {"degrees", "radians"}
+        The unit the angles are declared in.
+    source : str or path
+        The file, named in error messages.
+    where : callable, optional
+        Maps a 0-based row to its place in the file; "point n" if not given.
+
+    Raises
+    ------
+    InputError
+        On a NaN or infinite angle, angles that contradict the declared unit, Phi outside half a
+        turn, or phi1, phi2 beyond a full turn.
+
+    References
+    ----------
+    Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
     """
     euler = np.asarray(euler, dtype=float)
     if len(euler) == 0:
@@ -153,6 +179,33 @@ def check_map(x: np.ndarray, y: np.ndarray, source, declared_grid: str | None = 
     steps on a square grid, a grid type or step other than the header declares, and points that
     fill less than an eighth of their bounding grid. A hexagonal grid has rows sqrt(3)/2 steps
     apart with every other row shifted by half a step.
+
+    Parameters
+    ----------
+    x, y : array_like, shape (N,)
+        Map coordinates, in the file's length unit.
+    source : str or path
+        The file, named in error messages.
+    declared_grid : {"square", "hex"}, optional
+        Grid type the header declares.
+    declared_step : float, optional
+        Step the header declares, in the unit of ``x``.
+    expected_points : (int, str), optional
+        Point count the header announces, and how the header gives it.
+    where : callable, optional
+        Maps a 0-based row to its place in the file.
+
+    Returns
+    -------
+    grid : {"square", "hex"}
+        Grid type.
+    step : float
+        Spacing of neighbouring points along x, in the unit of ``x``.
+
+    Raises
+    ------
+    InputError
+        On any of the faults listed above.
     """
     x = np.asarray(x, dtype=float)
     y = np.asarray(y, dtype=float)
@@ -171,8 +224,8 @@ def check_map(x: np.ndarray, y: np.ndarray, source, declared_grid: str | None = 
         raise InputError(f"every point of the map is at x = {x[0]:g}, y = {y[0]:g}; each point of a map must "
                          "be at its own place", source)
     tol = 1e-7 * span
-    xv, ix, x_counts = _levels(x, tol)
-    yv, iy, y_counts = _levels(y, tol)
+    xv, _, x_counts = _levels(x, tol)
+    yv, _, y_counts = _levels(y, tol)
     if n >= 4 and x_counts.max() < 2 and y_counts.max() < 2:
         raise InputError("map coordinates are not on a grid: no two points share a row or a column", source)
     spacing_x = _spacing(xv, x_counts, only_shared=len(yv) > 1)

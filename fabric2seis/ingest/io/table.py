@@ -24,6 +24,35 @@ UNINDEXED = {"", "0", "none", "not indexed", "notindexed", "nan", "-1"}
 
 
 def read(path: Path, compressed: bool = False, angle_units: str = "degrees") -> EBSDData:
+    """Read a CSV table (pixel map or grain list), checking every row.
+
+    Parameters
+    ----------
+    path : Path
+        The file.
+    compressed : bool
+        Whether it is gzip-compressed.
+    angle_units : {"degrees", "radians"}
+        Unit of the Bunge Euler angles.
+
+    Returns
+    -------
+    EBSDData
+        Orientations (N, 4), phase ids numbered 1.. in the alphabetical order of the phase names
+        (-1 unindexed), x, y and the grid for maps (None for grain lists), ``weight`` and
+        ``quality`` where given.
+
+    Raises
+    ------
+    InputError
+        If the file is empty or not CSV, a required column is missing, a value is not a number,
+        angles are out of range or contradict ``angle_units``, only one of x and y is given, the
+        map is not on a grid, or a weight is negative.
+
+    References
+    ----------
+    Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
+    """
     with plain_text_file(path, compressed) as plain:
         try:
             frame = pd.read_csv(plain, dtype=str, keep_default_na=False, skipinitialspace=True)

@@ -17,7 +17,25 @@ from fabric2seis.errors import InputError
 
 @contextlib.contextmanager
 def plain_text_file(path: Path, compressed: bool) -> Iterator[Path]:
-    """The path of an uncompressed copy (for .gz), after checking the file is non-empty text."""
+    """Give the path of an uncompressed copy (for .gz), after checking the file is non-empty text.
+
+    Parameters
+    ----------
+    path : Path
+        The file.
+    compressed : bool
+        Whether it is gzip-compressed; the copy is removed on leaving the block.
+
+    Yields
+    ------
+    Path
+        ``path`` itself, or the decompressed copy.
+
+    Raises
+    ------
+    InputError
+        If the file (or its decompressed contents) is empty, cannot be decompressed, or is binary.
+    """
     if path.stat().st_size == 0:
         raise InputError("the file is empty", path)
     if not compressed:
@@ -54,6 +72,22 @@ def find_bad_row(path: Path, first_data_line: int, n_columns: int | None, commen
 
     ``first_data_line`` is 1-based. Returns e.g. ``"line 12: 7 values, expected 10"``, or an
     empty string if every line is fine.
+
+    Parameters
+    ----------
+    path : Path
+        The (plain text) file.
+    first_data_line : int
+        1-based number of the first data line.
+    n_columns : int or None
+        Values a row must have; None takes the count of the first data row.
+    comment : str
+        Lines starting with it are skipped.
+
+    Returns
+    -------
+    str
+        Description of the first bad line, or ``""``.
     """
     with path.open("r", errors="replace") as f:
         for number, line in enumerate(f, start=1):
@@ -73,13 +107,43 @@ def find_bad_row(path: Path, first_data_line: int, n_columns: int | None, commen
 
 
 def quiet(func, *args, **kwargs):
-    """Call a library function with its printed chatter swallowed (orix prints while reading)."""
+    """Call a library function with its printed chatter swallowed (orix prints while reading).
+
+    Parameters
+    ----------
+    func : callable
+        The function.
+    *args, **kwargs
+        Its arguments.
+
+    Returns
+    -------
+    object
+        What ``func`` returns.
+    """
     with contextlib.redirect_stdout(io.StringIO()):
         return func(*args, **kwargs)
 
 
 def line_of_row(path: Path, first_data_line: int, row: int, comment: str | None = "#") -> str:
-    """``"line N"`` of the 0-based data row ``row`` (blank and comment lines skipped, as when reading)."""
+    """Name the file line of a 0-based data row (blank and comment lines skipped, as when reading).
+
+    Parameters
+    ----------
+    path : Path
+        The (plain text) file.
+    first_data_line : int
+        1-based number of the first data line.
+    row : int
+        0-based data row.
+    comment : str or None
+        Lines starting with it are skipped.
+
+    Returns
+    -------
+    str
+        ``"line N"``, or ``"data row R"`` if the file has fewer rows.
+    """
     count = -1
     with path.open("r", errors="replace") as f:
         for number, line in enumerate(f, start=1):
@@ -98,6 +162,29 @@ def read_numbers(path: Path, first_data_line: int, source: Path, comment: str | 
     One pass of pandas' C parser over whitespace-separated numbers. A row with another count of
     values than the first, a value that is not a number, or no data rows at all raise
     InputError naming ``source`` and the line.
+
+    Parameters
+    ----------
+    path : Path
+        The (plain text) file.
+    first_data_line : int
+        1-based number of the first data line.
+    source : Path
+        The file as the user gave it, for error messages.
+    comment : str or None
+        Lines starting with it are skipped.
+    min_columns : int
+        Fewest values a row of the format has.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, C)
+        The numbers, float64.
+
+    Raises
+    ------
+    InputError
+        As described above, or if rows have fewer than ``min_columns`` values.
     """
     import pandas as pd
 

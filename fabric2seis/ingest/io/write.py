@@ -21,10 +21,29 @@ def _euler_deg(quat: np.ndarray) -> np.ndarray:
 
 def write_ctf(path: str | Path, x, y, quat, phase, phase_names: list[str], lattices: list[tuple],
               laue_numbers: list[int], step: float) -> None:
-    """A .ctf in the published channel-text column layout (Phase X Y Bands Error Euler1-3 MAD BC BS).
+    """Write a .ctf in the published channel-text column layout (Phase X Y Bands Error Euler1-3 MAD BC BS).
 
     ``phase`` is 1-based (0 = not indexed); ``lattices`` are (a, b, c, alpha, beta, gamma) per phase;
     ``laue_numbers`` the channel-text Laue group codes (e.g. 3 for mmm, 11 for m-3m).
+
+    Parameters
+    ----------
+    path : str or Path
+        File to write (replaced if present).
+    x, y : array_like, shape (N,)
+        Map coordinates on a square grid, in the map's length unit (micrometres by convention).
+    quat : array_like, shape (N, 4)
+        Orientations as orix quaternions; written as Bunge angles in degrees.
+    phase : array_like of int, shape (N,)
+        Phase number of each point.
+    phase_names : list of str
+        Name of each phase, in phase-number order.
+    lattices : list of tuple
+        Lattice parameters per phase: a, b, c (angstrom), alpha, beta, gamma (degrees).
+    laue_numbers : list of int
+        Laue group code per phase.
+    step : float
+        Map step, in the unit of ``x``.
     """
     nx = len(np.unique(np.round(x, 6)))
     ny = len(np.unique(np.round(y, 6)))
@@ -47,7 +66,21 @@ def write_ctf(path: str | Path, x, y, quat, phase, phase_names: list[str], latti
 
 
 def write_ang(path: str | Path, x, y, quat, phase, phase_names: list[str], point_groups: list[str]) -> None:
-    """A .ang through orix's writer (phase 1-based; 0 = not indexed)."""
+    """Write a .ang through orix's writer (phase 1-based; 0 = not indexed).
+
+    Parameters
+    ----------
+    path : str or Path
+        File to write (replaced if present).
+    x, y : array_like, shape (N,)
+        Map coordinates, in the map's length unit.
+    quat : array_like, shape (N, 4)
+        Orientations as orix quaternions.
+    phase : array_like of int, shape (N,)
+        Phase number of each point.
+    phase_names, point_groups : list of str
+        Name and point group of each phase, in phase-number order.
+    """
     phase = np.asarray(phase)
     xmap = CrystalMap(rotations=Rotation(quat), phase_id=np.where(phase > 0, phase, -1), x=x, y=y,
                       phase_list=PhaseList(names=phase_names, point_groups=point_groups,
@@ -63,7 +96,21 @@ def _save(path, xmap):
 
 
 def write_table(path: str | Path, quat, phase_names, x=None, y=None, weight=None, quality=None) -> None:
-    """The CSV table of CONTRACT.md (angles in degrees)."""
+    """Write the CSV table of CONTRACT.md (Bunge angles in degrees).
+
+    Parameters
+    ----------
+    path : str or Path
+        File to write (replaced if present).
+    quat : array_like, shape (N, 4)
+        Orientations as orix quaternions.
+    phase_names : array_like of str, shape (N,)
+        Phase name of each row.
+    x, y : array_like, shape (N,), optional
+        Map coordinates (for a pixel map; omit both for a grain list).
+    weight, quality : array_like, shape (N,), optional
+        Weight (area or volume) and quality of each row.
+    """
     e = _euler_deg(quat)
     columns = {"phase": phase_names, "phi1": e[:, 0].round(5), "Phi": e[:, 1].round(5), "phi2": e[:, 2].round(5)}
     for name, values in (("x", x), ("y", y), ("weight", weight), ("quality", quality)):

@@ -20,11 +20,38 @@ from fabric2seis.ingest.io.text import quiet
 
 def header_phases(file_reader, header: list[str], rows: np.ndarray, source: Path, suffix: str
                   ) -> tuple[dict[int, str], dict[int, str | None], list[str]]:
-    """Phase names and point groups by id, and the names of the extra columns, as orix reads them.
+    """Read phase names and point groups by id, and the names of the extra columns, as orix reads them.
 
     ``file_reader`` is orix's reader of the format, ``header`` the header lines, ``rows`` one data
     row (as numbers) for each phase id that occurs in the file, so that orix matches the header's
     phases to the ids exactly as it would reading the whole file.
+
+    Parameters
+    ----------
+    file_reader : callable
+        orix's reader of the format (takes a file name, returns a CrystalMap).
+    header : list of str
+        The header lines, with their line ends.
+    rows : numpy.ndarray, shape (P, C)
+        One data row per phase id.
+    source : Path
+        The file, for error messages.
+    suffix : str
+        The format's suffix, e.g. ``".ang"``.
+
+    Returns
+    -------
+    names : dict of int to str
+        Phase name by id.
+    point_groups : dict of int to str or None
+        Point group by id, None where the header gives none.
+    columns : list of str
+        Names of the columns beyond the ones every file of the format has.
+
+    Raises
+    ------
+    InputError
+        If orix cannot read the header.
     """
     if len(rows) == 1:
         rows = np.repeat(rows, 2, axis=0)      # orix's text loading needs two rows to see a table
@@ -41,7 +68,18 @@ def header_phases(file_reader, header: list[str], rows: np.ndarray, source: Path
 
 
 def one_row_per_phase(phase_id: np.ndarray) -> np.ndarray:
-    """Index of the first row of every distinct phase id (-1 included)."""
+    """Find the first row of every distinct phase id (-1 included).
+
+    Parameters
+    ----------
+    phase_id : numpy.ndarray of int, shape (N,)
+        Phase of each point.
+
+    Returns
+    -------
+    numpy.ndarray of int, shape (P,)
+        Row indices, in increasing order of phase id.
+    """
     return np.unique(phase_id, return_index=True)[1]
 
 
@@ -56,7 +94,27 @@ def _phases(xmap) -> tuple[dict[int, str], dict[int, str | None]]:
 
 
 def from_crystal_map(xmap, source, quality_names: dict[str, str]) -> EBSDData:
-    """Build an EBSDData from an orix CrystalMap read from an HDF5 file (all points)."""
+    """Build an EBSDData from an orix CrystalMap read from an HDF5 file (all points).
+
+    Parameters
+    ----------
+    xmap : orix.crystal_map.CrystalMap
+        The map.
+    source : str or Path
+        The file, for the record and error messages.
+    quality_names : dict of str to str
+        Name in the record of each quality property, by orix property name.
+
+    Returns
+    -------
+    EBSDData
+        Orientations (N, 4), phases, x, y (y = 0 for a single line), grid, step and quality.
+
+    Raises
+    ------
+    InputError
+        If an orientation is not finite or the points are not on a grid (:func:`check_map`).
+    """
     quat = np.asarray(xmap.rotations.data, dtype=float).reshape(-1, 4)
     bad = np.flatnonzero(~np.all(np.isfinite(quat), axis=1))
     if len(bad):

@@ -32,3 +32,17 @@ def test_unknown_mineral_is_one_line_exit_2_no_traceback():
 def test_usage_error_exits_2():
     out = run("no-such-command")
     assert out.returncode == 2 and "Traceback" not in out.stderr
+
+
+def test_the_readmes_python_example_runs():
+    # The README shows the library used from Python; it must run as printed, and a random aggregate
+    # of olivine is nearly isotropic (common practice: a few percent of anisotropy from 5,000 grains).
+    import re
+    from pathlib import Path
+
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text()
+    code = re.search(r"## Using the library from Python\n\n```python\n(.*?)```", readme, re.S).group(1)
+    scope: dict = {}
+    exec(code.replace("print(", "found = ("), scope)
+    vp_max, avs_max = scope["found"]
+    assert 8.0 < vp_max < 8.6 and 0.0 < avs_max < 5.0

@@ -55,8 +55,12 @@ def test_suite_table_flattens_scalars_and_intervals(tmp_path):
     from fabric2seis.workflow.suite import suite_table
     f = tmp_path / "summary.json"
     f.write_text(json.dumps({"sample": "a", "n_points": 3, "seismic": {"avp_pct": 5.0, "vp_max_direction": [1, 0, 0]},
-                             "uncertainty": {"avp_pct": [4.0, 6.0], "resamples": 200}}))
+                             "uncertainty": {"avp_pct": [4.0, 6.0], "resamples": 200},
+                             "phases": {"olivine": {"random_floor": {"J_95": [1.2, 1.9],
+                                                                     "pfJ_95": {"[100]": [1.0, 1.1]}}}}}))
     row = suite_table([f]).iloc[0]
+    assert row["phases.olivine.random_floor.J_95.high"] == 1.9          # 95 % ranges of random sets too
+    assert row["phases.olivine.random_floor.pfJ_95.[100].low"] == 1.0
     assert row["status"] == "ok" and row["seismic.avp_pct"] == 5.0
     assert row["uncertainty.avp_pct.low"] == 4.0 and row["uncertainty.avp_pct.high"] == 6.0
     assert "seismic.vp_max_direction" not in row

@@ -119,8 +119,8 @@ def discover_samples(folder: str | Path) -> dict[str, Path]:
 def flatten(data: dict, prefix: str = "") -> dict:
     """Flatten the scalar entries of a nested mapping, keys joined with dots.
 
-    Two-element lists under ``uncertainty`` (95 % intervals) become ``.low`` and ``.high``; other
-    lists are left out.
+    Two-element lists under ``uncertainty`` (95 % intervals) and under keys ending in ``_95`` (the
+    95 % ranges of random sets) become ``.low`` and ``.high``; other lists are left out.
 
     Parameters
     ----------
@@ -139,7 +139,8 @@ def flatten(data: dict, prefix: str = "") -> dict:
         name = f"{prefix}{key}"
         if isinstance(value, dict):
             out.update(flatten(value, name + "."))
-        elif isinstance(value, list) and prefix.startswith("uncertainty") and len(value) == 2:
+        elif isinstance(value, list) and len(value) == 2 and (
+                prefix.startswith("uncertainty") or str(key).endswith("_95") or prefix.endswith("_95.")):
             out[f"{name}.low"], out[f"{name}.high"] = value      # a 95 % interval
         elif not isinstance(value, list):
             out[name] = value

@@ -145,6 +145,11 @@ def check_destination(out: str | Path, kind: str, inputs: Iterable[str | Path] =
     return out
 
 
+def _temporary_tag() -> str:
+    """``<host>-<pid>-<token>``: whose a temporary folder is, as the stale check reads it back."""
+    return f"{_host_tag()}-{os.getpid()}-{secrets.token_hex(4)}"
+
+
 def _alive(pid: int) -> bool:
     try:
         os.kill(pid, 0)
@@ -232,7 +237,7 @@ def folder_written_whole(out: str | Path, kind: str, inputs: Iterable[str | Path
     out = check_destination(out, kind, inputs, results_root, option)
     out.parent.mkdir(parents=True, exist_ok=True)
     clear_stale_temporaries(out)
-    tag = f"{_host_tag()}-{os.getpid()}-{secrets.token_hex(4)}"
+    tag = _temporary_tag()
     tmp = out.parent / f".{out.name}.partial-{tag}"
     aside = out.parent / f".{out.name}.replaced-{tag}"
     tmp.mkdir()
@@ -281,7 +286,7 @@ def remove_results(out: str | Path, kind: str) -> bool:
         return False
     if any(p.parent != out for p in out.rglob(MARKER)):
         return False
-    tag = f"{_host_tag()}-{os.getpid()}-{secrets.token_hex(4)}"
+    tag = _temporary_tag()
     doomed = out.parent / f".{out.name}.partial-{tag}"
     os.replace(out, doomed)
     _discard(doomed)

@@ -1,7 +1,7 @@
 """Writing a results folder whole or not at all, and never over a user's own files.
 
 Every folder fabric2seis writes carries a marker file (``MARKER``) naming what it holds
-(``sample``, ``field`` or ``stack``). A destination is replaced only when it is missing, empty,
+(``sample``, ``field``, ``stack`` or ``optics``). A destination is replaced only when it is missing, empty,
 or carries the marker of the same kind with no other results folder inside it; it must not be the
 current folder or above it, the results root, or a folder equal to or above any input. Replacing
 is atomic: the new results are written into a temporary folder beside the destination, the old
@@ -18,6 +18,7 @@ stale: its process on this machine has ended, or, written from another machine, 
 from __future__ import annotations
 
 import contextlib
+import errno
 import hashlib
 import json
 import os
@@ -32,7 +33,7 @@ from pathlib import Path
 from fabric2seis.errors import InputError
 
 MARKER = ".fabric2seis-results"
-KINDS = ("sample", "field", "stack")
+KINDS = ("sample", "field", "stack", "optics")
 STALE_AFTER_S = 24 * 3600.0
 
 
@@ -59,7 +60,7 @@ def written_kind(folder: str | Path) -> str | None:
     Returns
     -------
     str or None
-        ``"sample"``, ``"field"`` or ``"stack"``; None if the folder has no marker, an unreadable
+        ``"sample"``, ``"field"``, ``"stack"`` or ``"optics"``; None if the folder has no marker, an unreadable
         one, or one naming another kind.
     """
     try:
@@ -77,7 +78,7 @@ def check_destination(out: str | Path, kind: str, inputs: Iterable[str | Path] =
     ----------
     out : str or Path
         The folder the results are to go to.
-    kind : {"sample", "field", "stack"}
+    kind : {"sample", "field", "stack", "optics"}
         What is written.
     inputs : iterable of str or Path
         Files and folders the run reads; the destination may not be equal to or above any of
@@ -235,26 +236,50 @@ def folder_written_whole(out: str | Path, kind: str, inputs: Iterable[str | Path
 
     inputs = list(inputs)
     out = check_destination(out, kind, inputs, results_root, option)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    clear_stale_temporaries(out)
     tag = _temporary_tag()
     tmp = out.parent / f".{out.name}.partial-{tag}"
     aside = out.parent / f".{out.name}.replaced-{tag}"
-    tmp.mkdir()
+    with _writing(out, option):
+        out.parent.mkdir(parents=True, exist_ok=True)
+        clear_stale_temporaries(out)
+        tmp.mkdir()
     try:
-        yield tmp
-        (tmp / MARKER).write_text(json.dumps({"kind": kind, "written_by": f"fabric2seis {__version__}",
-                                              "time": time.strftime("%Y-%m-%dT%H:%M:%S%z")}) + "\n")
-        check_destination(out, kind, inputs, results_root, option)   # nothing changed it meanwhile
-        if out.exists():
-            os.replace(out, aside)
-        os.replace(tmp, out)
+        with _writing(out, option):
+            yield tmp
+            (tmp / MARKER).write_text(json.dumps({"kind": kind, "written_by": f"fabric2seis {__version__}",
+                                                  "time": time.strftime("%Y-%m-%dT%H:%M:%S%z")}) + "\n")
+            check_destination(out, kind, inputs, results_root, option)   # nothing changed it meanwhile
+            if out.exists():
+                os.replace(out, aside)
+            os.replace(tmp, out)
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         if aside.exists() and not out.exists():
             os.replace(aside, out)
         raise
     _discard(aside)
+
+
+# The errors of a location that cannot take the results: the user's to fix, not a program error.
+_LOCATION_ERRORS = {errno.ENOSPC: "no space left on the device",
+                    errno.EDQUOT: "disk quota exceeded",
+                    errno.EACCES: "permission denied",
+                    errno.EPERM: "operation not permitted",
+                    errno.EROFS: "read-only file system"}
+
+
+@contextlib.contextmanager
+def _writing(out: Path, option: str) -> Iterator[None]:
+    """Turn a full, read-only or forbidden results location into one clear line (InputError)."""
+    try:
+        yield
+    except OSError as exc:
+        reason = _LOCATION_ERRORS.get(exc.errno or 0)
+        if reason is None:
+            raise
+        where = f" ({exc.filename})" if exc.filename else ""
+        raise InputError(f"cannot write the results here: {reason}{where}; nothing was written "
+                         f"(free space, fix the permissions or choose another {option})", out, option) from None
 
 
 def _discard(folder: Path) -> None:
@@ -273,7 +298,7 @@ def remove_results(out: str | Path, kind: str) -> bool:
     ----------
     out : str or Path
         The folder to remove.
-    kind : {"sample", "field", "stack"}
+    kind : {"sample", "field", "stack", "optics"}
         The kind its marker must name.
 
     Returns

@@ -6,12 +6,6 @@ byte-identical before and after (sha256 of every file under the project folder).
 """
 
 import hashlib
-import json
-import os
-import signal
-import subprocess
-import sys
-import time
 from pathlib import Path
 
 import pytest
@@ -19,8 +13,8 @@ import pytest
 from fabric2seis.cli import main
 from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.folders import MARKER
-from fabric2seis.ingest.io.write import write_ang, write_table
-from fabric2seis.synth import fabric_orientations, voronoi_map
+from fabric2seis.ingest.io.write import write_table
+from fabric2seis.synth import fabric_orientations
 
 ROOT = Path(__file__).resolve().parents[1]
 FAST = "bootstrap: {n: 0}\n"
@@ -133,34 +127,3 @@ def test_rerun_replaces_own_results_and_nothing_else(project, capsys):
     assert (project / "results" / "s1" / MARKER).is_file()
     assert snapshot(project, project / "results" / "s1") == before
     assert sorted(p.name for p in (project / "results").iterdir()) == ["s1", "suite_summary.csv"]
-
-
-def test_sigkill_at_any_moment_leaves_old_or_new_results_never_partial(tmp_path):
-    # A larger map so the run lasts a few seconds; killed at several moments, the destination is
-    # always a whole results folder (its summary, its marker and its run.log, which is written last).
-    m = voronoi_map(400, 150, 100, step=1.0, n_phases=2, seed=5)
-    f = tmp_path / "big.ang"
-    write_ang(f, m.x, m.y, m.quat, m.phase, ["olivine", "enstatite"], ["mmm", "mmm"])
-    (tmp_path / "big.yaml").write_text("bootstrap: {n: 30}\n")
-    out = tmp_path / "res"
-    cmd = [sys.executable, "-m", "fabric2seis", "sample", str(f), "--out", str(out)]
-    env = {**os.environ, "PYTHONPATH": os.pathsep.join(p for p in (str(ROOT), os.environ.get("PYTHONPATH")) if p)}
-    first = subprocess.run(cmd, env=env, capture_output=True, text=True, timeout=600)
-    assert first.returncode == 0, first.stderr
-    start = time.perf_counter()
-    subprocess.run(cmd, env=env, capture_output=True, timeout=600)
-    whole_run = time.perf_counter() - start
-    (out / "summary.json").write_text(json.dumps({"version": "old"}))     # tell old from new
-    seen = set()
-    for fraction in (0.3, 0.6, 0.8, 0.9, 0.95, 0.99):
-        proc = subprocess.Popen(cmd, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
-        time.sleep(fraction * whole_run)
-        proc.send_signal(signal.SIGKILL)
-        proc.wait()
-        assert {"summary.json", "run.log", MARKER} <= {p.name for p in out.iterdir()}
-        seen.add("old" if "version" in json.loads((out / "summary.json").read_text()) else "new")
-        if seen == {"new"}:
-            (out / "summary.json").write_text(json.dumps({"version": "old"}))
-    again = subprocess.run(cmd, env=env, capture_output=True, text=True, timeout=600)
-    assert again.returncode == 0, again.stderr
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["big.ang", "big.yaml", "res"]   # no temporaries left

@@ -4,16 +4,22 @@
 from snakemake.utils import validate
 
 from fabric2seis.settings import typed
+from fabric2seis.workflow.config import check_config_files, check_config_paths, stop_on_bad_input
 
+with stop_on_bad_input():      # plain YAML and known keys, before Snakemake's own reading (workflow/config.py)
+    CONFIG_FILES = check_config_files(["config/config.yaml", *workflow.config_settings.configfiles])
 configfile: "config/config.yaml"
 config.update(typed(config))   # `--config odf={halfwidth_deg: 15}` arrives as strings
 validate(config, "fabric2seis/settings_schema.yaml")
+with stop_on_bad_input():      # paths written in a config file stay in the project unless allowed
+    check_config_paths(config, CONFIG_FILES, workflow.config_settings.config)
 
 include: "workflow/rules/common.smk"
 include: "workflow/rules/sample.smk"
 include: "workflow/rules/suite.smk"
 include: "workflow/rules/field.smk"
 include: "workflow/rules/report.smk"
+include: "workflow/rules/optics.smk"
 
 
 rule all:
@@ -22,3 +28,5 @@ rule all:
         f"{RESULTS}/suite_comparison.png",
         expand(f"{RESULTS}/report_parts/samples/{{sample}}", sample=sorted(SAMPLES)),
         [f"{RESULTS}/field/field_fit.json", f"{RESULTS}/report_parts/field"] if MEASUREMENTS else [],
+        expand(f"{RESULTS}/report_parts/optics/{{sample}}", sample=sorted(SAMPLES))
+        if (config.get("optics") or {}).get("enabled") else [],

@@ -44,6 +44,18 @@ def _sample(args: argparse.Namespace) -> int:
     return 0
 
 
+def _optics(args: argparse.Namespace) -> int:
+    from fabric2seis.optics.section import run_optics
+
+    def progress(message: str) -> None:
+        if sys.stderr.isatty():
+            print(f"[{args.input}] {message}", file=sys.stderr, flush=True)
+
+    out = run_optics(args.input, args.settings, args.out, progress)
+    print(f"wrote {out}")
+    return 0
+
+
 def _synth(args: argparse.Namespace) -> int:
     from fabric2seis.elastic.minerals import find_mineral
     from fabric2seis.ingest.io.write import write_table
@@ -60,8 +72,9 @@ def _synth(args: argparse.Namespace) -> int:
 
 
 def _suite(args: argparse.Namespace, extra: list[str]) -> int:
-    import subprocess
     from pathlib import Path
+
+    from fabric2seis.workflow.config import check_config_files, config_files_among
 
     if not Path("Snakefile").is_file():
         raise InputError("no Snakefile here: run 'fabric2seis suite' from the fabric2seis project folder",
@@ -69,9 +82,102 @@ def _suite(args: argparse.Namespace, extra: list[str]) -> int:
     if not Path(args.samples).is_dir():
         raise InputError("no such samples folder", args.samples)
     user_config, rest = split_config_arguments(extra)
+    check_config_files(["config/config.yaml", *config_files_among(rest)])   # plain YAML, before Snakemake
+    # --samples and --results go to Snakemake as --config: command-line folders may lie anywhere
     command = [sys.executable, "-m", "snakemake", "--cores", str(args.cores),
                "--config", f"samples_dir={args.samples}", f"results_dir={args.results}", *user_config, *rest]
-    return subprocess.run(command).returncode
+    if "--unlock" in rest:                  # the user releases a lock by hand: pass it on as it is
+        return _snakemake(command)[0]
+    lock = _hold_results_folder(args.results)
+    if lock is None:
+        raise InputError("another run of the workflow is writing to this results folder; wait for it to finish",
+                         args.results, "option --results")
+    # a killed run leaves Snakemake's lock and its half-done jobs marked incomplete; no other suite
+    # holds this folder now, so such a lock is stale: release it and run the unfinished jobs again
+    # (every job's outputs are written whole, fabric2seis/folders.py)
+    command.append("--rerun-incomplete")
+    status, locked = _snakemake(command, lock)
+    if locked and status != 0:
+        print("fabric2seis suite: an earlier run on this results folder was stopped before it finished; "
+              "releasing its lock and going on", file=sys.stderr, flush=True)
+        _snakemake([*command, "--unlock"], lock, quiet=True)
+        status, locked = _snakemake(command, lock)
+    if locked and status != 0:
+        raise InputError(f"Snakemake's lock in {Path.cwd() / '.snakemake' / 'locks'} refuses the run (a plain "
+                         f"'snakemake' run on the same files?); wait for it, or release the lock with: "
+                         f"fabric2seis suite --samples {args.samples} --results {args.results} --unlock",
+                         args.results, "option --results")
+    return status
+
+
+def _hold_results_folder(results: str) -> int | None:
+    """Take the lock that keeps one ``fabric2seis suite`` per results folder; None if another run holds it.
+
+    The lock is an ``flock`` on a file in the project's ``.snakemake`` folder named after the results
+    folder's full path; the system releases it when the run ends however it ends, even when killed.
+    Snakemake inherits the descriptor, so a Snakemake that outlives a killed ``fabric2seis`` keeps it.
+    """
+    import fcntl
+    import hashlib
+    import os
+    from pathlib import Path
+
+    key = hashlib.sha256(str(Path(results).resolve()).encode("utf-8", "surrogateescape")).hexdigest()[:16]
+    folder = Path(".snakemake")
+    folder.mkdir(exist_ok=True)
+    fd = os.open(folder / f"fabric2seis-suite-{key}.lock", os.O_RDWR | os.O_CREAT, 0o644)
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except OSError:
+        os.close(fd)
+        return None
+    os.set_inheritable(fd, True)
+    return fd
+
+
+def _snakemake(command: list[str], lock: int | None = None, quiet: bool = False) -> tuple[int, bool]:
+    """Run Snakemake; its exit status, and whether its lock refused the run."""
+    import subprocess
+
+    process = subprocess.Popen(command, stderr=subprocess.PIPE, text=True, errors="replace",
+                               pass_fds=() if lock is None else (lock,),
+                               stdout=subprocess.DEVNULL if quiet else None)
+    try:
+        locked = pass_on_messages([] if quiet else (process.stderr or []))
+        if quiet and process.stderr:
+            process.stderr.read()
+        status = process.wait()
+    except KeyboardInterrupt:
+        return process.wait() or 130, False
+    return status, locked
+
+
+def pass_on_messages(lines) -> bool:
+    """Pass Snakemake's messages on to stderr, unless its lock refuses the run; tell whether it did.
+
+    Lines are held until Snakemake has built its plan and taken the lock (the line after "Building
+    DAG of jobs"), and dropped if the lock refused the run, so that the refusal is one line.
+    """
+    held: list[str] | None = []
+    planned = locked = False
+    for line in lines:
+        if held is None:
+            sys.stderr.write(line)
+            sys.stderr.flush()
+        elif line.startswith("LockException"):
+            locked = True
+            break
+        else:
+            held.append(line)
+            if planned:
+                sys.stderr.writelines(held)
+                held = None
+            planned = planned or line.startswith("Building DAG of jobs")
+    for _line in lines:         # the rest of a refusal: read to the end, not shown
+        pass
+    if held and not locked:
+        sys.stderr.writelines(held)
+    return locked
 
 
 def split_config_arguments(extra: list[str]) -> tuple[list[str], list[str]]:
@@ -169,6 +275,14 @@ def describe_mineral(m) -> str:
         lines.append(f"  aggregate check Hill K {check['k_hill_gpa']:g}, G {check['g_hill_gpa']:g} GPa against "
                      f"K {check['k_published_gpa']:g}, G {check['g_published_gpa']:g} GPa ({check['source']}): "
                      f"{constants_status(m)}")
+    if m.optics is not None:
+        o = m.optics
+        indices = (f"n {o.n_alpha:g}" if o.kind == "isotropic" else
+                   f"n_o {o.principal_n[0]:g}, n_e {o.principal_n[2]:g}" if o.kind == "uniaxial" else
+                   f"n_alpha {o.n_alpha:g}, n_beta {o.n_beta:g}, n_gamma {o.n_gamma:g}")
+        sign = f", optic sign {o.optic_sign}, 2V_z {o.two_v_z_deg():.1f} deg" if o.optic_sign else ""
+        lines.append(f"  optics          {o.kind}: {indices}{sign}, birefringence up to {o.max_birefringence:.4f} "
+                     f"({o.source}{'; recalled' if o.recalled else ''})")
     if m.notes:
         lines.append(f"  notes           {m.notes}")
     lines.append(f"  file            {m.file}")
@@ -196,6 +310,14 @@ def build_parser() -> argparse.ArgumentParser:
                    "else config/config.yaml)")
     p.add_argument("--out", metavar="DIR", help="output folder (default results/<stem>)")
     p.set_defaults(run=_sample)
+
+    p = commands.add_parser("optics", help="predict the crossed-polar view of the thin section: images at "
+                            "stage turns, retardation map, interference-colour chart, birefringence per phase")
+    p.add_argument("input", help="EBSD export: .ang, .ctf, .h5, .csv (text formats also .gz)")
+    p.add_argument("--settings", metavar="FILE", help="settings YAML, block 'optics' (default: INPUT's sidecar "
+                   "<stem>.yaml, else config/config.yaml)")
+    p.add_argument("--out", metavar="DIR", help="output folder (default results/optics/<stem>)")
+    p.set_defaults(run=_optics)
 
     p = commands.add_parser("field", help="compare predicted splitting with field measurements and fit a layer; "
                             "or predict the apparent splitting of several layers (--stack)")

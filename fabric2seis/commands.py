@@ -15,8 +15,10 @@ from pathlib import Path
 
 from fabric2seis.errors import InputError
 from fabric2seis.folders import check_destination, folder_written_whole
+from fabric2seis.threads import blas_on_one_thread
 
 
+@blas_on_one_thread()
 def run_field(result_dirs: list[str | Path], measurements: str | Path, out_dir: str | Path | None = None,
               fixed: set[str] | None = None, results_root: str | Path | None = "results") -> tuple[Path, list[str]]:
     """``fabric2seis field``: fit every sample to every station; outputs written whole or not at all.
@@ -73,6 +75,7 @@ def run_field(result_dirs: list[str | Path], measurements: str | Path, out_dir: 
     return out, fit.cautions
 
 
+@blas_on_one_thread()
 def run_stack(stack_file: str | Path, measurements: str | Path | None = None,
               out_dir: str | Path | None = None) -> tuple[Path, list[str]]:
     """``fabric2seis field --stack``: apparent splitting of several layers, written whole or not at all.

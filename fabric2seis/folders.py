@@ -246,8 +246,8 @@ def folder_written_whole(out: str | Path, kind: str, inputs: Iterable[str | Path
     try:
         with _writing(out, option):
             yield tmp
-            (tmp / MARKER).write_text(json.dumps({"kind": kind, "written_by": f"fabric2seis {__version__}",
-                                                  "time": time.strftime("%Y-%m-%dT%H:%M:%S%z")}) + "\n")
+            # no time in the marker: two runs of the same settings write the same bytes (times are in run.log)
+            (tmp / MARKER).write_text(json.dumps({"kind": kind, "written_by": f"fabric2seis {__version__}"}) + "\n")
             check_destination(out, kind, inputs, results_root, option)   # nothing changed it meanwhile
             if out.exists():
                 os.replace(out, aside)

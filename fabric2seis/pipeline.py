@@ -15,7 +15,7 @@ from pathlib import Path
 
 import numpy as np
 
-from fabric2seis import __version__
+from fabric2seis import __version__, budget
 from fabric2seis.errors import InputError
 from fabric2seis.folders import check_destination
 from fabric2seis.ingest import frames
@@ -25,6 +25,7 @@ from fabric2seis.ingest.io import read_ebsd
 from fabric2seis.orientations import PhaseOrientations
 from fabric2seis.settings import settings_for
 from fabric2seis.stages import FabricResult, Intervals, PhaseFabricResult, Sample, SeismicResult
+from fabric2seis.threads import blas_on_one_thread
 
 Progress = Callable[[str], None]
 
@@ -78,7 +79,7 @@ def checked_sample_name(path: str | Path) -> str:
 
 
 def ingest(path: str | Path, settings: dict, settings_file: str | None = None,
-           progress: Progress | None = None) -> Sample:
+           progress: Progress | None = None, fabric: bool = True) -> Sample:
     """Read, map phases, clean, rotate into the structural frame and reconstruct grains.
 
     Parameters
@@ -91,6 +92,9 @@ def ingest(path: str | Path, settings: dict, settings_file: str | None = None,
         Where the settings came from, for error messages.
     progress : callable, optional
         Called with a message at each step.
+    fabric : bool
+        The sample is for a fabric (True): at least one mineral must have two grains. The optics
+        of a section need no fabric; a single crystal is a section too.
 
     Returns
     -------
@@ -101,13 +105,14 @@ def ingest(path: str | Path, settings: dict, settings_file: str | None = None,
     Raises
     ------
     InputError
-        If the file or settings are refused at any step, or no grain is large enough.
+        If the file or settings are refused at any step, no grain is large enough, or no mineral
+        has two grains (a single grain has no fabric and nothing to resample).
     """
     say = progress or _quiet
     path = Path(path)
     say(f"reading {path.name}")
     data = read_ebsd(path, angle_units=settings["table"]["angle_units"])
-    phase_minerals = phases_mod.map_phases(data, settings.get("phases"))
+    phase_minerals = phases_mod.map_phases(data, settings.get("phases"), settings_file=settings_file)
     clean = settings.get("clean") or {}
     points = phases_mod.select_points(data, phase_minerals, clean.get("quality_min"), clean.get("quality_field"))
     f = frames.structural_matrix(settings["frame"], settings_file)
@@ -125,14 +130,31 @@ def ingest(path: str | Path, settings: dict, settings_file: str | None = None,
             raise InputError(f"no grain has grains.min_pixels = {settings['grains']['min_pixels']} pixels "
                              "or more", path, "key grains.min_pixels")
         if not keep.all():
+            if points.dropped is not None and points.x is not None and points.y is not None:
+                points.dropped = points.dropped.plus(points.x[~keep], points.y[~keep],
+                                                     phases_mod.SMALL_GRAIN)
             for field in ("quat", "mineral_index", "x", "y", "weights"):
                 setattr(points, field, getattr(points, field)[keep])
+    if fabric:
+        _check_two_grains(grains.mineral_index if grains is not None else points.mineral_index, points.minerals, path,
+                          f"key grains.threshold_deg = {settings['grains']['threshold_deg']:g}"
+                          if grains is not None else "data rows")
     measured = phases_mod.modal_fractions(points.mineral_index, points.weights, points.minerals)
     fractions = phases_mod.modal_fractions(points.mineral_index, points.weights, points.minerals,
                                            settings.get("modal_fractions"), settings_file)
     return Sample(name=checked_sample_name(path), settings=settings, settings_file=settings_file, points=points,
                   grains=grains, fractions=fractions, measured_fractions=measured, grid=data.grid,
-                  n_small_grain_points=small)
+                  n_small_grain_points=small, step=data.step)
+
+
+def _check_two_grains(mineral_index: np.ndarray, minerals: list, path: Path, where: str) -> None:
+    """Refuse a sample in which no mineral has two grains: it has no fabric and nothing to resample."""
+    counts = np.bincount(mineral_index, minlength=len(minerals))
+    if counts.max(initial=0) < 2:
+        held = ", ".join(f"{m.name} {int(c)}" for m, c in zip(minerals, counts))
+        raise InputError(f"the sample holds a single grain of each mineral ({held}); fabric indices and their "
+                         "intervals need two grains or more of a mineral ('fabric2seis minerals NAME' shows a "
+                         "single crystal)", path, where)
 
 
 def orientation_sets(sample: Sample, weighting: str) -> list[PhaseOrientations]:
@@ -397,6 +419,7 @@ class RunLog:
             self.progress(message)
 
 
+@blas_on_one_thread()        # the same numbers as the workflow's one-thread jobs (threads.py)
 def run_sample(path: str | Path, settings_path: str | Path | None = None, out_dir: str | Path | None = None,
                progress: Progress | None = None, defaults: dict | None = None,
                results_root: str | Path | None = "results") -> Path:
@@ -437,11 +460,14 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     path, log = Path(path), RunLog(progress)
     checked_sample_name(path)
     settings, settings_file = settings_for(path, settings_path, defaults)
+    budget.check_settings(settings, settings_file or "the default settings")
     log.say(f"fabric2seis {__version__}: {path} with settings {settings_file or 'defaults'}")
     out = Path(out_dir) if out_dir is not None else default_out_dir(path)
     inputs: list[str | Path] = [path, *([settings_file] if settings_file else [])]
     check_destination(out, "sample", inputs, results_root)
     sample = ingest(path, settings, settings_file, log.say)
+    budget.check_bootstrap(settings, [len(s.quat) for s in orientation_sets(sample, "grain_area")],
+                           settings_file or "the default settings")
     fabric = fabric_stage(sample, log.say)
     seismic = seismic_stage(sample, log.say)
     intervals = uncertainty_stage(sample, seismic, log.say)

@@ -11,6 +11,8 @@ from __future__ import annotations
 
 import copy
 import functools
+import math
+import sys
 from pathlib import Path
 
 import jsonschema
@@ -53,11 +55,12 @@ def read_yaml(path: str | Path) -> dict:
     ------
     InputError
         If the file cannot be read, is not UTF-8 or UTF-16 text, is not valid YAML (with line and
-        column), or is not a mapping.
+        column; a key repeated in one mapping and every Python tag count as not valid), or is not a
+        mapping.
     """
     path = Path(path)
     try:
-        data = yaml.safe_load(settings_text(path))
+        data = yaml.load(settings_text(path), Loader=_UniqueKeyLoader)      # a SafeLoader: no Python tags
     except OSError as exc:
         raise InputError(f"cannot read settings ({exc.strerror})", path) from None
     except yaml.YAMLError as exc:
@@ -67,14 +70,15 @@ def read_yaml(path: str | Path) -> dict:
     if data is None:
         return {}
     if not isinstance(data, dict):
-        raise InputError("settings must be a YAML mapping of keys to values", path)
+        raise InputError("settings must be a YAML mapping of keys to values", path, "line 1")
     return data
 
 
 def settings_text(path: Path) -> str:
     """Read the text of a settings file: UTF-8 (with or without a byte-order mark) or UTF-16 with its mark.
 
-    Any other encoding is refused with the place of the first byte that is not UTF-8.
+    Any other encoding is refused with the line and byte offset of the first byte that is not UTF-8
+    (``ingest.io.text.decode``).
 
     Parameters
     ----------
@@ -93,18 +97,25 @@ def settings_text(path: Path) -> str:
     OSError
         If the file cannot be read.
     """
-    raw = path.read_bytes()
-    if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
-        try:
-            return raw.decode("utf-16")
-        except UnicodeDecodeError:
-            raise InputError("not readable as UTF-16 text, though it starts like it", path) from None
-    try:
-        return raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = raw[:exc.start].count(b"\n") + 1
-        raise InputError(f"not UTF-8 text (byte 0x{raw[exc.start]:02x}); save the file as UTF-8", path,
-                         f"line {line}") from None
+    from fabric2seis.ingest.io.text import decode
+
+    return decode(path.read_bytes(), path)
+
+
+class _UniqueKeyLoader(yaml.SafeLoader):
+    """PyYAML's safe loader, refusing a key repeated in one mapping (PyYAML keeps the last silently)."""
+
+    def construct_mapping(self, node, deep=False):
+        seen: dict = {}
+        for key_node, _ in node.value:
+            key = self.construct_object(key_node, deep=True)
+            if isinstance(key, (str, int, float, bool)) and key in seen:
+                raise yaml.constructor.ConstructorError(
+                    None, None, f"'{key}' appears twice in one mapping (first on line {seen[key] + 1}); "
+                    "only one can hold", key_node.start_mark)
+            if isinstance(key, (str, int, float, bool)):
+                seen[key] = key_node.start_mark.line
+        return super().construct_mapping(node, deep)
 
 
 def validate(settings: dict, source: str | Path | None = None) -> dict:
@@ -125,11 +136,14 @@ def validate(settings: dict, source: str | Path | None = None) -> dict:
     Raises
     ------
     InputError
-        Naming the key and what is valid: an unknown key (with the nearest valid one), a value the
-        schema refuses, modal fractions that do not sum to 1 (within 1e-3), or a lineation and
-        foliation normal along the same sample axis.
+        Naming the key and what is valid: an unknown key (with the nearest valid one), a number
+        that is not finite (YAML's ``.nan`` passes every range of a schema), a value the schema
+        refuses, modal fractions that do not sum to 1 (within 1e-3), a lineation and
+        foliation normal along the same sample axis, or a pole of ``figures.poles`` that
+        ``fabric.poles.check_pole_setting`` refuses.
     """
     _check_keys(settings, schema(), "", source)
+    _check_finite(settings, "", source)
     errors = sorted(jsonschema.Draft202012Validator(schema()).iter_errors(settings),
                     key=lambda e: list(e.absolute_path))
     if errors:
@@ -144,7 +158,26 @@ def validate(settings: dict, source: str | Path | None = None) -> dict:
     if "rotation" not in frame and frame.get("lineation", "+x")[1] == frame.get("foliation_normal", "+z")[1]:
         raise InputError("lineation and foliation normal must be different sample axes", source,
                          "key frame")
+    poles = (settings.get("figures") or {}).get("poles")
+    if poles:                      # minerals and their lattices: read only when poles are listed
+        from fabric2seis.fabric.poles import check_pole_setting
+
+        check_pole_setting(poles, source)
     return settings
+
+
+def _check_finite(data, key: str, source) -> None:
+    """Refuse NaN and infinite numbers anywhere in the settings, naming the key (list items by index)."""
+    if isinstance(data, dict):
+        for k, v in data.items():
+            _check_finite(v, f"{key}.{k}" if key else str(k), source)
+    elif isinstance(data, list):
+        for k, v in enumerate(data):
+            _check_finite(v, f"{key}.{k}", source)
+    elif isinstance(data, float) and not math.isfinite(data):
+        raise InputError(f"{data} is not a finite number", source, f"key {key}")
+    elif isinstance(data, int) and not isinstance(data, bool) and abs(data) > sys.float_info.max:
+        raise InputError(f"{str(data)[:12]}... is not a finite number (too large for a float)", source, f"key {key}")
 
 
 def _check_keys(data, node: dict, prefix: str, source) -> None:

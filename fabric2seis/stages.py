@@ -41,6 +41,9 @@ class Sample:
         ``"square"``, ``"hex"`` or None (grain list).
     n_small_grain_points
         Points dropped with grains smaller than ``grains.min_pixels``.
+    step
+        Map step (spacing of neighbouring points along x) in the file's length unit; None for a
+        grain list.
     """
 
     name: str
@@ -52,6 +55,7 @@ class Sample:
     measured_fractions: dict[str, float]
     grid: str | None
     n_small_grain_points: int
+    step: float | None = None
 
 
 @dataclass

@@ -14,6 +14,7 @@ import sys
 import time
 from pathlib import Path
 
+import pandas as pd
 import pytest
 
 from fabric2seis.cli import main
@@ -95,6 +96,52 @@ def test_rerun_killed_at_any_moment_leaves_old_or_new_results_never_partial(larg
     assert sorted(p.name for p in tmp_path.iterdir()) == ["res"]   # no temporaries left
 
 
+# --- a suite killed and run again --------------------------------------------------------------
+
+def test_a_killed_suite_completes_when_run_again(tmp_path):
+    # The whole process group is killed (as Ctrl-C twice, or a cluster's time limit, would) while
+    # samples are under way: Snakemake's lock and its incomplete-job marks stay behind. The next
+    # `fabric2seis suite` on the folder says so in one line, releases them and completes, and the
+    # results are those of a run never killed (the same bytes as `fabric2seis sample`).
+    samples = tmp_path / "samples"
+    samples.mkdir()
+    for k in range(4):
+        m = voronoi_map(80, 60, 30, step=1.0, n_phases=1, seed=10 + k)
+        write_ang(samples / f"s{k}.ang", m.x, m.y, m.quat, m.phase, ["olivine"], ["mmm"])
+        (samples / f"s{k}.yaml").write_text("bootstrap: {n: 10}\n")
+    results = tmp_path / "results"
+    command = [sys.executable, "-m", "fabric2seis", "suite", "--samples", str(samples), "--results", str(results),
+               "--cores", "1", "-q"]
+    proc = subprocess.Popen(command, cwd=ROOT, env=ENV, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                            start_new_session=True)
+    done = []
+    for _ in range(6000):                  # until one sample is done and the next is under way
+        done = sorted(p.name for p in (results / "status").glob("*.json")) if (results / "status").is_dir() else []
+        if done or proc.poll() is not None:
+            break
+        time.sleep(0.05)
+    time.sleep(1.0)
+    assert proc.poll() is None and 1 <= len(done) < 4, "the suite ended before it could be killed"
+    os.killpg(proc.pid, signal.SIGKILL)
+    proc.wait()
+    assert not (results / "suite_summary.csv").exists()
+    again = subprocess.run(command, cwd=ROOT, env=ENV, capture_output=True, text=True, timeout=900)
+    assert again.returncode == 0, again.stderr[-3000:]
+    assert "stopped before it finished" in again.stderr      # the killed run's lock was there, and went
+    status = pd.read_csv(results / "suite_summary.csv").set_index("sample")["status"].to_dict()
+    assert status == {f"s{k}": "ok" for k in range(4)}, status
+    for k in (0, 3):
+        out = tmp_path / f"alone{k}"
+        assert subprocess.run([sys.executable, "-m", "fabric2seis", "sample", str(samples / f"s{k}.ang"), "--out",
+                               str(out)], env=ENV, capture_output=True, timeout=600).returncode == 0
+        for f in ("summary.json", "velocities.csv"):
+            assert (out / f).read_bytes() == (results / f"s{k}" / f).read_bytes(), f"s{k}/{f}"
+    dry = subprocess.run([sys.executable, "-m", "snakemake", "-n", "--cores", "1", "--config",
+                          f"samples_dir={samples}", f"results_dir={results}"], cwd=ROOT, env=ENV,
+                         capture_output=True, text=True, timeout=300)
+    assert "Nothing to be done" in dry.stdout + dry.stderr, (dry.stdout + dry.stderr)[-3000:]
+
+
 # --- a location that cannot take the results ---------------------------------------------------
 
 @pytest.fixture()
@@ -125,12 +172,18 @@ def failing_writes(monkeypatch, code: int, after: int) -> None:
     monkeypatch.setattr(io, "open", open_)
 
 
-@pytest.mark.parametrize("code, words", [
+#: errors of a location that cannot take the results, and what the message must say
+LOCATION_FAULTS = [
     (errno.ENOSPC, "no space left"),                 # the disk fills up part way through the folder
     (errno.EACCES, "permission denied"),
     (errno.EROFS, "read-only file system"),
-])
-@pytest.mark.parametrize("after", [0, 3])
+]
+#: how many files are written before the location fails
+WRITES_BEFORE_FAULT = [0, 3]
+
+
+@pytest.mark.parametrize("code, words", LOCATION_FAULTS)
+@pytest.mark.parametrize("after", WRITES_BEFORE_FAULT)
 def test_full_or_forbidden_location_gives_one_line_and_writes_nothing(small_sample, monkeypatch, capsys,
                                                                       code, words, after):
     failing_writes(monkeypatch, code, after)
@@ -166,3 +219,14 @@ def test_marker_is_the_last_file_of_a_folder(small_sample):
     out = small_sample / "res" / "s"
     marker_time = (out / MARKER).stat().st_mtime_ns
     assert all(p.stat().st_mtime_ns <= marker_time for p in out.rglob("*") if p.is_file())
+
+
+#: every fault this module makes and survives (the README's testing section counts them)
+FAULTS = {
+    "`fabric2seis sample` killed during a first run": len(KILL_FRACTIONS),
+    "`fabric2seis sample` killed during a rerun": len(KILL_FRACTIONS),
+    "a suite killed and run again": 1,
+    "a results location full, forbidden or read-only, at once or part way": len(LOCATION_FAULTS)
+    * len(WRITES_BEFORE_FAULT),
+    "a real full file system": 1,
+}

@@ -1,12 +1,17 @@
 """Compare two results folders of the demo suite: same numbers apart from provenance and timing.
 
-    python tools/compare_results.py RESULTS_BEFORE RESULTS_AFTER [--rtol 1e-9]
+    python tools/compare_results.py RESULTS_BEFORE RESULTS_AFTER [--rtol 1e-9 | --exact]
 
 Every JSON and CSV file present in either folder (``provenance.json``, ``run.log``, the marker
 files, logs and benchmarks left out) must exist in both and hold the same values: strings,
 integers and booleans equal, numbers equal within ``rtol`` (relative) or 1e-12 (absolute). PNG and
 PDF files must exist in both (their bytes carry dates). Prints one line per difference and exits
 with 1 if there is any, 0 otherwise.
+
+``--exact``: every JSON and CSV file and the marker files must be the same bytes in both (two runs
+of the same settings on the same inputs: no file of a results folder holds a time, which only
+``run.log``, the logs and the benchmarks record; ``provenance.json``, which names the folders of the
+run, and the status files, which hold paths, are left out).
 """
 
 from __future__ import annotations
@@ -68,16 +73,32 @@ def compare(before: Path, after: Path, rtol: float = 1e-9) -> list[str]:
     return problems
 
 
+def compare_exact(before: Path, after: Path) -> list[str]:
+    """Name the JSON and CSV files (provenance, logs, benchmarks and status files left out) whose bytes differ."""
+    def files(root: Path) -> set[str]:
+        return {str(p.relative_to(root)) for p in root.rglob("*") if p.is_file()
+                and (p.suffix in (".json", ".csv") or p.name == ".fabric2seis-results")
+                and p.name != "provenance.json" and not set(p.relative_to(root).parts) & SKIPPED_FOLDERS}
+
+    files_before, files_after = files(before), files(after)
+    problems = [f"{name}: only in {'after' if name in files_after else 'before'}"
+                for name in sorted(files_before ^ files_after)]
+    problems += [f"{name}: different bytes" for name in sorted(files_before & files_after)
+                 if (before / name).read_bytes() != (after / name).read_bytes()]
+    return problems
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("before", type=Path)
     parser.add_argument("after", type=Path)
     parser.add_argument("--rtol", type=float, default=1e-9)
+    parser.add_argument("--exact", action="store_true", help="the same bytes in every JSON and CSV file")
     args = parser.parse_args(argv)
-    problems = compare(args.before, args.after, args.rtol)
+    problems = compare_exact(args.before, args.after) if args.exact else compare(args.before, args.after, args.rtol)
     for line in problems[:200]:
         print(line)
-    print(f"{len(problems)} difference(s)" if problems else "same numbers")
+    print(f"{len(problems)} difference(s)" if problems else "same bytes" if args.exact else "same numbers")
     return 1 if problems else 0
 
 

@@ -51,8 +51,11 @@ RANDOM_FLOOR_SETS = 100
 RANDOM_FLOOR_SEED = 20110611
 #: larger sets are simulated at this size and scaled (see ``random_floor``)
 RANDOM_FLOOR_MAX_GRAINS = 200
-#: subset sizes of ``convergence`` (below the number of grains; all grains come last)
-CONVERGENCE_SIZES = (100, 200, 500, 1000, 2000, 5000, 10000, 20000, 50000)
+#: subset sizes of ``convergence`` (below the number of grains; all grains come last): at least six
+#: points for phases of 21 grains or more, so that the figure shows a trend
+CONVERGENCE_SIZES = (5, 7, 10, 15, 20, 30, 50, 70, 100, 200, 500, 1000, 2000, 5000, 10000, 20000, 50000)
+#: the sizes whose last step below all grains judges whether J has levelled off
+LEVELLING_SIZES = (100, 200, 500, 1000, 2000, 5000, 10000, 20000, 50000)
 
 
 @dataclass
@@ -161,9 +164,10 @@ def convergence(mineral, quat: np.ndarray, weights: np.ndarray, halfwidth_deg: f
                 seed: int = 0, pole: str | None = None) -> dict:
     """J, M and the maximum pole density on nested random subsets of the grains.
 
-    Subsets of 100, 200, 500, 1000, 2000, 5000 ... grains and all of them, each containing the
-    previous. J has levelled off when the last step changed it by less than 5 percent (common
-    practice for judging whether a sample has enough grains).
+    Subsets of 5, 7, 10, 15, 20, 30, 50, 70, 100, 200, 500, 1000, 2000, 5000 ... grains and all of
+    them, each containing the previous. J has levelled off when the last step of 100, 200, 500 ...
+    grains (``LEVELLING_SIZES``) to all of them changed it by less than 5 percent (common practice
+    for judging whether a sample has enough grains).
 
     Parameters
     ----------
@@ -201,7 +205,8 @@ def convergence(mineral, quat: np.ndarray, weights: np.ndarray, halfwidth_deg: f
         rows.append({"n": int(size), "J": j_index(quat[sel], weights[sel], mineral.symmetry, halfwidth_deg),
                      "M": m_index(quat[sel], mineral.symmetry, seed=seed) if size > 1 else float("nan"),
                      "max_mud": pf_j(vectors, weights[sel], halfwidth_deg)[1]})
-    levelled = len(rows) > 1 and abs(rows[-1]["J"] - rows[-2]["J"]) < 0.05 * rows[-1]["J"]
+    steps = [r for r in rows[:-1] if r["n"] in LEVELLING_SIZES]
+    levelled = bool(steps) and abs(rows[-1]["J"] - steps[-1]["J"]) < 0.05 * rows[-1]["J"]
     return {"pole": pole, "rows": rows, "j_levelled": bool(levelled)}
 
 

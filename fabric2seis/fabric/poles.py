@@ -7,7 +7,12 @@ kernel (``fabric.kernel.Kernel.pole_value``, Schaeben 1997); pfJ is the mean of 
 sphere, 1 for uniform poles, the pole-figure analogue of the J-index (Bunge 1982). The second
 moment of the poles (the orientation tensor) gives eigenvalues whose ratios describe the shape and
 strength of the distribution (Woodcock 1977; Vollmer 1990), and for olivine the BA-index
-(Mainprice et al. 2014). ``default_poles`` names the principal poles of each crystal system.
+(Mainprice et al. 2014). ``default_poles`` names the principal poles of each crystal system: pfJ
+and the eigenanalysis of ``summary.json`` use them, whatever the figures show, so that these numbers
+stay comparable between samples and settings. The pole figures draw ``figure_poles``: the poles the
+trade draws for each mineral (``FIGURE_POLES``), or those of the settings key ``figures.poles``,
+written as directions [uvw] or plane normals (hkl), four indices [uvtw] and (hkil) for hexagonal
+and trigonal minerals, optionally after a short name (``"r (10-11)"``).
 
 References
 ----------
@@ -23,9 +28,16 @@ Special Publications 409 (bibliographic details of all these from memory).
 
 from __future__ import annotations
 
+import re
+from collections.abc import Mapping
+from dataclasses import dataclass
+from pathlib import Path
+
 import numpy as np
+from orix.vector import Miller
 from scipy.spatial import cKDTree
 
+from fabric2seis.errors import InputError
 from fabric2seis.fabric.checks import check_halfwidth, check_poles, check_quaternions, check_weights
 from fabric2seis.fabric.kernel import Kernel, interpolate_on_uniform_grid, pole_self_convolution_table
 from fabric2seis.orientations import proper_symmetry_quaternions, to_matrices
@@ -56,6 +68,201 @@ def default_poles(mineral) -> list[str]:
     if laue in ("4/m", "4/mmm"):
         return ["[001]", "[100]", "[110]"]
     return ["[100]", "(010)", "(001)"]
+
+
+#: the poles the trade draws for each mineral (common practice of published fabric studies: olivine
+#: and orthopyroxene on their axes, clinopyroxene [001] with the (010) and (100) poles, amphibole
+#: likewise, plagioclase (010), (001) and [100], micas their basal plane (001) and [100], quartz the
+#: c-axis, a-axes and the poles of the positive and negative rhombs r {10-11} and z {01-11}, calcite
+#: c, a and the cleavage rhomb r {10-14} of the structural cell, ice c and a). Minerals not listed
+#: here are drawn on ``default_poles``.
+FIGURE_POLES: dict[str, tuple[str, ...]] = {
+    "olivine": ("[100]", "[010]", "[001]"),
+    "enstatite": ("[100]", "[010]", "[001]"),
+    "diopside": ("[001]", "(010)", "(100)"),
+    "hornblende": ("[001]", "(100)", "(010)"),
+    "albite": ("(010)", "(001)", "[100]"),
+    "muscovite": ("(001)", "[100]"),
+    "quartz": ("c [0001]", "a [2-1-10]", "r (10-11)", "z (01-11)"),
+    "calcite": ("c [0001]", "a [2-1-10]", "r (10-14)"),
+    "ice": ("c [0001]", "a [2-1-10]"),
+}
+
+_POLE_TEXT = re.compile(r"^(?:(?P<name>[A-Za-z][A-Za-z0-9*']{0,7})\s+)?(?P<open>[\[(<{])\s*(?P<body>[-0-9 ,]*?)"
+                        r"\s*(?P<close>[\])>}])$")
+_CLOSING = {"[": "]", "<": ">", "(": ")", "{": "}"}
+_HEXAGONAL_LAUE = ("-3", "-3m", "6/m", "6/mmm")
+
+
+@dataclass(frozen=True)
+class Pole:
+    """A crystal direction [uvw] or plane normal (hkl), as written in a pole label.
+
+    Attributes
+    ----------
+    text
+        The label, spaces tidied (``"r (10-11)"``, ``"[100]"``).
+    name
+        The short name before the brackets (``"r"``), or ``""``.
+    indices
+        Three Miller indices, or four for hexagonal axes ([uvtw], (hkil)).
+    plane
+        True for the normal of a plane (``(hkl)`` or ``{hkl}``), False for a direction.
+    brackets
+        The opening and closing bracket as written.
+    """
+
+    text: str
+    name: str
+    indices: tuple[int, ...]
+    plane: bool
+    brackets: tuple[str, str]
+
+    def math_text(self) -> str:
+        """The label for matplotlib, negative indices written with a bar (``(10$\\bar{1}$1)``)."""
+        sep = "" if all(abs(i) < 10 for i in self.indices) else " "
+        body = sep.join(str(i) if i >= 0 else "$" + (r"\bar{%d}" if i > -10 else r"\overline{%d}") % -i + "$"
+                        for i in self.indices).replace("$$", "")
+        mark = f"{self.brackets[0]}{body}{self.brackets[1]}"
+        return f"{self.name} {mark}" if self.name else mark
+
+
+def parse_pole(text: str) -> Pole:
+    """Read a pole label: ``[uvw]``, ``(hkl)``, ``<uvw>``, ``{hkl}``, or four indices, optionally named.
+
+    Single-digit indices may be written together, a minus before a digit for its bar
+    (``"[2-1-10]"``, ``"(10-11)"``); otherwise separate them with spaces or commas
+    (``"(1 0 -1 12)"``). A short name may come first (``"r (10-11)"``).
+
+    Parameters
+    ----------
+    text : str
+        The label.
+
+    Returns
+    -------
+    Pole
+        The label read.
+
+    Raises
+    ------
+    ValueError
+        If the label is not of this form, its brackets do not match, or it has not three or four
+        indices.
+    """
+    found = _POLE_TEXT.match(" ".join(str(text).split()))
+    wanted = ("a direction [uvw] or a plane normal (hkl), four indices [uvtw] or (hkil) for hexagonal "
+              "and trigonal minerals, optionally after a short name such as 'r (10-11)'")
+    if found is None or _CLOSING[found["open"]] != found["close"]:
+        raise ValueError(f"'{text}' is not a pole label: write {wanted}")
+    body = found["body"].strip()
+    tokens = body.replace(",", " ").split() if (" " in body or "," in body) else re.findall(r"-?\d", body)
+    if "".join(tokens).replace(" ", "") != body.replace(",", "").replace(" ", "") or len(tokens) not in (3, 4) \
+            or not all(re.fullmatch(r"-?\d+", t) for t in tokens):
+        raise ValueError(f"'{text}' is not a pole label: write {wanted}")
+    indices = tuple(int(t) for t in tokens)
+    tidy = (found["name"] + " " if found["name"] else "") + found["open"] + body + found["close"]
+    return Pole(tidy, found["name"] or "", indices, found["open"] in "({", (found["open"], found["close"]))
+
+
+def pole_direction(mineral, label: str | Pole) -> np.ndarray:
+    """Unit vector of a pole label in orix's crystal frame (e1 || a, e3 || c*).
+
+    Parameters
+    ----------
+    mineral : fabric2seis.elastic.minerals.Mineral
+        Gives the lattice and the Laue class.
+    label : str or Pole
+        A pole label (``parse_pole``).
+
+    Returns
+    -------
+    numpy.ndarray
+        Unit vector (3,), dimensionless.
+
+    Raises
+    ------
+    ValueError
+        If the label cannot be read, has four indices for a mineral that is neither hexagonal nor
+        trigonal, has a third index that is not minus the sum of the first two, or is all zeros.
+    """
+    pole = label if isinstance(label, Pole) else parse_pole(label)
+    idx = pole.indices
+    if not any(idx):
+        raise ValueError(f"'{pole.text}' has only zero indices")
+    if len(idx) == 4:
+        if mineral.symmetry.laue.name not in _HEXAGONAL_LAUE:
+            raise ValueError(f"'{pole.text}' has four indices, which only hexagonal and trigonal minerals take; "
+                             f"{mineral.name} is {mineral.symmetry.laue.name}: write three")
+        if idx[2] != -(idx[0] + idx[1]):
+            raise ValueError(f"'{pole.text}': the third of four indices must be minus the sum of the first two "
+                             f"({-(idx[0] + idx[1])})")
+        kind = "hkil" if pole.plane else "UVTW"
+    else:
+        kind = "hkl" if pole.plane else "uvw"
+    return Miller(**{kind: list(idx)}, phase=mineral.phase).unit.data[0]
+
+
+def _entry_for(mineral, chosen: Mapping[str, list[str]] | None) -> list[str] | None:
+    """The labels the settings give for a mineral (by its name or an alias), or None."""
+    for key, labels in (chosen or {}).items():
+        name = " ".join(str(key).lower().replace("_", " ").split())
+        if name == mineral.name or name in mineral.aliases:
+            return list(labels)
+    return None
+
+
+def figure_poles(mineral, chosen: Mapping[str, list[str]] | None = None) -> list[str]:
+    """The poles the figures draw for a mineral.
+
+    Parameters
+    ----------
+    mineral : fabric2seis.elastic.minerals.Mineral
+        The mineral.
+    chosen : mapping of str to list of str, optional
+        The settings key ``figures.poles``: mineral name or alias -> pole labels.
+
+    Returns
+    -------
+    list of str
+        The settings' labels for this mineral, else ``FIGURE_POLES``, else ``default_poles``.
+    """
+    return _entry_for(mineral, chosen) or list(FIGURE_POLES.get(mineral.name, ())) or default_poles(mineral)
+
+
+def check_pole_setting(chosen: Mapping[str, list[str]] | None, source: str | Path | None = None) -> None:
+    """Refuse a settings key ``figures.poles`` with an unknown mineral or an unreadable pole.
+
+    Parameters
+    ----------
+    chosen : mapping of str to list of str, or None
+        Mineral name or alias -> pole labels.
+    source : str or Path, optional
+        The settings file, for the message.
+
+    Raises
+    ------
+    InputError
+        Naming the file and the key (``figures.poles.quartz.2``): a mineral the library does not
+        have, two keys for one mineral, or a label ``pole_direction`` refuses.
+    """
+    from fabric2seis.elastic.minerals import find_mineral
+
+    seen: dict[str, str] = {}
+    for key, labels in (chosen or {}).items():
+        where = f"key figures.poles.{key}"
+        try:
+            mineral = find_mineral(str(key))
+        except InputError as exc:
+            raise InputError(exc.message, source, where) from None
+        if mineral.name in seen:
+            raise InputError(f"'{key}' and '{seen[mineral.name]}' both name {mineral.name}; keep one", source, where)
+        seen[mineral.name] = str(key)
+        for k, label in enumerate(labels):
+            try:
+                pole_direction(mineral, label)
+            except ValueError as exc:
+                raise InputError(str(exc), source, f"{where}.{k}") from None
 
 
 def pole_vectors(quat: np.ndarray, crystal_direction: np.ndarray, symmetry) -> np.ndarray:

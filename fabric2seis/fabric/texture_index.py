@@ -25,6 +25,8 @@ from memory).
 
 from __future__ import annotations
 
+from concurrent.futures import ThreadPoolExecutor
+
 import numpy as np
 
 from fabric2seis.fabric import harmonics
@@ -36,6 +38,7 @@ from fabric2seis.fabric.kernel import (
     self_convolution_table,
 )
 from fabric2seis.orientations import conjugate, multiply, proper_symmetry_quaternions
+from fabric2seis.threads import worker_count
 
 #: beyond this degree of the series (kernel halfwidth below about 3.5 degrees) J is summed over pairs
 HARMONIC_DEGREE_LIMIT = 100
@@ -292,12 +295,13 @@ def j_pair_matrix(quat: np.ndarray, symmetry, halfwidth_deg: float = 10.0, chunk
 
 
 def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: float = 10.0,
-                      chunk: int = 1024) -> tuple[np.ndarray, np.ndarray]:
+                      chunk: int = 512) -> tuple[np.ndarray, np.ndarray]:
     """v_b^T A v_b for the columns of v, and the diagonal of A, without storing A.
 
     A is the matrix of ``j_pair_matrix``; it is built one block of rows at a time, dense, and
-    multiplied into all columns at once, so memory stays at a block (chunk x N) whatever the
-    fabric, and the cost is N^2 |S| like the pair sum plus one matrix product per block.
+    multiplied into all columns at once, so memory stays at ``threads.MAX_WORKERS`` blocks
+    (chunk x N) whatever the fabric, and the cost is N^2 |S| like the pair sum plus one matrix
+    product per block. The blocks are shared among ``threads.worker_count()`` threads.
 
     Parameters
     ----------
@@ -331,9 +335,8 @@ def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: 
     table_c, table_phi, cos_cut = self_convolution_by_cos_half(float(halfwidth_deg))
     table_phi = np.where(table_c < cos_cut, 0.0, table_phi)
     moved = [multiply(t[None], q) for t in sym]
-    forms = np.zeros(v.shape[1])
-    diagonal = np.zeros(len(q))
-    for start in range(0, len(q), chunk):
+
+    def block_terms(start: int) -> tuple[np.ndarray, np.ndarray]:
         block = q[start:start + chunk]
         a = np.zeros((len(block), len(q)))
         for m in moved:
@@ -341,6 +344,14 @@ def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: 
             c[c < cos_cut] = 0.0               # outside Phi's support, as in j_pair_matrix
             a += np.interp(c, table_c, table_phi)
         a /= len(sym)
-        diagonal[start:start + len(block)] = a[np.arange(len(block)), np.arange(start, start + len(block))]
-        forms += np.einsum("ib,ib->b", v[start:start + chunk], a @ v)
-    return forms, diagonal
+        return (np.einsum("ib,ib->b", v[start:start + chunk], a @ v),
+                a[np.arange(len(block)), np.arange(start, start + len(block))])
+
+    # blocks fixed in advance, shared among threads (numpy releases the GIL) and added in their
+    # order: the number of threads changes the time, not the sums (fabric2seis/threads.py)
+    with ThreadPoolExecutor(worker_count()) as pool:
+        parts = list(pool.map(block_terms, range(0, len(q), chunk)))
+    forms = np.zeros(v.shape[1])
+    for part, _ in parts:
+        forms += part
+    return forms, np.concatenate([d for _, d in parts])

@@ -7,11 +7,50 @@ from dataclasses import dataclass
 import numpy as np
 
 from fabric2seis.elastic.minerals import POINT_GROUPS, Mineral, find_mineral, load_library
-from fabric2seis.errors import InputError
+from fabric2seis.errors import InputError, nearest
 from fabric2seis.ingest.io.record import EBSDData
 
 #: quality measure used by ``clean.quality_min`` when ``clean.quality_field`` is not set
 DEFAULT_QUALITY = ("ci", "bc", "quality")
+
+#: why a map point was left out, indexed by ``DroppedPoints.reason``
+DROPPED_REASONS = ("not indexed", "below the quality threshold", "in a grain below grains.min_pixels")
+NOT_INDEXED, LOW_QUALITY, SMALL_GRAIN = range(3)
+
+
+@dataclass
+class DroppedPoints:
+    """Where the map points left out of a sample lie, and why (drawn by the map overview figure).
+
+    Attributes
+    ----------
+    x, y
+        Map coordinates (M,) in the file's length unit.
+    reason
+        Why each point was left out (M,): an index into ``DROPPED_REASONS``.
+    """
+
+    x: np.ndarray
+    y: np.ndarray
+    reason: np.ndarray
+
+    def plus(self, x: np.ndarray, y: np.ndarray, reason: int) -> DroppedPoints:
+        """Return these points and more points left out for one reason.
+
+        Parameters
+        ----------
+        x, y : numpy.ndarray, shape (K,)
+            Map coordinates of the further points.
+        reason : int
+            Why they were left out, an index into ``DROPPED_REASONS``.
+
+        Returns
+        -------
+        DroppedPoints
+            The M + K points.
+        """
+        return DroppedPoints(np.concatenate([self.x, x]), np.concatenate([self.y, y]),
+                             np.concatenate([self.reason, np.full(len(x), reason, dtype=np.int8)]))
 
 
 @dataclass
@@ -36,6 +75,8 @@ class PointSet:
         Weight of every point (N,): the file's weights, else the pixel area, else 1.
     n_read, n_unindexed, n_low_quality
         Points read, dropped as unindexed, and dropped below the quality threshold.
+    dropped
+        Where the points left out of a map lie and why; None for grain lists.
     """
 
     source: str
@@ -48,10 +89,11 @@ class PointSet:
     n_read: int
     n_unindexed: int
     n_low_quality: int
+    dropped: DroppedPoints | None = None
 
 
 def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
-               library: dict[str, Mineral] | None = None) -> dict[int, Mineral]:
+               library: dict[str, Mineral] | None = None, settings_file=None) -> dict[int, Mineral]:
     """Library mineral of every phase id that has points.
 
     By the settings mapping ``phases`` (file name -> library name) first, else by the library's
@@ -66,6 +108,8 @@ def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
         Settings mapping from phase names in the file to library names.
     library : dict of str to Mineral, optional
         The mineral library; the bundled one if not given.
+    settings_file : str or Path, optional
+        Where ``phases`` came from, for error messages (the data file if not given).
 
     Returns
     -------
@@ -89,11 +133,12 @@ def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
         try:
             mineral = find_mineral(target, library)
         except InputError:
+            hint = nearest(target, library)
             if name.lower() in by_file_name:
-                raise InputError(f"settings map phase '{name}' to '{target}', which is not in the library; "
-                                 f"the library has: {', '.join(sorted(library))}", data.source,
-                                 "key phases") from None
-            raise InputError(f"phase '{name}' is not a library mineral; the file has phases "
+                raise InputError(f"settings map phase '{name}' to '{target}', which is not in the library{hint}; "
+                                 f"the library has: {', '.join(sorted(library))}", settings_file or data.source,
+                                 f"key phases.{name}") from None
+            raise InputError(f"phase '{name}' is not a library mineral{hint}; the file has phases "
                              f"{', '.join(repr(f) for f in found)}; map them with the settings key "
                              f"'phases' to library names: {', '.join(sorted(library))}", data.source) from None
         file_group = data.phase_point_groups.get(pid)
@@ -169,10 +214,14 @@ def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_mi
     weights = kept(data.weights)
     if weights is None:
         weights = np.full(len(mineral_index), data.pixel_area if data.is_map else 1.0)
+    dropped = None
+    if data.x is not None and data.y is not None:
+        out = ~keep
+        dropped = DroppedPoints(data.x[out], data.y[out], np.where(indexed[out], LOW_QUALITY, NOT_INDEXED).astype(np.int8))
     return PointSet(
         source=data.source, quat=kept(data.quat), mineral_index=mineral_index, minerals=minerals,
         x=kept(data.x), y=kept(data.y), weights=weights, n_read=data.n_points,
-        n_unindexed=n_unindexed, n_low_quality=n_low)
+        n_unindexed=n_unindexed, n_low_quality=n_low, dropped=dropped)
 
 
 def modal_fractions(mineral_index: np.ndarray, weights: np.ndarray, minerals: list[Mineral],

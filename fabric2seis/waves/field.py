@@ -62,13 +62,16 @@ the searched range (``edge_of_range``) or the reduced chi-square exceeds
 
 from __future__ import annotations
 
+import io
 import json
+import math
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
+from fabric2seis import elastic
 from fabric2seis.cautions import LAYER_MODEL
 from fabric2seis.errors import InputError
 from fabric2seis.waves import splitting
@@ -80,27 +83,60 @@ CAUTIONS = LAYER_MODEL
 
 
 def read_measurements(path: str | Path) -> pd.DataFrame:
-    """The measurements table, checked row by row (InputError names the row and column)."""
+    """The measurements table, checked row by row (InputError names the row and column).
+
+    Every row needs a station, a back-azimuth and a fast azimuth, and a delay unless it is a null;
+    numbers must be finite and in range; ``null`` is true or false (also 1/0, yes/no; empty is
+    false). Empty optional cells take the defaults.
+    """
+    from fabric2seis.ingest.io.text import csv_line_of_row, csv_row_longer_than_header, decode
+
     path = Path(path)
     try:
-        table = pd.read_csv(path, skipinitialspace=True)
-    except (OSError, pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
+        text = decode(path.read_bytes(), path)
+        table = pd.read_csv(io.StringIO(text), skipinitialspace=True, dtype=str, keep_default_na=False)
+    except (OSError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
         raise InputError(f"cannot read the measurements ({str(exc).strip()[:120]})", path) from None
+    if not isinstance(table.index, pd.RangeIndex):      # pandas takes a first column with no name for an index
+        raise InputError(f"a row has more values than the header's {len(table.columns)} column names", path,
+                         csv_row_longer_than_header(io.StringIO(text, newline="")))
+
+    def line(row: int) -> str:              # the parser skips blank lines: count them back in
+        return csv_line_of_row(text, row)
     table.columns = [c.strip() for c in table.columns]
     missing = [c for c in REQUIRED if c not in table.columns]
     if missing:
         raise InputError(f"missing column(s) {', '.join(missing)}; needed: {', '.join(REQUIRED)}", path, "line 1")
     if len(table) == 0:
         raise InputError("no measurements", path)
+    table = table.apply(lambda column: column.str.strip())
+    words = {"true": True, "1": True, "yes": True, "false": False, "0": False, "no": False, "": False}
+    null = table["null"].str.lower() if "null" in table.columns else pd.Series("", index=table.index)
+    unknown = ~null.isin(list(words))
+    if unknown.any():
+        row = int(np.flatnonzero(unknown)[0])
+        raise InputError(f"null = '{table['null'].iloc[row][:20]}' is neither true nor false", path,
+                         f"{line(row)}, column null")
+    table["null"] = null.map(words).astype(bool)
+    for column in ("station", "baz_deg", "fast_azimuth_deg", "delay_s"):
+        blank = (table[column] == "") | (table[column].str.lower() == "nan")
+        if column == "delay_s":
+            blank &= ~table["null"]                    # a null has no delay
+        if blank.any():
+            row = int(np.flatnonzero(blank)[0])
+            raise InputError("a value is missing", path, f"{line(row)}, column {column}")
     for column in ("baz_deg", "fast_azimuth_deg", "delay_s", "fast_azimuth_err_deg", "delay_err_s", "incidence_deg"):
         if column not in table.columns:
             continue
-        values = pd.to_numeric(table[column], errors="coerce")
-        bad = values.isna() & table[column].notna()
-        if bad.any():
-            row = int(np.flatnonzero(bad)[0])
-            raise InputError(f"'{table[column].iloc[row]}' is not a number", path, f"line {row + 2}, column {column}")
+        given = (table[column] != "") & (table[column].str.lower() != "nan")
+        values = pd.to_numeric(table[column].where(given), errors="coerce")
+        for bad, what in ((values.isna() & given, "is not a number"),
+                          (given & ~np.isfinite(values.fillna(0.0)), "is not a finite number")):
+            if bad.any():
+                row = int(np.flatnonzero(bad)[0])
+                raise InputError(f"'{table[column].iloc[row][:20]}' {what}", path, f"{line(row)}, column {column}")
         table[column] = values
+    table.loc[table["null"] & table["delay_s"].isna(), "delay_s"] = 0.0   # a null shows no delay (NaN spoils sums)
     checks = [("baz_deg", lambda v: (v >= 0) & (v <= 360), "must lie in 0-360 degrees"),
               ("fast_azimuth_deg", lambda v: (v >= 0) & (v <= 360), "must lie in 0-360 degrees"),
               ("delay_s", lambda v: v >= 0, "must not be negative"),
@@ -113,9 +149,7 @@ def read_measurements(path: str | Path) -> pd.DataFrame:
             bad = values.notna() & ~ok(values.fillna(0))
             if bad.any():
                 row = int(np.flatnonzero(bad)[0])
-                raise InputError(f"{column} = {values.iloc[row]} {what}", path, f"line {row + 2}, column {column}")
-    table["null"] = table["null"].astype(str).str.strip().str.lower().isin(["true", "1", "yes"]) \
-        if "null" in table.columns else False
+                raise InputError(f"{column} = {values.iloc[row]} {what}", path, f"{line(row)}, column {column}")
     table["fast_azimuth_err_deg"] = table.get("fast_azimuth_err_deg", pd.Series(np.nan, index=table.index)) \
         .fillna(DEFAULT_AZIMUTH_ERR_DEG)
     table["delay_err_s"] = table.get("delay_err_s", pd.Series(np.nan, index=table.index)).fillna(DEFAULT_DELAY_ERR_S)
@@ -138,18 +172,81 @@ class SampleTensor:
 
 
 def read_result(folder: str | Path) -> SampleTensor:
+    """Read what the field fit needs from a results folder of ``fabric2seis sample``, checked.
+
+    Parameters
+    ----------
+    folder : str or Path
+        The results folder (``stiffness.json``, ``summary.json``, ``provenance.json``).
+
+    Returns
+    -------
+    SampleTensor
+        The stiffness used for velocities (6, 6, GPa), density (kg/m^3), the sample's own field
+        settings, and its 95 % interval of the delay per 100 km along Z (s) where it was bootstrapped.
+
+    Raises
+    ------
+    InputError
+        Naming the file and key, if a file is missing or not a JSON mapping, the stiffness is not a
+        valid 6x6 stiffness, the density is not a positive number, or the sample name, field
+        settings or delay interval are not what ``fabric2seis sample`` writes.
+    """
     folder = Path(folder)
+    files = {}
+    for name in ("stiffness.json", "summary.json", "provenance.json"):
+        try:
+            files[name] = json.loads((folder / name).read_text())
+        except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
+            raise InputError(f"not a fabric2seis results folder ({exc.__class__.__name__})", folder / name) from None
+        if not isinstance(files[name], dict):
+            raise InputError("not a fabric2seis results file (not a JSON mapping)", folder / name)
+    stiff, summary, prov = files["stiffness.json"], files["summary.json"], files["provenance.json"]
+    source = folder / "stiffness.json"
+    used = stiff.get("used_for_velocities", "hill")
+    if not isinstance(used, str) or used not in stiff:
+        raise InputError(f"no stiffness {used!r} to use for velocities", source, "key used_for_velocities")
     try:
-        stiff = json.loads((folder / "stiffness.json").read_text())
-        summary = json.loads((folder / "summary.json").read_text())
-        prov = json.loads((folder / "provenance.json").read_text())
-    except (OSError, json.JSONDecodeError) as exc:
-        raise InputError(f"not a fabric2seis results folder ({exc.__class__.__name__})", folder) from None
-    c = np.array(stiff[stiff.get("used_for_velocities", "hill")])
-    interval = (summary.get("uncertainty") or {}).get("delay_s_per_100km")
-    if interval is not None:
-        interval = (float(interval[0]), float(interval[1]))
-    return SampleTensor(summary["sample"], c, float(stiff["density_kg_m3"]), prov["settings"].get("field"), interval)
+        c = np.array(stiff[used], dtype=float)
+    except (TypeError, ValueError, OverflowError):
+        raise InputError("the stiffness is not a 6x6 matrix of numbers", source, f"key {used}") from None
+    c = elastic.check_stiffness(c, str(source), f"key {used}")
+    density = _positive_number(stiff.get("density_kg_m3"))
+    if density is None:
+        raise InputError("the density must be a positive number of kg/m^3", source, "key density_kg_m3")
+    if not isinstance(summary.get("sample"), str):
+        raise InputError("no sample name", folder / "summary.json", "key sample")
+    settings = prov.get("settings")
+    field = settings.get("field") if isinstance(settings, dict) else None
+    if not isinstance(settings, dict) or not (field is None or isinstance(field, dict)):
+        raise InputError("the settings as used are missing or not a mapping", folder / "provenance.json",
+                         "key settings.field")
+    if field is not None:
+        from fabric2seis.settings import validate
+
+        validate({"field": field}, folder / "provenance.json")
+    uncertainty = summary.get("uncertainty") or {}
+    written = uncertainty.get("delay_s_per_100km") if isinstance(uncertainty, dict) else None
+    interval = None
+    if written is not None:
+        ends = [_positive_number(v, zero=True) for v in written] if isinstance(written, list) else []
+        low, high = (ends + [None, None])[:2]
+        if len(ends) != 2 or low is None or high is None:
+            raise InputError("the delay interval must be two numbers, zero or more", folder / "summary.json",
+                             "key uncertainty.delay_s_per_100km")
+        interval = (low, high)
+    return SampleTensor(summary["sample"], c, density, field, interval)
+
+
+def _positive_number(value, zero: bool = False) -> float | None:
+    """``value`` as a finite float above zero (or from zero), else None."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return None
+    try:
+        x = float(value)
+    except OverflowError:
+        return None
+    return x if math.isfinite(x) and (x > 0 or (zero and x == 0)) else None
 
 
 ATTITUDES = ("horizontal", "vertical")

@@ -36,6 +36,8 @@ from fabric2seis.cautions import LAYER_MODEL
 from fabric2seis.errors import InputError
 
 IN_PLANE_TOLERANCE_DEG = 2.0
+PLACEMENT_KEYS = {"foliation_strike_deg", "foliation_dip_deg", "lineation_pitch_deg", "lineation_trend_deg",
+                  "lineation_plunge_deg"}
 SKS_INCIDENCE_DEG = 10.0
 
 
@@ -48,6 +50,10 @@ def placement(field: dict, source=None) -> np.ndarray:
     """Rotation R (3, 3) whose columns are X, Y, Z of the structural frame in north-east-down."""
     if field is None or "foliation_strike_deg" not in field or "foliation_dip_deg" not in field:
         raise InputError("field needs foliation_strike_deg and foliation_dip_deg", source, "key field")
+    for key in sorted(PLACEMENT_KEYS & set(field)):
+        if not _finite_number(field[key]):
+            raise InputError(f"{key} = {field[key]!r:.40} is not a finite number of degrees", source,
+                             f"key field.{key}")
     strike, dip = float(field["foliation_strike_deg"]), float(field["foliation_dip_deg"])
     if not 0.0 <= dip <= 90.0:
         raise InputError(f"foliation dip {dip} is outside 0-90 degrees", source, "key field.foliation_dip_deg")
@@ -77,6 +83,16 @@ def placement(field: dict, source=None) -> np.ndarray:
                          source, "key field")
     x /= np.linalg.norm(x)
     return np.column_stack([x, np.cross(z, x), z])
+
+
+def _finite_number(value) -> bool:
+    """Whether ``value`` is an int or float that is finite as a float (not a bool, not a huge integer)."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return False
+    try:
+        return bool(np.isfinite(float(value)))
+    except OverflowError:
+        return False
 
 
 ORTHOGONAL_TOLERANCE = 1e-6

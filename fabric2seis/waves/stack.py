@@ -35,6 +35,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from fabric2seis import budget
 from fabric2seis.errors import InputError, nearest
 from fabric2seis.waves import layers, splitting
 
@@ -43,8 +44,14 @@ SAMPLE_KEYS = {"result", "thickness_km", "field", "name"}
 PLAIN_KEYS = {"fast_azimuth_deg", "delay_s", "name"}
 FIELD_KEYS = {"foliation_strike_deg", "foliation_dip_deg", "lineation_pitch_deg", "lineation_trend_deg",
               "lineation_plunge_deg"}
+#: the synthetic pulse (a Gaussian window of PULSE_WIDTH_PERIODS periods) must fit the trace within
+#: three widths either side of its centre, and a period must span four samples (common practice)
+MAX_PERIOD_S = layers.TRACE_SAMPLES * layers.SAMPLING_S / (2 * 3 * layers.PULSE_WIDTH_PERIODS)
+MIN_PERIOD_S = 4 * layers.SAMPLING_S
 RANGES = {  # key: (low, high, low allowed, what is valid)
-    "period_s": (0.0, math.inf, False, "a positive number of seconds"),
+    "period_s": (MIN_PERIOD_S, MAX_PERIOD_S, True,
+                 f"{MIN_PERIOD_S:g}-{MAX_PERIOD_S:.1f} s, so that the pulse fits the "
+                 f"{layers.TRACE_SAMPLES * layers.SAMPLING_S:g} s synthetic trace with four samples a period"),
     "incidence_deg": (0.0, 60.0, True, "0-60 degrees"),
     "back_azimuth_step_deg": (0.0, 90.0, False, "more than 0 and at most 90 degrees"),
     "thickness_km": (0.0, math.inf, False, "a positive number of km"),
@@ -55,11 +62,19 @@ RANGES = {  # key: (low, high, low allowed, what is valid)
 
 def _number(value, key: str, path: Path, where: str) -> float:
     low, high, low_ok, valid = RANGES[key]
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
-        raise InputError(f"{key} = {value!r} is not a number; it must be {valid}", path, where)
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not _finite(value):
+        raise InputError(f"{key} = {value!r:.40} is not a number; it must be {valid}", path, where)
     if value < low or value > high or (value == low and not low_ok):
         raise InputError(f"{key} = {value} is out of range; it must be {valid}", path, where)
     return float(value)
+
+
+def _finite(value: int | float) -> bool:
+    """Whether a number is finite as a float (an integer too large for a float is not)."""
+    try:
+        return math.isfinite(value)
+    except OverflowError:
+        return False
 
 
 def _unknown(keys, valid: set[str], path: Path, where: str) -> None:
@@ -73,9 +88,16 @@ def _sample_layer(entry: dict, k: int, path: Path) -> dict:
     from fabric2seis.waves.field import read_result
 
     where = f"key layers[{k}]"
-    folder = Path(str(entry["result"]))
+    if not isinstance(entry["result"], str) or not entry["result"]:
+        raise InputError(f"result must name a results folder, not {str(entry['result'])[:40]!r}", path,
+                         f"{where}.result")
+    folder = Path(entry["result"])
     folder = folder if folder.is_absolute() else path.parent / folder
-    if not folder.is_dir():
+    try:
+        found = folder.is_dir()
+    except OSError as exc:              # a name too long for the file system, say
+        raise InputError(f"no results folder {str(folder)[:80]} ({exc.strerror})", path, f"{where}.result") from None
+    if not found:
         raise InputError(f"no results folder {folder}", path, f"{where}.result")
     try:
         sample = read_result(folder)
@@ -134,6 +156,8 @@ def read_stack(path: str | Path) -> dict:
              "back_azimuth_step_deg": _number(data.get("back_azimuth_step_deg", 5.0), "back_azimuth_step_deg",
                                               path, "key back_azimuth_step_deg"),
              "layers": []}
+    budget.check(budget.stack_bytes(stack["back_azimuth_step_deg"], stack["period_s"]), "back_azimuth_step_deg",
+                 path, f"a sweep every {stack['back_azimuth_step_deg']:g} degrees of back-azimuth")
     for k, entry in enumerate(entries):
         where = f"key layers[{k}]"
         if not isinstance(entry, dict):

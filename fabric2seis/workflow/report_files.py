@@ -14,6 +14,8 @@ from typing import Any
 
 import pandas as pd
 
+from fabric2seis.workflow.status import read_status
+
 # What of a sample's results goes into the workflow report: its figures (PNG) and small tables.
 # velocities.csv and grains.csv stay in results/<sample>/: they would make the report tens of MB.
 REPORT_FIGURES = ("pole_figures", "inverse_pole_figures", "fabric_convergence", "velocities",
@@ -94,7 +96,7 @@ def gather_report_files(status_file: str | Path, out_dir: str | Path) -> list[Pa
     Parameters
     ----------
     status_file : str or Path
-        The workflow's status file of the sample (JSON with ``status`` and ``summary``).
+        The workflow's status file of the sample (``status.read_status``).
     out_dir : str or Path
         Folder to copy into (created if missing).
 
@@ -103,15 +105,15 @@ def gather_report_files(status_file: str | Path, out_dir: str | Path) -> list[Pa
     list of Path
         The files written.
     """
-    status = json.loads(Path(status_file).read_text())
+    status = read_status(status_file)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     written = [out / "key_numbers.csv"]
-    if status["status"] != "ok":
-        pd.DataFrame([{"quantity": "status", "value": status["status"]}]).to_csv(written[0], index=False)
+    if not status.ok or status.folder is None:
+        pd.DataFrame([{"quantity": "status", "value": status.status}]).to_csv(written[0], index=False)
         return written
-    results = Path(status["summary"]).parent
-    key_numbers(json.loads(Path(status["summary"]).read_text())).to_csv(written[0], index=False)
+    results = status.folder
+    key_numbers(json.loads((results / "summary.json").read_text())).to_csv(written[0], index=False)
     for name in REPORT_FIGURES:
         if (results / f"{name}.png").is_file():         # the splitting figure needs field settings
             written.append(Path(shutil.copyfile(results / f"{name}.png", out / f"{name}.png")))
@@ -142,3 +144,43 @@ def gather_field_report_files(field_dir: str | Path, out_dir: str | Path) -> lis
     out.mkdir(parents=True, exist_ok=True)
     sources = sorted(field_dir.glob("*.png")) + [field_dir / "predictions.csv"]
     return [Path(shutil.copyfile(f, out / f.name)) for f in sources if f.is_file()]
+
+
+#: what of a sample's optics results goes into the workflow report (figures, PNG) besides its table
+OPTICS_REPORT_FIGURES = ("crossed_polars", "crossed_polars_plate", "retardation_map", "interference_chart")
+
+
+def gather_optics_report_files(status_file: str | Path, out_dir: str | Path) -> list[Path]:
+    """Copy one sample's optics figures and ``birefringence.csv`` into ``out_dir`` for the workflow report.
+
+    Always writes ``optics_status.csv`` (``ok`` or the error that stopped the sample's optics), so
+    a sample whose optics failed shows in the report without stopping it.
+
+    Parameters
+    ----------
+    status_file : str or Path
+        The workflow's optics status file of the sample (``status.read_status``).
+    out_dir : str or Path
+        Folder to copy into (created if missing).
+
+    Returns
+    -------
+    list of Path
+        The files written.
+    """
+    status = read_status(status_file)
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    written = [out / "optics_status.csv"]
+    row: dict[str, Any] = {"sample": status.sample, "status": status.status}
+    if status.ok and status.summary is not None:
+        summary = json.loads(Path(status.summary).read_text())
+        row.update({"thickness_um": summary["thickness_um"], "view": summary["view"]["setting"],
+                    "images": summary["images"]})
+        results = Path(status.summary).parent
+        for name in OPTICS_REPORT_FIGURES:
+            if (results / f"{name}.png").is_file():       # no images for a grain list
+                written.append(Path(shutil.copyfile(results / f"{name}.png", out / f"{name}.png")))
+        written.append(Path(shutil.copyfile(results / "birefringence.csv", out / "birefringence.csv")))
+    pd.DataFrame([row]).to_csv(written[0], index=False)
+    return written

@@ -10,10 +10,11 @@ import pandas as pd
 from fabric2seis.errors import InputError
 from fabric2seis.ingest.io import is_supported
 from fabric2seis.pipeline import checked_sample_name, sample_name
+from fabric2seis.workflow.status import read_statuses
 
 # folders and files the workflow itself keeps in the results folder: no sample may take their names
 WORKFLOW_NAMES = ("status", "logs", "benchmarks", "report_parts", "field", "stack", "suite_summary",
-                  "suite_comparison", "report")
+                  "suite_comparison", "report", "optics", "optics_status")
 
 
 def check_workflow_sample_name(name: str, path: str | Path) -> str:
@@ -173,7 +174,7 @@ def suite_table_from_status(status_files: list[str | Path]) -> pd.DataFrame:
     Parameters
     ----------
     status_files : list of str or Path
-        The workflow's status files (JSON with ``sample``, ``status`` and ``summary``).
+        The workflow's status files (``status.read_status``).
 
     Returns
     -------
@@ -181,14 +182,12 @@ def suite_table_from_status(status_files: list[str | Path]) -> pd.DataFrame:
         One row per sample, its status and, when it succeeded, its summary's scalar keys.
     """
     rows = []
-    for f in status_files:
-        status = json.loads(Path(f).read_text())
-        if status["status"] == "ok" and not Path(status["summary"]).is_file():
-            rows.append({"sample": status["sample"], "status": f"results missing: no {status['summary']}"})
-        elif status["status"] == "ok":
-            summary = json.loads(Path(status["summary"]).read_text())
+    for status in read_statuses(status_files):
+        if status.ok and not Path(str(status.summary)).is_file():
+            rows.append({"sample": status.sample, "status": f"results missing: no {status.summary}"})
+        elif status.ok:
+            summary = json.loads(Path(str(status.summary)).read_text())
             rows.append({"sample": summary["sample"], "status": "ok", **flatten(summary)})
         else:
-            rows.append({"sample": status["sample"], "status": status["status"]})
+            rows.append({"sample": status.sample, "status": status.status})
     return pd.DataFrame(rows)
-

@@ -4,6 +4,7 @@ import json
 from pathlib import Path
 
 from fabric2seis.settings import sidecar_of
+from fabric2seis.workflow.status import results_state
 from fabric2seis.workflow.suite import discover_measurements, discover_samples
 
 SAMPLES_DIR = config.get("samples_dir", "demo_samples")
@@ -17,10 +18,32 @@ def sample_input(wildcards):
 
 
 def settings_digest(wildcards):
-    """Digest of the sidecar text and the defaults: Snakemake reruns a sample when it changes."""
+    """Digest of the sidecar text and the defaults: Snakemake reruns a sample when it changes.
+
+    The config's optics block is left out: it changes only the optics of the samples.
+    """
     sidecar = sidecar_of(SAMPLES[wildcards.sample])
     text = sidecar.read_bytes() if sidecar.is_file() else b""   # bytes: a sidecar in any encoding
+    sample_config = {k: v for k, v in config.items() if k != "optics"}
+    return hashlib.sha256(text + json.dumps(sample_config, sort_keys=True).encode()).hexdigest()[:16]
+
+
+def optics_digest(wildcards):
+    """Digest of the sidecar text and the whole config: the optics of a sample rerun when it changes."""
+    sidecar = sidecar_of(SAMPLES[wildcards.sample])
+    text = sidecar.read_bytes() if sidecar.is_file() else b""
     return hashlib.sha256(text + json.dumps(config, sort_keys=True).encode()).hexdigest()[:16]
+
+
+def results_check(wildcards):
+    """The sample's results against its status file: a new value reruns the sample (status.results_state)."""
+    return results_state(f"{RESULTS}/status/{wildcards.sample}.json", f"{RESULTS}/{wildcards.sample}")
+
+
+def optics_results_check(wildcards):
+    """The sample's optics results against their manifest: a new value reruns them (status.results_state)."""
+    return results_state(f"{RESULTS}/optics_status/{wildcards.sample}.json", f"{RESULTS}/optics/{wildcards.sample}",
+                         "optics")
 
 
 def report_labels(wildcards):

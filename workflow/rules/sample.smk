@@ -3,7 +3,10 @@ rule sample:
 
     The declared output is the sample's status file: "ok", or the one-line error of bad input or
     of a program error, so that one bad file does not stop the suite. The results folder is
-    written by run_sample, whole or not at all, and only over a folder fabric2seis wrote.
+    written by run_sample, whole or not at all, and only over a folder fabric2seis wrote (a
+    declared folder would be deleted by Snakemake before the job, unchecked). Its files are
+    tracked through the status file's manifest: `results_check` changes when a file is missing,
+    and Snakemake reruns the sample (fabric2seis/workflow/status.py).
     """
     input:
         sample_input,
@@ -11,6 +14,7 @@ rule sample:
         status=f"{RESULTS}/status/{{sample}}.json",
     params:
         settings=settings_digest,
+        results_check=results_check,
         out=lambda wildcards: f"{RESULTS}/{wildcards.sample}",
         results_root=lambda wildcards, output: str(Path(output.status).parent.parent),
     log:

@@ -4,7 +4,8 @@ Each mineral is one YAML file in ``data/`` (see DEVELOPERS.md, "Adding a mineral
 every entry is converted from the Cartesian setting in which its constants were published into
 the crystal Cartesian frame orix uses for the phase (e1 || a, e3 || c*), and checked: symmetric,
 positive definite, and invariant under every operation of its point group (which is the zero
-pattern and the equalities of its symmetry class, in whatever setting it was published).
+pattern and the equalities of its symmetry class, in whatever setting it was published). The
+optional ``optics`` key (refractive indices and the indicatrix) is read and checked by ``optical``.
 """
 
 from __future__ import annotations
@@ -23,6 +24,7 @@ from orix.quaternion import symmetry as orix_symmetry
 from orix.vector import Miller
 
 from fabric2seis.elastic import check_stiffness, rotate_voigt
+from fabric2seis.elastic.minerals.optical import OpticalConstants, read_optics
 from fabric2seis.errors import InputError, nearest
 
 DATA_DIR = Path(__file__).with_name("data")
@@ -30,7 +32,7 @@ DATA_DIR = Path(__file__).with_name("data")
 _REQUIRED = ("name", "point_group", "density_kg_m3", "lattice", "published_axes", "cij_gpa",
              "source", "from_memory")
 _OPTIONAL = ("aliases", "unique_axis", "pressure_derivatives", "temperature_derivatives", "notes",
-             "equation_of_state", "twins", "reference_conditions", "aggregate_check")
+             "equation_of_state", "twins", "reference_conditions", "aggregate_check", "optics")
 #: a recalled entry whose Hill moduli differ from published aggregate moduli by more than this is disputed
 DISPUTED_ABOVE = 0.08
 _TWIN_KEYS = ("name", "axis", "angle_deg", "source")
@@ -99,6 +101,8 @@ class Mineral:
         Conditions the constants were measured at, degrees Celsius and GPa.
     aggregate_check
         Published aggregate moduli ``k_gpa``, ``g_gpa`` (GPa) and their ``source``, or None.
+    optics
+        Principal refractive indices and the indicatrix in the crystal frame (``optical``), or None.
     """
 
     name: str
@@ -126,6 +130,7 @@ class Mineral:
     reference_temperature_c: float = 25.0
     reference_pressure_gpa: float = 0.0
     aggregate_check: dict | None = None
+    optics: OpticalConstants | None = None
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     @property
@@ -228,6 +233,24 @@ def point_group_symmetry(point_group: str, unique_axis: str | None = None) -> or
     return POINT_GROUPS[point_group]
 
 
+def lattice_base(lattice: dict) -> np.ndarray:
+    """Rows a, b, c of the direct lattice in orix's crystal Cartesian frame (e1 || a, e3 || c*).
+
+    Parameters
+    ----------
+    lattice : dict
+        Lattice parameters ``a``, ``b``, ``c`` (angstrom) and ``alpha``, ``beta``, ``gamma`` (degrees).
+
+    Returns
+    -------
+    numpy.ndarray, shape (3, 3)
+        The lattice vectors as rows, in angstrom.
+    """
+    return np.asarray(Phase(point_group="1", structure=Structure(lattice=Lattice(
+        lattice["a"], lattice["b"], lattice["c"],
+        lattice["alpha"], lattice["beta"], lattice["gamma"]))).structure.lattice.base, dtype=float)
+
+
 def crystal_directions(lattice: dict) -> dict[str, np.ndarray]:
     """Compute unit vectors of a, b, c, a*, b*, c* in orix's crystal Cartesian frame (e1 || a, e3 || c*).
 
@@ -241,10 +264,7 @@ def crystal_directions(lattice: dict) -> dict[str, np.ndarray]:
     dict of str to numpy.ndarray, each shape (3,)
         Unit vectors by name.
     """
-    base = Phase(point_group="1", structure=Structure(lattice=Lattice(
-        lattice["a"], lattice["b"], lattice["c"],
-        lattice["alpha"], lattice["beta"], lattice["gamma"]))).structure.lattice.base
-    a, b, c = base  # rows: direct lattice vectors in the Cartesian frame orix uses
+    a, b, c = lattice_base(lattice)  # rows: direct lattice vectors in the Cartesian frame orix uses
     recip = {"a*": np.cross(b, c), "b*": np.cross(c, a), "c*": np.cross(a, b)}
     out = {"a": a, "b": b, "c": c, **recip}
     return {k: v / np.linalg.norm(v) for k, v in out.items()}
@@ -386,7 +406,8 @@ def load_mineral_file(path: str | Path) -> Mineral:
     InputError
         Naming file and key, if the file cannot be read, has unknown or missing keys, an unknown
         point group, an implausible density, or constants that are not a valid stiffness or
-        break the symmetry of the point group.
+        break the symmetry of the point group, or optical constants that fail their checks
+        (``optical.read_optics``).
     """
     path = Path(path)
     src = str(path)
@@ -448,6 +469,8 @@ def load_mineral_file(path: str | Path) -> Mineral:
     twins = _twins(entry.get("twins"), src)
     reference = _reference_conditions(entry.get("reference_conditions"), src)
     check = _aggregate_check(entry.get("aggregate_check"), src)
+    optics = read_optics(entry.get("optics"), lattice_base(entry["lattice"]), unique,
+                         Rotation(sym.data).to_matrix(), src)
     memory = entry["from_memory"] or []
     if not isinstance(memory, list):
         raise InputError("from_memory must be a list of the fields recalled ([] when checked)",
@@ -462,7 +485,8 @@ def load_mineral_file(path: str | Path) -> Mineral:
         dcij_dp=dp, pressure_source=dp_src, dcij_dt_gpa_per_k=dt, temperature_source=dt_src,
         derivatives_from_memory=deriv_mem, d2cij_dp2=d2p, eos=eos,
         notes=str(entry.get("notes", "")).strip(), file=src, twins=twins,
-        reference_temperature_c=reference[0], reference_pressure_gpa=reference[1], aggregate_check=check)
+        reference_temperature_c=reference[0], reference_pressure_gpa=reference[1], aggregate_check=check,
+        optics=optics)
 
 
 def _reference_conditions(block, src: str) -> tuple[float, float]:

@@ -18,7 +18,7 @@ from orix.io.plugins import ang as orix_ang
 from orix.quaternion import Rotation
 
 from fabric2seis.ingest.io.orix_parts import header_phases, one_row_per_phase
-from fabric2seis.ingest.io.record import EBSDData, check_angles, check_map
+from fabric2seis.ingest.io.record import EBSDData, check_angles, check_map, check_phase_ids
 from fabric2seis.ingest.io.text import line_of_row, plain_text_file, read_numbers
 
 CORE_COLUMNS = (0, 1, 2, 3, 4, 7)      # phi1, Phi, phi2, x, y, phase id
@@ -69,16 +69,19 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
         def where(row: int) -> str:
             return line_of_row(plain, first_line, row, "#")
 
-        check_angles(values[:, :3], "radians", path, where)
+        check_angles(values[:, :3], "radians", path, where, "columns 1-3 (phi1, Phi, phi2)")
         extra = [c for c in range(values.shape[1]) if c not in CORE_COLUMNS]
-        phase_id = values[:, 7].astype(int)
+        phase_id = check_phase_ids(values[:, 7], path, where)
         names, groups, props = header_phases(orix_ang.file_reader, header, values[one_row_per_phase(phase_id)],
                                              path, ".ang")
         columns = dict(zip(props, extra))
         if "ci" in columns:
             phase_id[values[:, columns["ci"]] == -1] = -1
+        places = {"grid": _header_place(header, "GRID"), "step": _header_place(header, "XSTEP"),
+                  "points": _header_place(header, "NROWS")}
         grid, step = check_map(values[:, 3], values[:, 4], path, _declared_grid(header),
-                               _header_value(header, "XSTEP"), _expected_points(header), where)
+                               _header_value(header, "XSTEP"), _expected_points(header), where,
+                               "columns 4-5 (x, y)", places)
     quality: dict[str, np.ndarray] = {name: values[:, columns[name]].copy() for name in ("ci", "iq", "fit")
                                       if name in columns}
     return EBSDData(source=str(path), quat=Rotation.from_euler(values[:, :3]).data, phase_id=phase_id,
@@ -86,14 +89,23 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
                     step=step, grid=grid, quality=quality)
 
 
+def _header_place(header: list[str], key: str) -> str | None:
+    """Name the header line of a key: ``"line 16 (# GRID)"``, or None if the header lacks it."""
+    for number, line in enumerate(header, start=1):
+        if line.lstrip("#").split(":")[0].strip() == key:
+            return f"line {number} (# {key})"
+    return None
+
+
 def _header_value(header: list[str], key: str) -> float | None:
     for line in header:
         parts = line.lstrip("#").split(":")
         if len(parts) == 2 and parts[0].strip() == key:
             try:
-                return float(parts[1])
+                value = float(parts[1])
             except ValueError:
                 return None
+            return value if np.isfinite(value) else None    # an unreadable value counts as none
     return None
 
 

@@ -17,7 +17,7 @@ from orix.quaternion import Rotation
 
 from fabric2seis.errors import InputError
 from fabric2seis.ingest.io.orix_parts import header_phases, one_row_per_phase
-from fabric2seis.ingest.io.record import EBSDData, check_angles, check_map
+from fabric2seis.ingest.io.record import EBSDData, check_angles, check_map, check_phase_ids
 from fabric2seis.ingest.io.text import line_of_row, plain_text_file, read_numbers
 
 
@@ -32,14 +32,23 @@ def _header(path: Path) -> list[str]:
     return []
 
 
+def _header_place(header: list[str], key: str) -> str | None:
+    """Name the header line of a key: ``"line 7 (XStep)"``, or None if the header lacks it."""
+    for number, line in enumerate(header, start=1):
+        if line.split()[:1] == [key]:
+            return f"line {number} ({key})"
+    return None
+
+
 def _header_number(header: list[str], key: str) -> float | None:
     for line in header:
         parts = line.split()
         if len(parts) == 2 and parts[0] == key:
             try:
-                return float(parts[1])
+                value = float(parts[1])
             except ValueError:
                 return None
+            return value if np.isfinite(value) else None    # an unreadable value counts as none
     return None
 
 
@@ -74,13 +83,13 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
         if not header:
             raise InputError("no 'Phase X Y ...' column line: not a .ctf file", path)
         start = len(header) + 1
-        values = read_numbers(plain, start, path, comment=None, min_columns=11)
+        values = read_numbers(plain, start, path, comment=None, min_columns=11, columns=len(header[-1].split()))
 
         def where(row: int) -> str:
             return line_of_row(plain, start, row, None)
 
-        check_angles(values[:, 5:8], "degrees", path, where)
-        phase_id = values[:, 0].astype(int)
+        check_angles(values[:, 5:8], "degrees", path, where, "columns 6-8 (Euler1, Euler2, Euler3)")
+        phase_id = check_phase_ids(values[:, 0], path, where)
         phase_id[phase_id == 0] = -1
         names, groups, _ = header_phases(orix_ctf.file_reader, header, values[one_row_per_phase(phase_id)],
                                          path, ".ctf")
@@ -89,8 +98,10 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
         if x_cells and y_cells and x_cells > 0 and y_cells > 0:
             nx, ny = int(x_cells), int(y_cells)
             expected = (nx * ny, f"XCells {nx} x YCells {ny}")
+        places = {"grid": "the format (.ctf maps are square)", "step": _header_place(header, "XStep"),
+                  "points": _header_place(header, "XCells")}
         grid, step = check_map(values[:, 1], values[:, 2], path, "square", _header_number(header, "XStep"),
-                               expected, where)
+                               expected, where, "columns 2-3 (X, Y)", places)
     quality = {"mad": values[:, 8].copy(), "bc": values[:, 9].copy(), "bs": values[:, 10].copy()}
     return EBSDData(source=str(path), quat=Rotation.from_euler(np.radians(values[:, 5:8])).data,
                     phase_id=phase_id, phase_names=names, phase_point_groups=groups, x=values[:, 1].copy(),

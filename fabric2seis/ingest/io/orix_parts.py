@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 
 from fabric2seis.errors import InputError
-from fabric2seis.ingest.io.record import EBSDData, check_map
+from fabric2seis.ingest.io.record import EBSDData, check_map, check_phase_ids
 from fabric2seis.ingest.io.text import quiet
 
 
@@ -55,6 +55,7 @@ def header_phases(file_reader, header: list[str], rows: np.ndarray, source: Path
     """
     if len(rows) == 1:
         rows = np.repeat(rows, 2, axis=0)      # orix's text loading needs two rows to see a table
+    rows = np.where(np.isfinite(rows), rows, 0.0)  # orix needs only the phase ids; the caller checks the rest
     with tempfile.TemporaryDirectory(prefix="fabric2seis-") as tmp:
         head = Path(tmp) / f"header{suffix}"
         body = "".join("\t".join(repr(float(v)) for v in row) + "\n" for row in rows)
@@ -113,18 +114,32 @@ def from_crystal_map(xmap, source, quality_names: dict[str, str]) -> EBSDData:
     Raises
     ------
     InputError
-        If an orientation is not finite or the points are not on a grid (:func:`check_map`).
+        If orix's map is inconsistent (arrays of different lengths), an orientation is not a
+        finite unit quaternion, a phase id is not a phase of the file, or the points are not on
+        a grid (:func:`check_map`).
     """
-    quat = np.asarray(xmap.rotations.data, dtype=float).reshape(-1, 4)
-    bad = np.flatnonzero(~np.all(np.isfinite(quat), axis=1))
+    try:  # orix builds a map from whatever the file holds; inconsistent arrays fail when read
+        quat = np.asarray(xmap.rotations.data, dtype=float).reshape(-1, 4)
+        phase_id = np.asarray(xmap.phase_id, dtype=float).reshape(-1)
+        x = np.asarray(xmap.x, dtype=float).reshape(-1)
+        y = np.asarray(xmap.y, dtype=float).reshape(-1) if xmap.y is not None else np.zeros_like(x)
+        quality = {name: np.asarray(xmap.prop[key], dtype=float).reshape(-1) for name, key in quality_names.items()
+                   if key in xmap.prop}
+        names, groups = _phases(xmap)
+    except Exception as exc:  # orix raises several types for a map it cannot make sense of
+        raise InputError(f"the crystal map is inconsistent ({type(exc).__name__}: {str(exc)[:120]})", source) from None
+    lengths = {len(a) for a in (quat, phase_id, x, y, *quality.values())}
+    if len(lengths) > 1:
+        raise InputError(f"the crystal map's arrays differ in length ({', '.join(map(str, sorted(lengths)))} "
+                         "points)", source)
+    bad = np.flatnonzero(~np.all(np.isfinite(quat), axis=1) | (np.abs(np.linalg.norm(quat, axis=1) - 1.0) > 1e-6))
     if len(bad):
-        raise InputError("orientation is not a number (NaN or infinite)", source, f"point {bad[0] + 1}")
-    names, groups = _phases(xmap)
-    x = np.asarray(xmap.x, dtype=float)
-    y = np.asarray(xmap.y, dtype=float) if xmap.y is not None else np.zeros_like(x)
+        raise InputError("orientation is not a finite unit quaternion", source, f"point {bad[0] + 1}")
+    phase_id = check_phase_ids(phase_id, source)
+    unknown = np.flatnonzero((phase_id != -1) & ~np.isin(phase_id, list(names)))
+    if len(unknown):
+        i = int(unknown[0])
+        raise InputError(f"phase id {phase_id[i]} is not a phase of the file", source, f"point {i + 1}")
     grid, step = check_map(x, y, source)
-    quality = {name: np.asarray(xmap.prop[key], dtype=float) for name, key in quality_names.items()
-               if key in xmap.prop}
-    return EBSDData(source=str(source), quat=quat, phase_id=np.asarray(xmap.phase_id, dtype=int).copy(),
-                    phase_names=names, phase_point_groups=groups, x=x, y=y, step=step, grid=grid,
-                    quality=quality)
+    return EBSDData(source=str(source), quat=quat, phase_id=phase_id, phase_names=names, phase_point_groups=groups,
+                    x=x, y=y, step=step, grid=grid, quality=quality)

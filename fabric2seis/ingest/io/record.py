@@ -80,7 +80,7 @@ def _row_place(where, row: int) -> str:
     return where(row) if where is not None else f"point {row + 1}"
 
 
-def check_angles(euler: np.ndarray, units: str, source, where=None) -> None:
+def check_angles(euler: np.ndarray, units: str, source, where=None, columns: str = "the Euler angle columns") -> None:
     """Refuse NaN angles, angles out of the Bunge ranges, and angles that contradict the units.
 
     Every row is checked. Bunge angles span phi1, phi2 in [0, 360) and Phi in [0, 180] degrees
@@ -101,6 +101,8 @@ def check_angles(euler: np.ndarray, units: str, source, where=None) -> None:
         The file, named in error messages.
     where : callable, optional
         Maps a 0-based row to its place in the file; "point n" if not given.
+    columns : str
+        Names the angle columns, the place of faults of the whole set (units).
 
     Raises
     ------
@@ -122,7 +124,7 @@ def check_angles(euler: np.ndarray, units: str, source, where=None) -> None:
     if units == "degrees" and 0.0 < largest <= 2 * np.pi + RADIANS_TOLERANCE:
         raise InputError(f"the Euler angles look like radians (largest {largest:.3f} in {len(euler)} rows) but "
                          "degrees are declared; set table.angle_units: radians in the settings if they are",
-                         source)
+                         source, columns)
     beyond = (np.flatnonzero(np.abs(euler).max(axis=1) > 2 * np.pi + 1e-2) if units == "radians"
               else np.empty(0, dtype=np.int64))
     if len(beyond) > max(1, 0.05 * len(euler)):
@@ -142,6 +144,40 @@ def check_angles(euler: np.ndarray, units: str, source, where=None) -> None:
         row = int(wrong[0])
         raise InputError(f"phi1 or phi2 = {outer[row]:g} {units} lies beyond a full turn", source,
                          _row_place(where, row))
+
+
+MAX_PHASE_ID = 2**31 - 1
+
+
+def check_phase_ids(ids: np.ndarray, source, where=None) -> np.ndarray:
+    """Return a phase column as integers, refusing values that are not whole numbers from -1 up.
+
+    Parameters
+    ----------
+    ids : array_like, shape (N,)
+        The phase column as read (floats).
+    source : str or path
+        The file, named in error messages.
+    where : callable, optional
+        Maps a 0-based row to its place in the file; "point n" if not given.
+
+    Returns
+    -------
+    numpy.ndarray of int, shape (N,)
+        The phase ids.
+
+    Raises
+    ------
+    InputError
+        On a phase id that is not a finite whole number in -1 to ``MAX_PHASE_ID``.
+    """
+    ids = np.asarray(ids, dtype=float)
+    with np.errstate(invalid="ignore"):
+        bad = np.flatnonzero(~np.isfinite(ids) | (ids != np.round(ids)) | (ids < -1) | (ids > MAX_PHASE_ID))
+    if len(bad):
+        row = int(bad[0])
+        raise InputError(f"phase id {ids[row]:g} is not a whole number from -1 up", source, _row_place(where, row))
+    return ids.astype(np.int64)
 
 
 def _levels(values: np.ndarray, tol: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -169,7 +205,8 @@ def _spacing(levels: np.ndarray, counts: np.ndarray, only_shared: bool) -> float
 
 def check_map(x: np.ndarray, y: np.ndarray, source, declared_grid: str | None = None,
               declared_step: float | None = None, expected_points: tuple[int, str] | None = None,
-              where=None) -> tuple[str, float]:
+              where=None, columns: str = "columns x, y", header: dict[str, str | None] | None = None
+              ) -> tuple[str, float]:
     """Check a map's coordinates and return its grid type and step.
 
     Refused: fewer than two points, coordinates that are not numbers, a point count other than the
@@ -194,6 +231,10 @@ def check_map(x: np.ndarray, y: np.ndarray, source, declared_grid: str | None = 
         Point count the header announces, and how the header gives it.
     where : callable, optional
         Maps a 0-based row to its place in the file.
+    columns : str
+        Names the coordinate columns, the place of faults of the whole map.
+    header : dict of str to str, optional
+        The places of the header's ``"grid"``, ``"step"`` and ``"points"``, where it has them.
 
     Returns
     -------
@@ -207,31 +248,32 @@ def check_map(x: np.ndarray, y: np.ndarray, source, declared_grid: str | None = 
     InputError
         On any of the faults listed above.
     """
+    header = header or {}
     x = np.asarray(x, dtype=float)
     y = np.asarray(y, dtype=float)
     n = len(x)
     if n < 2:
-        raise InputError(f"a map needs at least two points, this one has {n}", source)
+        raise InputError(f"a map needs at least two points, this one has {n}", source, columns)
     for name, v in (("x", x), ("y", y)):
         bad = np.flatnonzero(~np.isfinite(v))
         if len(bad):
             raise InputError(f"map coordinate {name} is not a number", source, _row_place(where, int(bad[0])))
     if expected_points is not None and expected_points[0] != n:
         raise InputError(f"the header announces {expected_points[0]:,} points ({expected_points[1]}) but the file "
-                         f"has {n:,} (truncated, or rows added?)", source)
+                         f"has {n:,} (truncated, or rows added?)", source, header.get("points"))
     span = max(float(np.ptp(x)), float(np.ptp(y)))
     if span == 0.0:
         raise InputError(f"every point of the map is at x = {x[0]:g}, y = {y[0]:g}; each point of a map must "
-                         "be at its own place", source)
+                         "be at its own place", source, columns)
     tol = 1e-7 * span
     xv, _, x_counts = _levels(x, tol)
     yv, _, y_counts = _levels(y, tol)
     if n >= 4 and x_counts.max() < 2 and y_counts.max() < 2:
-        raise InputError("map coordinates are not on a grid: no two points share a row or a column", source)
+        raise InputError("map coordinates are not on a grid: no two points share a row or a column", source, columns)
     spacing_x = _spacing(xv, x_counts, only_shared=len(yv) > 1)
     spacing_y = _spacing(yv, y_counts, only_shared=len(xv) > 1)
     if spacing_x is None and spacing_y is None:
-        raise InputError("map coordinates are not on a grid: no row or column holds two points", source)
+        raise InputError("map coordinates are not on a grid: no row or column holds two points", source, columns)
     dx: float = spacing_x if spacing_x is not None else spacing_y  # type: ignore[assignment]
     dy: float = spacing_y if spacing_y is not None else dx
     fx, fy = (x - xv[0]) / dx, (y - yv[0]) / dy
@@ -239,7 +281,7 @@ def check_map(x: np.ndarray, y: np.ndarray, source, declared_grid: str | None = 
     off = np.flatnonzero((np.abs(fx - kx) > OFF_GRID_TOLERANCE) | (np.abs(fy - ky) > OFF_GRID_TOLERANCE))
     if len(off) > n // 2:
         raise InputError(f"map coordinates are not on a grid: {len(off):,} of {n:,} points lie between the "
-                         "nodes of any grid their rows and columns suggest", source)
+                         "nodes of any grid their rows and columns suggest", source, columns)
     if len(off):
         i = int(off[0])
         raise InputError(f"point off the grid: x = {x[i]:g}, y = {y[i]:g} lies between the grid's nodes "
@@ -257,16 +299,16 @@ def check_map(x: np.ndarray, y: np.ndarray, source, declared_grid: str | None = 
     grid, step = ("hex", 2.0 * dx) if hexagonal else ("square", dx)
     if grid == "square" and len(xv) > 1 and len(yv) > 1 and abs(dx - dy) > 1e-3 * max(dx, dy):
         raise InputError(f"the map's steps differ along x ({dx:g}) and y ({dy:g}); fabric2seis needs a square "
-                         "grid with equal steps or a hexagonal grid", source)
+                         "grid with equal steps or a hexagonal grid", source, columns)
     if declared_grid is not None and declared_grid != grid and len(yv) > 1:
         said = {"hex": "hexagonal", "square": "square"}
         raise InputError(f"the header declares a {said[declared_grid]} grid but the coordinates lie on a "
-                         f"{said[grid]} grid", source)
+                         f"{said[grid]} grid", source, header.get("grid"))
     if declared_step is not None and declared_step > 0 and abs(declared_step - step) > 0.01 * step:
         raise InputError(f"the header declares a step of {declared_step:g} but the points lie {step:g} apart",
-                         source)
+                         source, header.get("step"))
     cells = (int(kx.max()) + 1) * (int(ky.max()) + 1)
     if cells > 8 * n + 1024:
         raise InputError(f"the map's {n:,} points fill only {100 * n / cells:.1f} % of the grid they span; "
-                         "is the step or a coordinate column wrong?", source)
+                         "is the step or a coordinate column wrong?", source, columns)
     return grid, step

@@ -8,6 +8,7 @@ A phase of ``0``, empty, ``none``, ``not indexed`` or ``notindexed`` marks an un
 
 from __future__ import annotations
 
+import io
 from pathlib import Path
 
 import numpy as np
@@ -16,7 +17,7 @@ from orix.quaternion import Rotation
 
 from fabric2seis.errors import InputError
 from fabric2seis.ingest.io.record import EBSDData, check_angles, check_map
-from fabric2seis.ingest.io.text import plain_text_file
+from fabric2seis.ingest.io.text import csv_line_of_row, csv_row_longer_than_header, decode, plain_text_file
 
 REQUIRED = ("phase", "phi1", "Phi", "phi2")
 OPTIONAL = ("weight", "x", "y", "quality")
@@ -54,12 +55,26 @@ def read(path: Path, compressed: bool = False, angle_units: str = "degrees") -> 
     Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
     """
     with plain_text_file(path, compressed) as plain:
+        text = decode(plain.read_bytes(), path)      # UTF-8, or refused naming the line of the first other byte
         try:
-            frame = pd.read_csv(plain, dtype=str, keep_default_na=False, skipinitialspace=True)
+            frame = pd.read_csv(io.StringIO(text), dtype=str, keep_default_na=False, skipinitialspace=True)
         except pd.errors.EmptyDataError:
             raise InputError("the file is empty", path) from None
         except (pd.errors.ParserError, UnicodeDecodeError) as exc:
             raise InputError(f"not a readable CSV table ({str(exc).strip()[:150]})", path) from None
+
+        if not isinstance(frame.index, pd.RangeIndex):  # pandas takes a first column with no name for an index
+            raise InputError(f"a row has more values than the header's {len(frame.columns)} column names", path,
+                             csv_row_longer_than_header(io.StringIO(text, newline="")))
+
+        def where(row: int) -> str:     # the parser skips blank lines: count them back in
+            return csv_line_of_row(text, row)
+
+        return _record(frame, path, angle_units, where)
+
+
+def _record(frame: pd.DataFrame, path: Path, angle_units: str, where) -> EBSDData:
+    """The checked record of a table read as text (``where(row)`` names a data row's line)."""
     frame.columns = [c.strip() for c in frame.columns]
     missing = [c for c in REQUIRED if c not in frame.columns]
     if missing:
@@ -67,9 +82,9 @@ def read(path: Path, compressed: bool = False, angle_units: str = "degrees") -> 
                          f"{', '.join(REQUIRED)} and may have {', '.join(OPTIONAL)}", path, "line 1")
     if len(frame) == 0:
         raise InputError("the table has a header but no data rows", path)
-    numbers = {c: _numeric(frame, c, path) for c in ("phi1", "Phi", "phi2", *OPTIONAL) if c in frame.columns}
+    numbers = {c: _numeric(frame, c, path, where) for c in ("phi1", "Phi", "phi2", *OPTIONAL) if c in frame.columns}
     euler = np.column_stack([numbers["phi1"], numbers["Phi"], numbers["phi2"]])
-    check_angles(euler, angle_units, path, lambda row: f"line {row + 2}")
+    check_angles(euler, angle_units, path, where, "columns phi1, Phi, phi2")
     if angle_units == "degrees":
         euler = np.radians(euler)
     names = frame["phase"].str.strip()
@@ -84,11 +99,17 @@ def read(path: Path, compressed: bool = False, angle_units: str = "degrees") -> 
     grid: str | None = None
     step: float | None = None
     if x is not None and y is not None:
-        grid, step = check_map(x, y, path, where=lambda row: f"line {row + 2}")
+        grid, step = check_map(x, y, path, where=where)
     weights = numbers.get("weight")
-    if weights is not None and np.any(weights < 0):
-        row = int(np.flatnonzero(weights < 0)[0]) + 2
-        raise InputError("a weight is negative", path, f"line {row}, column weight")
+    if weights is not None:
+        for bad, what in ((~np.isfinite(weights), "is not a finite number"), (weights < 0, "is negative")):
+            if np.any(bad):
+                row = int(np.flatnonzero(bad)[0])
+                raise InputError(f"a weight {what} ({weights[row]:g})", path, f"{where(row)}, column weight")
+        for name, i in ids.items():     # a phase without weight has no fraction and no average
+            if not weights[phase_id == i].sum() > 0:
+                raise InputError(f"every weight of phase '{name}' is 0; give its grains their areas or volumes, "
+                                 "or leave the weight column out", path, "column weight")
     quality = {"quality": numbers["quality"]} if "quality" in numbers else {}
     return EBSDData(source=str(path), quat=Rotation.from_euler(euler).data, phase_id=phase_id,
                     phase_names={i: n for n, i in ids.items()},
@@ -96,13 +117,13 @@ def read(path: Path, compressed: bool = False, angle_units: str = "degrees") -> 
                     x=x, y=y, step=step, grid=grid, quality=quality, weights=weights)
 
 
-def _numeric(frame: pd.DataFrame, column: str, path: Path) -> np.ndarray:
+def _numeric(frame: pd.DataFrame, column: str, path: Path, where) -> np.ndarray:
     raw = frame[column].str.strip()
     values = pd.to_numeric(raw, errors="coerce").to_numpy(dtype=float)
     bad = np.flatnonzero(np.isnan(values) & ~raw.str.lower().isin({"nan"}).to_numpy())
     if len(bad):
         row = int(bad[0])
-        text = raw.iloc[row]
+        text = str(raw.iloc[row])
         what = "a value is missing (truncated row?)" if text == "" else f"'{text[:20]}' is not a number"
-        raise InputError(what, path, f"line {row + 2}, column {column}")
+        raise InputError(what, path, f"{where(row)}, column {column}")
     return values

@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import contextlib
+import csv
 import gzip
 import io
 import shutil
 import tempfile
-from collections.abc import Iterator
+from collections import Counter
+from collections.abc import Iterable, Iterator
 from pathlib import Path
 
 import numpy as np
@@ -39,7 +41,7 @@ def plain_text_file(path: Path, compressed: bool) -> Iterator[Path]:
     if path.stat().st_size == 0:
         raise InputError("the file is empty", path)
     if not compressed:
-        _check_text(path, path.open("rb").read(65536))
+        _check_text(path, _head(path))
         yield path
         return
     with tempfile.TemporaryDirectory(prefix="fabric2seis-") as tmp:
@@ -51,8 +53,14 @@ def plain_text_file(path: Path, compressed: bool) -> Iterator[Path]:
             raise InputError(f"cannot decompress ({exc})", path) from None
         if plain.stat().st_size == 0:
             raise InputError("the file is empty once decompressed", path)
-        _check_text(path, plain.open("rb").read(65536))
+        _check_text(path, _head(plain))
         yield plain
+
+
+def _head(path: Path) -> bytes:
+    """The first 64 KiB of a file (closed at once)."""
+    with path.open("rb") as f:
+        return f.read(65536)
 
 
 def _check_text(path: Path, head: bytes) -> None:
@@ -65,6 +73,117 @@ def _check_text(path: Path, head: bytes) -> None:
             control = sum(b < 9 or 13 < b < 32 for b in head)
             if control > len(head) // 100:
                 raise InputError("this is not a text file (it contains binary data)", path) from None
+
+
+def decode(raw: bytes, source) -> str:
+    """The text of a file's bytes: UTF-8 (with or without a byte-order mark) or UTF-16 with its mark.
+
+    Anything else is refused rather than guessed: every byte sequence is valid Latin-1, so a
+    wrong guess would pass unnoticed and change names (of phases, stations, minerals) silently.
+
+    Parameters
+    ----------
+    raw : bytes
+        The file's contents.
+    source : str or path
+        The file, named in error messages.
+
+    Returns
+    -------
+    str
+        The text.
+
+    Raises
+    ------
+    InputError
+        Naming the line and byte offset of the first byte that is not UTF-8.
+    """
+    if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
+        try:
+            return raw.decode("utf-16")
+        except UnicodeDecodeError as exc:
+            raise InputError(f"not readable as UTF-16 text, though it starts like it (byte offset {exc.start})",
+                             source) from None
+    nul, newline = raw.find(b"\x00"), b"\n"
+    if nul >= 0:            # valid UTF-8, but no text holds it: UTF-16 without its mark, or binary data
+        raise InputError(f"not UTF-8 text: a NUL byte at byte offset {nul} (UTF-16 without its byte-order mark, "
+                         "or binary data); save the file as UTF-8", source,
+                         f"line {raw.count(newline, 0, nul) + 1}")
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw.count(newline, 0, exc.start) + 1
+        raise InputError(f"not UTF-8 text: byte 0x{raw[exc.start]:02x} at byte offset {exc.start} (another "
+                         "encoding, such as Latin-1 or UTF-16 without its byte-order mark); save the file as UTF-8",
+                         source, f"line {line}") from None
+
+
+def csv_row_longer_than_header(lines: Iterable[str]) -> str | None:
+    """Name the first CSV line with more values than the header line (blank lines skipped), if any.
+
+    pandas takes the first column of a table whose rows are one value longer than its header for
+    an index, which shifts every column; the readers refuse such a table naming this line.
+
+    Parameters
+    ----------
+    lines : iterable of str
+        The table's lines (an open text file, or ``io.StringIO``).
+
+    Returns
+    -------
+    str or None
+        ``"line N"``, or None.
+    """
+    reader = csv.reader(lines)
+    header: list[str] | None = None
+    for row in reader:
+        if not any(field.strip() for field in row):
+            continue
+        if header is None:
+            header = row
+        elif len(row) > len(header):
+            return f"line {reader.line_num}"
+    return None
+
+
+def csv_line_of_row(text: str, row: int) -> str:
+    """Name the line of a 0-based data row of a CSV table's text, counting the blank lines pandas skips.
+
+    Parameters
+    ----------
+    text : str
+        The table's text, header first.
+    row : int
+        0-based data row.
+
+    Returns
+    -------
+    str
+        ``"line N"``, or ``"data row R"`` if the text has fewer rows.
+    """
+    numbers = [k for k, line in enumerate(text.splitlines(), start=1) if line.strip()]
+    return f"line {numbers[row + 1]}" if row + 1 < len(numbers) else f"data row {row + 1}"
+
+
+def _data_lines(path: Path, first_data_line: int, comment: str) -> Iterator[tuple[int, list[str]]]:
+    """(1-based line number, whitespace-separated fields) of every data line."""
+    with path.open("r", errors="replace") as f:
+        for number, line in enumerate(f, start=1):
+            if number < first_data_line or not line.strip() or line.lstrip().startswith(comment):
+                continue
+            yield number, line.split()
+
+
+def _is_number(text: str) -> bool:
+    """Whether the C parser reads ``text`` as a number (plain ASCII: Python's float also takes
+    other scripts' digits and underscores)."""
+    if not text.isascii() or "_" in text:
+        return False
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
 
 
 def find_bad_row(path: Path, first_data_line: int, n_columns: int | None, comment: str = "#") -> str:
@@ -80,7 +199,8 @@ def find_bad_row(path: Path, first_data_line: int, n_columns: int | None, commen
     first_data_line : int
         1-based number of the first data line.
     n_columns : int or None
-        Values a row must have; None takes the count of the first data row.
+        Values a row must have; None takes the count most rows have (so that a bad first row is
+        the one named).
     comment : str
         Lines starting with it are skipped.
 
@@ -89,20 +209,15 @@ def find_bad_row(path: Path, first_data_line: int, n_columns: int | None, commen
     str
         Description of the first bad line, or ``""``.
     """
-    with path.open("r", errors="replace") as f:
-        for number, line in enumerate(f, start=1):
-            if number < first_data_line or not line.strip() or line.lstrip().startswith(comment):
-                continue
-            fields = line.split()
-            if n_columns is None:
-                n_columns = len(fields)
-            if len(fields) != n_columns:
-                return f"line {number}: {len(fields)} values, expected {n_columns} (truncated or extra row?)"
-            for column, value in enumerate(fields, start=1):
-                try:
-                    float(value)
-                except ValueError:
-                    return f"line {number}, column {column}: '{value[:20]}' is not a number"
+    if n_columns is None:
+        counts = Counter(len(fields) for _, fields in _data_lines(path, first_data_line, comment))
+        n_columns = counts.most_common(1)[0][0] if counts else 0
+    for number, fields in _data_lines(path, first_data_line, comment):
+        if len(fields) != n_columns:
+            return f"line {number}: {len(fields)} values, expected {n_columns} (truncated or extra row?)"
+        for column, value in enumerate(fields, start=1):
+            if not _is_number(value):
+                return f"line {number}, column {column}: '{value[:20]}' is not a number"
     return ""
 
 
@@ -156,7 +271,7 @@ def line_of_row(path: Path, first_data_line: int, row: int, comment: str | None 
 
 
 def read_numbers(path: Path, first_data_line: int, source: Path, comment: str | None = "#",
-                 min_columns: int = 1) -> np.ndarray:
+                 min_columns: int = 1, columns: int | None = None) -> np.ndarray:
     """Every data row from ``first_data_line`` (1-based) on, as an (N, C) float array.
 
     One pass of pandas' C parser over whitespace-separated numbers. A row with another count of
@@ -175,6 +290,9 @@ def read_numbers(path: Path, first_data_line: int, source: Path, comment: str | 
         Lines starting with it are skipped.
     min_columns : int
         Fewest values a row of the format has.
+    columns : int, optional
+        Values every row has, where the header says (error messages then name the row that
+        differs from it, not from the row count most rows have).
 
     Returns
     -------
@@ -194,8 +312,8 @@ def read_numbers(path: Path, first_data_line: int, source: Path, comment: str | 
     except pd.errors.EmptyDataError:
         raise InputError("the file has a header but no data rows", source) from None
     except (ValueError, pd.errors.ParserError):
-        problem = find_bad_row(path, first_data_line, None, comment or "\x00")
-        raise InputError(problem or "the data rows are not all numbers", source) from None
+        place, _, problem = find_bad_row(path, first_data_line, columns, comment or "\x00").partition(": ")
+        raise InputError(problem or "the data rows are not all numbers", source, place or None) from None
     values = frame.to_numpy()
     if values.shape[0] == 0:
         raise InputError("the file has a header but no data rows", source)
@@ -204,7 +322,7 @@ def read_numbers(path: Path, first_data_line: int, source: Path, comment: str | 
                          line_of_row(path, first_data_line, 0, comment))
     short = np.flatnonzero(np.isnan(values).any(axis=1))
     if len(short):      # a short row is filled with NaN by the parser; so is a written 'nan'
-        problem = find_bad_row(path, first_data_line, values.shape[1], comment or "\x00")
+        place, _, problem = find_bad_row(path, first_data_line, columns, comment or "\x00").partition(": ")
         where = line_of_row(path, first_data_line, int(short[0]), comment)
-        raise InputError(problem or "a value is not a number (nan)", source, None if problem else where)
+        raise InputError(problem or "a value is not a number (nan)", source, place if problem else where)
     return values

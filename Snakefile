@@ -14,6 +14,8 @@ validate(config, "fabric2seis/settings_schema.yaml")
 with stop_on_bad_input():      # paths written in a config file stay in the project unless allowed
     check_config_paths(config, CONFIG_FILES, workflow.config_settings.config)
 
+report: "workflow/report/workflow.rst"   # the front page of `snakemake --report`
+
 include: "workflow/rules/common.smk"
 include: "workflow/rules/sample.smk"
 include: "workflow/rules/suite.smk"
@@ -26,7 +28,9 @@ rule all:
     input:
         f"{RESULTS}/suite_summary.csv",
         f"{RESULTS}/suite_comparison.png",
+        f"{RESULTS}/report_parts/suite/suite_overview.csv",
         expand(f"{RESULTS}/report_parts/samples/{{sample}}", sample=sorted(SAMPLES)),
+        expand(f"{RESULTS}/report_parts/stacks/{{stack}}", stack=STACKS),
         [f"{RESULTS}/field/field_fit.json", f"{RESULTS}/report_parts/field"] if MEASUREMENTS else [],
         expand(f"{RESULTS}/report_parts/optics/{{sample}}", sample=sorted(SAMPLES))
         if (config.get("optics") or {}).get("enabled") else [],

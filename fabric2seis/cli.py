@@ -6,6 +6,7 @@ No science lives here. Every command body is a few lines calling fabric2seis fun
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 
 import numpy as np
@@ -81,6 +82,7 @@ def _suite(args: argparse.Namespace, extra: list[str]) -> int:
                          Path.cwd())
     if not Path(args.samples).is_dir():
         raise InputError("no such samples folder", args.samples)
+    extra = [word for word in extra if word != "--"]      # '--' only separates Snakemake's arguments
     user_config, rest = split_config_arguments(extra)
     check_config_files(["config/config.yaml", *config_files_among(rest)])   # plain YAML, before Snakemake
     # --samples and --results go to Snakemake as --config: command-line folders may lie anywhere
@@ -92,6 +94,16 @@ def _suite(args: argparse.Namespace, extra: list[str]) -> int:
     if lock is None:
         raise InputError("another run of the workflow is writing to this results folder; wait for it to finish",
                          args.results, "option --results")
+    try:
+        return _run_suite(args, command, rest, lock)
+    finally:
+        os.close(lock)
+
+
+def _run_suite(args: argparse.Namespace, command: list[str], rest: list[str], lock: int) -> int:
+    """Run the workflow holding the results folder's lock; the exit status of ``fabric2seis suite``."""
+    from pathlib import Path
+
     # a killed run leaves Snakemake's lock and its half-done jobs marked incomplete; no other suite
     # holds this folder now, so such a lock is stale: release it and run the unfinished jobs again
     # (every job's outputs are written whole, fabric2seis/folders.py)
@@ -107,7 +119,56 @@ def _suite(args: argparse.Namespace, extra: list[str]) -> int:
                          f"'snakemake' run on the same files?); wait for it, or release the lock with: "
                          f"fabric2seis suite --samples {args.samples} --results {args.results} --unlock",
                          args.results, "option --results")
+    if any(word in rest for word in ("-n", "--dry-run", "--dryrun", "--report", "--lint", "--list-rules")):
+        return status                       # no samples were run: nothing to tell
+    line, failed = suite_outcome(args.samples, args.results)
+    print(line, file=sys.stderr, flush=True)
+    if status == 0 and failed and args.strict:
+        return EXIT_FAILED_SAMPLES
     return status
+
+
+#: exit status of ``fabric2seis suite --strict`` when the workflow ran but a sample failed
+EXIT_FAILED_SAMPLES = 3
+
+
+def suite_outcome(samples: str, results: str) -> tuple[str, int]:
+    """One line on a suite's samples after a run: how many, how many ok, each failure with its reason.
+
+    Parameters
+    ----------
+    samples : str
+        The samples folder.
+    results : str
+        The results folder.
+
+    Returns
+    -------
+    tuple of (str, int)
+        The line, and how many samples failed or have no status yet.
+    """
+    from pathlib import Path
+
+    from fabric2seis.workflow.status import read_status
+    from fabric2seis.workflow.suite import discover_samples
+
+    try:
+        names = sorted(discover_samples(samples))
+    except ValueError as exc:
+        return f"fabric2seis suite: {exc}", 1
+    ok, failures = 0, []
+    for name in names:
+        try:
+            status = read_status(Path(results) / "status" / f"{name}.json")
+        except (OSError, ValueError):
+            failures.append(f"{name}: not run (see Snakemake's messages above)")
+            continue
+        if status.ok:
+            ok += 1
+        else:
+            failures.append(f"{name}: {status.status}")
+    line = f"fabric2seis suite: {len(names)} samples, {ok} ok, {len(failures)} failed"
+    return line + ("; " + "; ".join(failures) if failures else ""), len(failures)
 
 
 def _hold_results_folder(results: str) -> int | None:
@@ -119,7 +180,6 @@ def _hold_results_folder(results: str) -> int | None:
     """
     import fcntl
     import hashlib
-    import os
     from pathlib import Path
 
     key = hashlib.sha256(str(Path(results).resolve()).encode("utf-8", "surrogateescape")).hexdigest()[:16]
@@ -296,12 +356,20 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"fabric2seis {__version__}")
     commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
-    p = commands.add_parser("suite", help="run the Snakemake workflow over every sample in a folder; "
-                            "other arguments go to Snakemake unchanged")
+    p = commands.add_parser(
+        "suite", help="run the Snakemake workflow over every sample in a folder",
+        description="Run the Snakemake workflow over every sample in a folder, then print one line: samples, "
+                    "how many ok, and each failed sample with its one-line reason.",
+        epilog="Other arguments go to Snakemake unchanged; put them after '--' to be safe, e.g. "
+               "'fabric2seis suite -- --dry-run' or '-- --report results/report.html'. Exit status: 0 the "
+               "workflow ran (failed samples are rows of suite_summary.csv), 1 Snakemake failed, 2 bad input "
+               "or another suite holds the results folder, 3 with --strict when a sample failed, 130 "
+               "interrupted.")
     p.add_argument("--samples", default="demo_samples", metavar="DIR",
                    help="folder of EBSD exports (default demo_samples)")
     p.add_argument("--results", default="results", metavar="DIR", help="results folder (default results)")
     p.add_argument("--cores", default="2", metavar="N", help="cores for Snakemake (default 2)")
+    p.add_argument("--strict", action="store_true", help="exit with status 3 if any sample failed")
     p.set_defaults(run=_suite, takes_extra=True)
 
     p = commands.add_parser("sample", help="process one EBSD export into a results folder")

@@ -169,7 +169,7 @@ def write_json(path: Path, data: Any) -> None:
     path.write_text(json.dumps(data, indent=2, sort_keys=False, default=plain) + "\n")
 
 
-def fabric_figures(folder: Path, sample_name: str, fabric: FabricResult) -> None:
+def fabric_figures(folder: Path, sample_name: str, fabric: FabricResult, sample: Sample | None = None) -> None:
     """Draw pole figures, inverse pole figures and the convergence of the fabric indices.
 
     Parameters
@@ -180,17 +180,32 @@ def fabric_figures(folder: Path, sample_name: str, fabric: FabricResult) -> None
         Name shown on the figures.
     fabric : FabricResult
         The fabric stage; nothing is drawn when it has no phase.
+    sample : Sample, optional
+        The ingested sample: its settings (``figures.poles``, ``figures.pole_hemisphere``,
+        ``figures.pole_levels``) and its counts of grains and points per mineral. Without it, the
+        defaults and the number of orientations.
     """
-    from fabric2seis.fabric import default_poles
+    from fabric2seis.fabric.poles import figure_poles
     from fabric2seis.figures.poles import convergence_figure, inverse_pole_figures, pole_figures
 
     if not fabric.phases:
         return
+    chosen = ((sample.settings if sample is not None else {}).get("figures") or {})
     phases = [(p.orientations.mineral, p.orientations.quat, p.orientations.weights,
-               default_poles(p.orientations.mineral)) for p in fabric.phases.values()]
-    pole_figures(folder / "pole_figures", sample_name, phases, fabric.halfwidth_deg, fabric.weighting)
+               figure_poles(p.orientations.mineral, chosen.get("poles"))) for p in fabric.phases.values()]
+    counts: dict = {"noun": "grains"}
+    if sample is not None:
+        names = [m.name for m in sample.points.minerals]
+        points = np.bincount(sample.points.mineral_index, minlength=len(names))
+        if sample.grains is not None:
+            grains = np.bincount(sample.grains.mineral_index, minlength=len(names))
+            counts = {"noun": "points" if fabric.weighting == "area" else "grains",
+                      "grain_counts": dict(zip(names, grains.tolist())),
+                      "point_counts": dict(zip(names, points.tolist()))}
+    pole_figures(folder / "pole_figures", sample_name, phases, fabric.halfwidth_deg, fabric.weighting,
+                 hemisphere=chosen.get("pole_hemisphere", "lower"), levels=chosen.get("pole_levels"), **counts)
     inverse_pole_figures(folder / "inverse_pole_figures", sample_name, phases, fabric.halfwidth_deg,
-                         fabric.weighting)
+                         fabric.weighting, levels=chosen.get("pole_levels"), **counts)
     convergence_figure(folder / "fabric_convergence", sample_name,
                        {name: p.convergence for name, p in fabric.phases.items()})
 
@@ -226,13 +241,15 @@ def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, s
     InputError
         If the destination is refused (:func:`folders.check_destination`).
     """
+    from fabric2seis.figures.map_overview import map_overview_figure
     from fabric2seis.ingest.grains import grains_table
 
     agg = seismic.aggregate
     with folder_written_whole(out, "sample", inputs, results_root) as tmp:
         write_json(tmp / "summary.json", summary)
         log.say("writing tables and figures")
-        fabric_figures(tmp, sample.name, fabric)
+        fabric_figures(tmp, sample.name, fabric, sample)
+        map_overview_figure(tmp / "map_overview", sample)     # maps only: a grain list has no map
         write_json(tmp / "stiffness.json", {
             **{k: np.round(v, 6).tolist() for k, v in agg.tensors.items()},
             "density_kg_m3": round(agg.density_kg_m3, 3), "units": "GPa, Voigt order 11 22 33 23 13 12",
@@ -240,10 +257,11 @@ def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, s
         seismic.grid.table().to_csv(tmp / "velocities.csv", index=False)
         if seismic.sweep is not None and seismic.field is not None:
             _write_sweep(tmp, sample.name, seismic)
-        from fabric2seis.figures.velocities import velocity_figure
+        from fabric2seis.figures.velocities import DEFAULT_PANELS, velocity_figure
 
+        panels = (sample.settings.get("figures") or {}).get("velocities", {}).get("panels", DEFAULT_PANELS)
         velocity_figure(tmp / "velocities", sample.name, agg.stiffness, agg.density_kg_m3, agg.average,
-                        int(summary["n_grains"]))
+                        int(summary["n_grains"]), panels=panels, grid=seismic.grid)
         write_json(tmp / "provenance.json", provenance(path, sample))
         if sample.grains is not None:
             grains_table(sample.grains, sample.points.minerals).to_csv(tmp / "grains.csv", index=False)

@@ -46,3 +46,51 @@ def test_the_readmes_python_example_runs():
     exec(code.replace("print(", "found = ("), scope)
     vp_max, avs_max = scope["found"]
     assert 8.0 < vp_max < 8.6 and 0.0 < avs_max < 5.0
+
+
+def _fake_suite(tmp_path, monkeypatch, outcomes):
+    """A project folder whose Snakemake run is replaced by writing the given status files."""
+    from fabric2seis import cli
+    from fabric2seis.workflow.status import SampleStatus, write_status
+
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "Snakefile").write_text("")
+    (tmp_path / "config").mkdir(exist_ok=True)
+    (tmp_path / "config" / "config.yaml").write_text("{}\n")
+    (tmp_path / "s").mkdir(exist_ok=True)
+    for name in outcomes:
+        (tmp_path / "s" / f"{name}.csv").write_text("")
+    commands = []
+
+    def snakemake(command, lock=None, quiet=False):
+        commands.append(command)
+        for name, status in outcomes.items():
+            if status is not None:
+                write_status(tmp_path / "r" / "status" / f"{name}.json", SampleStatus(name, status))
+        return 0, False
+
+    monkeypatch.setattr(cli, "_snakemake", snakemake)
+    return commands
+
+
+def test_suite_ends_with_one_line_naming_each_failed_sample_and_strict_exits_3(tmp_path, monkeypatch, capsys):
+    # issue 14: a failed sample is never silent; --strict makes it a non-zero exit (documented codes)
+    from fabric2seis.cli import EXIT_FAILED_SAMPLES, main
+
+    outcomes = {"a": "ok", "b": "b.csv, line 3: not a number", "c": None}
+    commands = _fake_suite(tmp_path, monkeypatch, outcomes)
+    assert main(["suite", "--samples", "s", "--results", "r", "--", "--keep-going"]) == 0
+    err = capsys.readouterr().err.strip().splitlines()
+    assert err[-1] == ("fabric2seis suite: 3 samples, 1 ok, 2 failed; b: b.csv, line 3: not a number; "
+                       "c: not run (see Snakemake's messages above)")
+    assert "--keep-going" in commands[0] and "--" not in commands[0]     # '--' is not passed on
+    assert main(["suite", "--samples", "s", "--results", "r", "--strict"]) == EXIT_FAILED_SAMPLES == 3
+    _fake_suite(tmp_path, monkeypatch, {"a": "ok", "b": "ok", "c": "ok"})
+    assert main(["suite", "--samples", "s", "--results", "r", "--strict"]) == 0
+    assert capsys.readouterr().err.strip().endswith("3 samples, 3 ok, 0 failed")
+
+
+def test_suite_help_says_where_snakemakes_arguments_go_and_the_exit_codes():
+    out = run("suite", "--help")
+    assert out.returncode == 0 and "'--'" in out.stdout and "--strict" in out.stdout
+    assert "3 with --strict" in " ".join(out.stdout.split())

@@ -51,7 +51,7 @@ def test_map_gives_summary_grains_and_provenance(tmp_path, small_map, capsys):
         phase = s["phases"][mineral]
         assert {"J", "M", "pfJ", "eigen"} <= set(phase) and phase["J"] >= 1.0  # CONTRACT.md keys
         assert set(phase["pfJ"]) == {"[100]", "[010]", "[001]"} and phase["fabric_weighting"] == "grain"
-    for figure in ("pole_figures", "inverse_pole_figures", "fabric_convergence"):
+    for figure in ("map_overview", "pole_figures", "inverse_pole_figures", "fabric_convergence"):
         assert (tmp_path / "res" / f"{figure}.png").stat().st_size > 1000
         assert (tmp_path / "res" / f"{figure}.pdf").exists()
     prov = json.loads((tmp_path / "res" / "provenance.json").read_text())
@@ -75,6 +75,7 @@ def test_grain_list_weights_and_unindexed_rows(tmp_path, small_map):
     s = json.loads((tmp_path / "r" / "summary.json").read_text())
     assert s["n_points"] == 37 and s["dropped"]["unindexed_points"] == 3
     assert not (tmp_path / "r" / "grains.csv").exists()
+    assert not (tmp_path / "r" / "map_overview.png").exists()      # a grain list has no map
 
 
 def test_quality_threshold_drops_points(tmp_path, small_map):

@@ -71,18 +71,22 @@ def default_poles(mineral) -> list[str]:
 
 
 #: the poles the trade draws for each mineral (common practice of published fabric studies: olivine
-#: and orthopyroxene on their axes, clinopyroxene [001] with the (010) and (100) poles, amphibole
-#: likewise, plagioclase (010), (001) and [100], micas their basal plane (001) and [100], quartz the
-#: c-axis, a-axes and the poles of the positive and negative rhombs r {10-11} and z {01-11}, calcite
-#: c, a and the cleavage rhomb r {10-14} of the structural cell, ice c and a). Minerals not listed
-#: here are drawn on ``default_poles``.
+#: and orthopyroxene on their axes, clinopyroxenes [001] with the (010) and (100) poles, amphibole
+#: likewise, plagioclase (010), (001) and [100], micas and chlorite their basal plane (001) and
+#: [100], quartz the c-axis, a-axes and the poles of the positive and negative rhombs r {10-11} and
+#: z {01-11}, calcite c, a and the cleavage rhomb r {10-14} of the structural cell, ice c and a).
+#: Minerals not listed here are drawn on ``default_poles``.
 FIGURE_POLES: dict[str, tuple[str, ...]] = {
     "olivine": ("[100]", "[010]", "[001]"),
     "enstatite": ("[100]", "[010]", "[001]"),
     "diopside": ("[001]", "(010)", "(100)"),
+    "jadeite": ("[001]", "(010)", "(100)"),
     "hornblende": ("[001]", "(100)", "(010)"),
     "albite": ("(010)", "(001)", "[100]"),
+    "andesine": ("(010)", "(001)", "[100]"),
     "muscovite": ("(001)", "[100]"),
+    "biotite": ("(001)", "[100]"),
+    "chlorite": ("(001)", "[100]"),
     "quartz": ("c [0001]", "a [2-1-10]", "r (10-11)", "z (01-11)"),
     "calcite": ("c [0001]", "a [2-1-10]", "r (10-14)"),
     "ice": ("c [0001]", "a [2-1-10]"),

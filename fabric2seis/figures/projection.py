@@ -2,7 +2,12 @@
 
 A viewer who sees X to the right and Z at the top looks along +Y; the hemisphere away from the
 viewer, y >= 0, is projected (the 'lower' hemisphere of this view). Directions are axial, so a
-vector with y < 0 is replaced by its opposite. The primitive circle has radius 1.
+vector with y < 0 is replaced by its opposite. The primitive circle has radius 1. The 'upper'
+hemisphere (y <= 0, towards the viewer) keeps X right and Z up: each axis is drawn where its end
+with y <= 0 falls, so the picture is the lower one turned half a circle about the centre.
+
+Every projection says which it is: ``projection_note`` writes "lower hemisphere, equal area" (and
+the frame) under a panel or at the foot of a figure; ``projection_text`` gives the words alone.
 """
 
 from __future__ import annotations
@@ -12,15 +17,28 @@ import numpy as np
 
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
+from matplotlib.axes import Axes  # noqa: E402
+from matplotlib.text import Text  # noqa: E402
+
+#: the hemispheres a projection can show (settings key ``figures.pole_hemisphere``)
+HEMISPHERES = ("lower", "upper")
 
 
-def project(v: np.ndarray) -> np.ndarray:
+def _check_hemisphere(hemisphere: str) -> str:
+    if hemisphere not in HEMISPHERES:
+        raise ValueError(f"hemisphere must be one of {HEMISPHERES}, got {hemisphere!r}")
+    return hemisphere
+
+
+def project(v: np.ndarray, hemisphere: str = "lower") -> np.ndarray:
     """Project axial unit vectors to screen coordinates (equal area, Y at the centre).
 
     Parameters
     ----------
     v : array_like, shape (N, 3)
         Unit vectors in the structural frame; their sign is ignored.
+    hemisphere : {"lower", "upper"}
+        Which half is shown: y >= 0 (away from the viewer) or y <= 0.
 
     Returns
     -------
@@ -33,17 +51,21 @@ def project(v: np.ndarray) -> np.ndarray:
     """
     v = np.asarray(v, dtype=float)
     v = np.where(v[..., 1:2] < 0, -v, v)
+    if _check_hemisphere(hemisphere) == "upper":       # the other end of each axis, seen from the same side
+        v = -v * np.array([1.0, -1.0, 1.0])
     scale = np.sqrt(1.0 / (1.0 + v[..., 1]))          # sqrt(2/(1+y)) / sqrt(2)
     return np.stack([v[..., 0] * scale, v[..., 2] * scale], axis=-1)
 
 
-def disk_grid(n: int = 161) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Build a square grid of screen points, their directions (y >= 0) and a mask of the unit disk.
+def disk_grid(n: int = 161, hemisphere: str = "lower") -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Build a square grid of screen points, their directions and a mask of the unit disk.
 
     Parameters
     ----------
     n : int
         Points along each side of the grid.
+    hemisphere : {"lower", "upper"}
+        Directions with y >= 0 (lower) or y <= 0 (upper), as ``project`` draws them.
 
     Returns
     -------
@@ -61,7 +83,8 @@ def disk_grid(n: int = 161) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndar
     r2 = np.minimum(rho2, 1.0) * 2.0                   # back to Lambert radius squared
     y = 1.0 - r2 / 2.0
     f = np.sqrt(np.maximum(1.0 - r2 / 4.0, 0.0)) * np.sqrt(2.0)
-    dirs = np.stack([a * f, y, b * f], axis=-1)
+    sign = -1.0 if _check_hemisphere(hemisphere) == "upper" else 1.0
+    dirs = np.stack([a * f, sign * y, b * f], axis=-1)
     dirs /= np.linalg.norm(dirs, axis=-1, keepdims=True)
     return a, b, dirs, inside
 
@@ -89,6 +112,82 @@ def frame_axes(ax, labels=("X", "Z", "Y")) -> None:
     ax.axis("off")
 
 
+def projection_text(hemisphere: str = "lower", frame: str | None = None) -> str:
+    """The words that say what a projection shows: "lower hemisphere, equal area" and the frame.
+
+    Parameters
+    ----------
+    hemisphere : {"lower", "upper"}
+        The half of the sphere drawn.
+    frame : str, optional
+        The frame, added after a comma (``"structural frame"``).
+
+    Returns
+    -------
+    str
+        For example ``"lower hemisphere, equal area, structural frame"``.
+    """
+    text = f"{_check_hemisphere(hemisphere)} hemisphere, equal area"
+    return f"{text}, {frame}" if frame else text
+
+
+def projection_note(target, hemisphere: str = "lower", frame: str | None = None, **style) -> Text:
+    """Say on a figure or under a panel which hemisphere and which projection is drawn.
+
+    On a panel (an Axes) the note goes just under it, centred; on a figure (or subfigure) it is the
+    line at its foot (``supxlabel``, which constrained layout keeps clear of the panels), after
+    any text already there.
+
+    Parameters
+    ----------
+    target : matplotlib.axes.Axes or matplotlib.figure.Figure or matplotlib.figure.SubFigure
+        Where the note goes.
+    hemisphere : {"lower", "upper"}
+        The half of the sphere drawn.
+    frame : str, optional
+        The frame, named after the projection (``"structural frame"``).
+    **style
+        Text properties that replace the defaults (font size 7, dark grey).
+
+    Returns
+    -------
+    matplotlib.text.Text
+        The note.
+    """
+    text = projection_text(hemisphere, frame)
+    props = {"fontsize": 7, "color": "0.25", **style}
+    if isinstance(target, Axes):
+        return target.text(0.5, -0.01, text, transform=target.transAxes, ha="center", va="top", **props)
+    before = target.get_supxlabel()
+    return target.supxlabel(f"{before}\n{text}" if before else text, **props)
+
+
+def trend_plunge_text(direction: np.ndarray) -> str:
+    """An axis of the structural frame as trend/plunge, ``"ttt/pp"`` in whole degrees.
+
+    Trend from X (lineation) towards Y, 0 to 360 degrees (0 to 180 for a horizontal axis); plunge
+    below the XY (foliation) plane, 0 to 90 degrees; of the axis's end with z <= 0 (CONVENTIONS.md).
+
+    Parameters
+    ----------
+    direction : array_like, shape (3,)
+        The axis; its sign and length are ignored.
+
+    Returns
+    -------
+    str
+        For example ``"090/05"``.
+    """
+    v = np.asarray(direction, dtype=float)
+    v = v / np.linalg.norm(v)
+    v = -v if v[2] > 0 else v
+    plunge = int(round(np.degrees(np.arcsin(np.clip(-v[2], 0.0, 1.0)))))
+    trend = int(round(np.degrees(np.arctan2(v[1], v[0])))) % 360
+    if plunge == 0:
+        trend %= 180
+    return f"{trend:03d}/{plunge:02d}"
+
+
 def save(fig, stem) -> list[str]:
     """Write ``stem``.png and ``stem``.pdf and close the figure.
 
@@ -109,5 +208,7 @@ def save(fig, stem) -> list[str]:
         path = f"{stem}.{ext}"
         fig.savefig(path, dpi=150, bbox_inches="tight")
         out.append(path)
+        if fig.get_layout_engine() is not None:
+            fig.set_layout_engine("none")     # the first file's layout holds for the second: computed once
     plt.close(fig)
     return out

@@ -217,7 +217,8 @@ def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_mi
     dropped = None
     if data.x is not None and data.y is not None:
         out = ~keep
-        dropped = DroppedPoints(data.x[out], data.y[out], np.where(indexed[out], LOW_QUALITY, NOT_INDEXED).astype(np.int8))
+        reason = np.where(indexed[out], LOW_QUALITY, NOT_INDEXED).astype(np.int8)
+        dropped = DroppedPoints(data.x[out], data.y[out], reason)
     return PointSet(
         source=data.source, quat=kept(data.quat), mineral_index=mineral_index, minerals=minerals,
         x=kept(data.x), y=kept(data.y), weights=weights, n_read=data.n_points,

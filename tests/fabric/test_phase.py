@@ -37,8 +37,21 @@ def test_a_type_fabric_has_its_maxima_on_the_structural_axes():
 def test_convergence_reports_nested_subsets():
     q = fabric_orientations(OLIVINE, "olivine-A", 1200, 15.0, seed=2)
     c = fabric.convergence(OLIVINE, q, np.ones(1200))
-    assert [r["n"] for r in c["rows"]] == [100, 200, 500, 1000, 1200]
-    assert isinstance(c["j_levelled"], bool)
+    assert [r["n"] for r in c["rows"]] == [5, 7, 10, 15, 20, 30, 50, 70, 100, 200, 500, 1000, 1200]
+    # levelled off: less than 5 % over the last step of the 100-200-500 series (common practice)
+    j = {r["n"]: r["J"] for r in c["rows"]}
+    assert c["j_levelled"] == (abs(j[1200] - j[1000]) < 0.05 * j[1200])
+    # the rows are nested prefixes of one shuffle: a subset's J does not depend on the sizes asked
+    order = np.random.default_rng(0).permutation(1200)
+    assert j[200] == pytest.approx(fabric.j_index(q[order[:200]], np.ones(200), OLIVINE.symmetry), rel=1e-12)
+
+
+def test_convergence_has_six_sizes_from_21_grains_and_no_judgement_below_100():
+    # enough points to show a trend (at least six); J is judged only on a step of 100 grains or more
+    q = fabric_orientations(OLIVINE, "olivine-A", 60, 15.0, seed=2)
+    c = fabric.convergence(OLIVINE, q[:21], np.ones(21))
+    assert len(c["rows"]) == 6 and c["rows"][-1]["n"] == 21
+    assert fabric.convergence(OLIVINE, q, np.ones(60))["j_levelled"] is False
 
 
 def _fresh_random_indices(mineral, n, n_sets, seed):

@@ -4,6 +4,9 @@ import json
 from pathlib import Path
 
 from fabric2seis.settings import sidecar_of
+from fabric2seis import __version__
+from fabric2seis.workflow.report_files import (discover_stacks, entry_title, field_entry_labels, sample_entry_labels,
+                                               suite_labels)
 from fabric2seis.workflow.status import results_state
 from fabric2seis.workflow.suite import discover_measurements, discover_samples
 
@@ -11,6 +14,7 @@ SAMPLES_DIR = config.get("samples_dir", "demo_samples")
 RESULTS = config.get("results_dir", "results")
 SAMPLES = discover_samples(SAMPLES_DIR)
 MEASUREMENTS = discover_measurements(SAMPLES_DIR)
+STACKS = discover_stacks(RESULTS)     # folders of `fabric2seis field --stack` in the results, for the report
 
 
 def sample_input(wildcards):
@@ -49,3 +53,31 @@ def optics_results_check(wildcards):
 def report_labels(wildcards):
     """Labels of a file in a sample's report folder: the sample, and its figure's or table's name."""
     return {"sample": wildcards.sample, "content": wildcards.get("figure") or wildcards.get("table")}
+
+
+def sample_report_labels(wildcards, input):
+    """Labels of an entry of a sample in the report: what it shows, the sample, its status (report_files)."""
+    table = not wildcards.get("figure")
+    return sample_entry_labels(wildcards.sample, wildcards.get("table") if table else wildcards.get("figure"),
+                               input.status, table)
+
+
+def overview_labels(wildcards, output):
+    """Labels of the suite overview in the report: the fabric2seis version and the settings digest of the run."""
+    return suite_labels("suite_overview", output.about)
+
+
+def field_subcategory(wildcards):
+    """The station of an entry of the field comparison, or "all stations"."""
+    return f"station {wildcards.station}" if wildcards.get("station") else "all stations"
+
+
+def field_labels(wildcards):
+    """Labels of an entry of the field comparison: what it shows and the sample (report_files)."""
+    return field_entry_labels(wildcards)
+
+
+def content_labels(wildcards):
+    """Labels of an entry named by its file alone: what it shows."""
+    table = not wildcards.get("figure")
+    return {"content": entry_title(wildcards.get("table") if table else wildcards.get("figure"), table)}

@@ -4,7 +4,8 @@ rule field:
         status=expand(f"{RESULTS}/status/{{sample}}.json", sample=sorted(SAMPLES)),
         measurements=MEASUREMENTS[0] if MEASUREMENTS else [],
     output:
-        fits=report(f"{RESULTS}/field/field_fit.json", caption="../report/field.rst", category="Field"),
+        fits=report(f"{RESULTS}/field/field_fit.json", caption="../report/field.rst", category="Field comparison",
+                    subcategory="all stations", labels={"content": "field fit (JSON)", "sample": "all"}),
         table=f"{RESULTS}/field/predictions.csv",
     params:
         out=lambda wildcards, output: str(Path(output.fits).parent),

@@ -3,8 +3,10 @@ rule suite_summary:
     input:
         expand(f"{RESULTS}/status/{{sample}}.json", sample=sorted(SAMPLES)),
     output:
-        table=report(f"{RESULTS}/suite_summary.csv", caption="../report/suite_summary.rst", category="Suite"),
-        figure=report(f"{RESULTS}/suite_comparison.png", caption="../report/suite_comparison.rst", category="Suite"),
+        table=report(f"{RESULTS}/suite_summary.csv", caption="../report/suite_summary.rst", category="Suite",
+                     subcategory="all samples", labels={"content": "suite summary (table)"}),
+        figure=report(f"{RESULTS}/suite_comparison.png", caption="../report/suite_comparison.rst", category="Suite",
+                      subcategory="all samples", labels={"content": "suite comparison"}),
     log:
         f"{RESULTS}/logs/suite_summary.log",
     benchmark:

@@ -23,6 +23,9 @@ from fabric2seis.ingest.io.text import line_of_row, plain_text_file, read_number
 
 CORE_COLUMNS = (0, 1, 2, 3, 4, 7)      # phi1, Phi, phi2, x, y, phase id
 
+#: the angle (radians) a point not indexed carries in all three Euler columns
+NOT_INDEXED_ANGLE = 4.0 * np.pi
+
 
 def _header(path: Path) -> list[str]:
     lines = []
@@ -69,6 +72,9 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
         def where(row: int) -> str:
             return line_of_row(plain, first_line, row, "#")
 
+        # a point not indexed carries 4 pi in all three angles (EDAX/TSL and orix's writer; common practice)
+        marked = np.all(np.abs(values[:, :3] - NOT_INDEXED_ANGLE) < 1e-4, axis=1)
+        values[marked, :3] = 0.0
         check_angles(values[:, :3], "radians", path, where, "columns 1-3 (phi1, Phi, phi2)")
         extra = [c for c in range(values.shape[1]) if c not in CORE_COLUMNS]
         phase_id = check_phase_ids(values[:, 7], path, where)
@@ -77,6 +83,7 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
         columns = dict(zip(props, extra))
         if "ci" in columns:
             phase_id[values[:, columns["ci"]] == -1] = -1
+        phase_id[marked] = -1
         places = {"grid": _header_place(header, "GRID"), "step": _header_place(header, "XSTEP"),
                   "points": _header_place(header, "NROWS")}
         grid, step = check_map(values[:, 3], values[:, 4], path, _declared_grid(header),

@@ -1,8 +1,10 @@
-"""No two texts of a figure of the demo sit on one another (pole, velocity, splitting, field and suite figures).
+"""No two texts of a figure of the demo sit on one another (every figure the commands write).
 
 The commands run in-process on three demo samples (a map with three phases, two of them with fewer
 than 100 grains; a grain list; a quartz map with four hexagonal poles), the field comparison on one
-of them, and the suite figure on the three. While they run, every text matplotlib draws is
+of them, a two-layer stack over the grain list (as docs/examples/two_layer_stack.yaml does over
+the dunite), the predicted crossed-polar view of the quartz map, and the suite figure on the three.
+While they run, every text matplotlib draws is
 recorded with its box on the page (``Text.draw``), and each PNG written (``Figure.savefig``)
 gets the list of pairs of boxes that overlap by more than ``TOLERANCE_PX`` in both directions.
 The check is on what is drawn, so tick labels outside the view, empty texts and hidden texts do
@@ -85,6 +87,12 @@ def overlaps(tmp_path_factory) -> dict[str, list[str]]:
             assert cli.main(["sample", str(DEMO / name), "--out", str(out / Path(name).stem)]) == 0
         assert cli.main(["field", str(out / "VM04_grain_list"), "--measurements", str(DEMO / "field_measurements.csv"),
                          "--out", str(out / "field")]) == 0
+        stack = out / "two_layers.yaml"        # paths in a stack file are relative to it
+        stack.write_text("period_s: 8\nincidence_deg: 10\nlayers:\n  - result: VM04_grain_list\n    thickness_km: 60\n"
+                         "  - name: crust\n    fast_azimuth_deg: 120\n    delay_s: 0.4\n", encoding="utf-8")
+        assert cli.main(["field", "--stack", str(stack), "--measurements", str(DEMO / "field_measurements.csv"),
+                         "--out", str(out / "stack")]) == 0
+        assert cli.main(["optics", str(DEMO / "VM05_quartz_mylonite.ctf"), "--out", str(out / "optics")]) == 0
         suite_figure(out / "suite_comparison", suite_table([out / Path(n).stem / "summary.json" for n in SAMPLES]))
     return results
 
@@ -124,10 +132,12 @@ def test_other_figures_of_a_sample_have_no_overlapping_text(overlaps, sample, fi
     _check(overlaps, f"{sample}/{figure}")
 
 
-def test_field_and_suite_figures_have_no_overlapping_text(overlaps):
+def test_field_stack_optics_and_suite_figures_have_no_overlapping_text(overlaps):
     # every figure the field comparison writes, the suite comparison, and any other figure written
     listed = {f"{Path(s).stem}/{f}" for s in SAMPLES for f in REPORT_FIGURES}
     rest = sorted(f for f in overlaps if f not in listed)
-    assert any(f.startswith("field/") for f in rest) and "suite_comparison" in rest
+    for kind in ("field/", "stack/", "optics/"):
+        assert any(f.startswith(kind) for f in rest), f"no {kind} figure was written (written: {rest})"
+    assert "suite_comparison" in rest
     bad = {f: overlaps[f] for f in rest if overlaps[f]}
     assert not bad, "texts overlap: " + " | ".join(f"{f}.png: " + "; ".join(v) for f, v in bad.items())

@@ -23,7 +23,7 @@ def _minerals(args: argparse.Namespace) -> int:
         print(f"{'name':<12} {'point group':<11} {'density':>12}  {'checked':<8} {'constants':<26} source")
         for m in library.values():
             checked = "yes" if not m.from_memory else "partly"
-            print(f"{m.name:<12} {m.point_group:<11} {m.density_kg_m3:>7.0f} kg/m3  {checked:<8} "
+            print(f"{m.name:<12} {m.point_group:<11} {m.density_kg_m3:>7.0f} kg/m³  {checked:<8} "
                   f"{constants_status(m):<26} {m.source.split(';')[0]}")
         print("\n'checked: partly' means some fields were recalled without the source at hand; "
               "'fabric2seis minerals NAME' lists which. 'constants': read in the source, or recalled and "
@@ -308,7 +308,7 @@ def describe_mineral(m) -> str:
     lines = [
         f"{m.name}  (aliases: {', '.join(m.aliases) or 'none'})",
         f"  point group     {m.point_group}" + (f", {m.unique_axis} unique" if m.unique_axis else ""),
-        f"  density         {m.density_kg_m3:.1f} kg/m^3",
+        f"  density         {m.density_kg_m3:.1f} kg m^-3",
         f"  lattice         a {lat['a']} b {lat['b']} c {lat['c']} angstrom, "
         f"alpha {lat['alpha']} beta {lat['beta']} gamma {lat['gamma']} degrees",
         f"  source          {m.source}",

@@ -106,7 +106,7 @@ class SeismicResult:
     Attributes
     ----------
     aggregate
-        The four averages (6, 6) in GPa and the density in kg/m^3.
+        The four averages (6, 6) in GPa and the density in kg m^-3.
     grid
         Velocities (km/s) over the lower hemisphere.
     summary

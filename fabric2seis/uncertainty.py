@@ -230,7 +230,7 @@ def seismic_bootstrap(grain_sets, fractions: dict, average: str, density_kg_m3: 
     average : {"voigt", "reuss", "hill", "geometric"}
         The average the statistics are computed from.
     density_kg_m3 : float
-        Density of the rock, kg/m^3.
+        Density of the rock, kg m^-3.
     counts : dict of str to numpy.ndarray, each shape (B, N)
         Draw counts of each mineral's grains in every resample (:func:`resample_counts`).
     crystal_tensors : dict, optional
@@ -308,7 +308,7 @@ def seismic_intervals(grain_sets, fractions: dict, average: str, density_kg_m3: 
     average : {"voigt", "reuss", "hill", "geometric"}
         The average the statistics are computed from.
     density_kg_m3 : float
-        Density of the rock, kg/m^3.
+        Density of the rock, kg m^-3.
     counts : dict of str to numpy.ndarray, each shape (B, N)
         Draw counts of each mineral's grains in every resample (:func:`resample_counts`).
     crystal_tensors : dict, optional
@@ -387,7 +387,7 @@ def random_aggregate_floor(grain_sets, fractions: dict, average: str, density_kg
     average : {"voigt", "reuss", "hill", "geometric"}
         The average the statistics are computed from.
     density_kg_m3 : float
-        Density of the rock, kg/m^3.
+        Density of the rock, kg m^-3.
     crystal_tensors : dict, optional
         Per mineral, its Kelvin ``"stiffness"`` (GPa), ``"compliance"`` (1/GPa) and ``"log"``
         (each (6, 6)) as the aggregate used them (``Aggregate.crystal_matrices``).

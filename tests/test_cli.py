@@ -13,7 +13,7 @@ def test_minerals_lists_every_entry_with_density_and_source():
     assert out.returncode == 0, out.stderr
     for name in ("olivine", "quartz", "ice", "muscovite"):
         assert name in out.stdout
-    assert "kg/m3" in out.stdout and "Abramson" in out.stdout
+    assert "kg/m³" in out.stdout and "Abramson" in out.stdout
 
 
 def test_minerals_shows_one_entry_in_full():

@@ -105,7 +105,7 @@ def density_at(rho0: float, pressure_gpa: float, temperature_c: float, k0_gpa: f
     Parameters
     ----------
     rho0 : float
-        Density at the reference conditions, kg/m^3.
+        Density at the reference conditions, kg m^-3.
     pressure_gpa : float
         Pressure counted from the reference pressure, GPa.
     temperature_c : float
@@ -122,7 +122,7 @@ def density_at(rho0: float, pressure_gpa: float, temperature_c: float, k0_gpa: f
     Returns
     -------
     float
-        Density, kg/m^3.
+        Density, kg m^-3.
 
     Raises
     ------
@@ -215,7 +215,7 @@ def at_conditions(mineral, pressure_gpa: float, temperature_c: float,
     stiffness : numpy.ndarray, shape (6, 6)
         Voigt stiffness, GPa.
     density : float
-        Density, kg/m^3.
+        Density, kg m^-3.
 
     Raises
     ------

@@ -198,7 +198,7 @@ def thomsen_parameters(c_ti: np.ndarray, axis: np.ndarray, density_kg_m3: float)
     axis : array_like, shape (3,)
         Its symmetry axis (normalised here).
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
 
     Returns
     -------
@@ -236,7 +236,7 @@ def decomposition_summary(c: np.ndarray, density_kg_m3: float) -> dict:
     c : numpy.ndarray, shape (6, 6)
         Voigt stiffness, GPa.
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
 
     Returns
     -------

@@ -190,7 +190,7 @@ def extremes(c: np.ndarray | None, density_kg_m3: float | None, panels: Sequence
     c : numpy.ndarray, shape (6, 6), or None
         Voigt stiffness, GPa, structural frame; None: the grid values, unrefined.
     density_kg_m3 : float or None
-        Density, kg/m^3.
+        Density, kg m^-3.
     panels : sequence of str
         Names from :data:`PANELS`.
     grid : fabric2seis.waves.seismic.VelocityGrid, optional
@@ -269,7 +269,7 @@ def velocity_sheet(c: np.ndarray, density_kg_m3: float, *, sample_name: str = ""
     c : numpy.ndarray, shape (6, 6)
         Voigt stiffness, GPa, structural frame.
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
     sample_name, average : str
         Sample and average named in the header.
     n_grains : int, optional
@@ -334,7 +334,7 @@ def velocity_figure(stem, sample_name: str, c: np.ndarray, density_kg_m3: float,
     c : numpy.ndarray, shape (6, 6)
         Voigt stiffness, GPa, structural frame.
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
     average : str
         Name of the average ``c`` is, shown in the header.
     n_grains : int

@@ -3,7 +3,7 @@
 For a unit propagation direction n the Christoffel matrix is ``Gamma_ik = C_ijkl n_j n_l``;
 ``rho v^2 p = Gamma p`` gives three phase velocities with orthogonal polarisations p. The
 largest root is Vp, the other two Vs1 > Vs2 (CONVENTIONS.md). Stiffness is in GPa, density in
-kg/m^3 and velocities in km/s: ``v = sqrt(1e3 * lambda_gpa / rho_kg_m3)``.
+kg m^-3 and velocities in km/s: ``v = sqrt(1e3 * lambda_gpa / rho_kg_m3)``.
 
 All functions are vectorised over many directions.
 """
@@ -22,7 +22,7 @@ __all__ = [
     "direction_from_angles", "to_lower_hemisphere",
 ]
 
-#: km^2/s^2 per (GPa / (kg/m^3))
+#: km^2/s^2 per (GPa / (kg m^-3))
 _GPA_PER_DENSITY_TO_KM2_S2 = 1.0e3
 #: largest third-order error of speeds_near, relative to the roots (else it solves exactly)
 SPEEDS_NEAR_TOLERANCE = 1e-8
@@ -105,7 +105,7 @@ def speeds_near(c_reference: np.ndarray, c_voigt: np.ndarray, density_kg_m3: flo
     c_voigt : numpy.ndarray, shape (B, 6, 6)
         Voigt stiffnesses to solve, GPa.
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
     directions : numpy.ndarray, shape (M, 3)
         Propagation directions (normalised here).
 
@@ -198,7 +198,7 @@ def plane_waves(c_voigt: np.ndarray, density_kg_m3: float, directions: np.ndarra
     c_voigt : numpy.ndarray, shape (6, 6)
         Voigt stiffness, GPa.
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
     directions : numpy.ndarray, shape (M, 3) or (3,)
         Propagation directions (normalised here).
 
@@ -323,7 +323,7 @@ def group_velocities(c_voigt: np.ndarray, density_kg_m3: float, waves: PlaneWave
     c_voigt : numpy.ndarray, shape (6, 6)
         Voigt stiffness the plane waves were solved for, GPa.
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
     waves : PlaneWaves
         Christoffel solutions for M directions (:func:`plane_waves`).
 

@@ -182,7 +182,7 @@ def read_result(folder: str | Path) -> SampleTensor:
     Returns
     -------
     SampleTensor
-        The stiffness used for velocities (6, 6, GPa), density (kg/m^3), the sample's own field
+        The stiffness used for velocities (6, 6, GPa), density (kg m^-3), the sample's own field
         settings, and its 95 % interval of the delay per 100 km along Z (s) where it was bootstrapped.
 
     Raises
@@ -213,7 +213,7 @@ def read_result(folder: str | Path) -> SampleTensor:
     c = elastic.check_stiffness(c, str(source), f"key {used}")
     density = _positive_number(stiff.get("density_kg_m3"))
     if density is None:
-        raise InputError("the density must be a positive number of kg/m^3", source, "key density_kg_m3")
+        raise InputError("the density must be a positive number of kg m^-3", source, "key density_kg_m3")
     if not isinstance(summary.get("sample"), str):
         raise InputError("no sample name", folder / "summary.json", "key sample")
     settings = prov.get("settings")
@@ -276,7 +276,7 @@ def predict_many(c_list: list[np.ndarray], density: float, baz, incidence) -> tu
     c_list : list of numpy.ndarray
         T Voigt stiffnesses (6, 6) in GPa, north-east-down.
     density : float
-        Density, kg/m^3.
+        Density, kg m^-3.
     baz, incidence : array_like
         M back-azimuths and incidences (degrees; incidence in [0, 90)), of equal length or one a
         single value.
@@ -305,7 +305,7 @@ def predict_turned(c_geographic: np.ndarray, density: float, turns_deg, baz,
     c_geographic : numpy.ndarray
         Voigt stiffness (6, 6) in GPa, north-east-down, unturned.
     density : float
-        Density, kg/m^3.
+        Density, kg m^-3.
     turns_deg : array_like
         A turns, degrees clockwise seen from above.
     baz, incidence : array_like

@@ -2,7 +2,7 @@
 splitting of a shear wave travelling along the foliation normal.
 
 All outputs are in the structural frame (X lineation, Y, Z foliation normal), stiffness in GPa,
-density kg/m^3, velocities km/s, anisotropy in percent (CONVENTIONS.md for the definitions of
+density kg m^-3, velocities km/s, anisotropy in percent (CONVENTIONS.md for the definitions of
 AVp, AVs and dVs).
 """
 
@@ -25,7 +25,7 @@ class Aggregate:
     tensors
         Voigt stiffness (6, 6) in GPa under ``"voigt"``, ``"reuss"``, ``"hill"``, ``"geometric"``.
     density_kg_m3
-        Fraction-weighted density of the rock, kg/m^3.
+        Fraction-weighted density of the rock, kg m^-3.
     average
         Name of the average that feeds the seismic outputs (:attr:`stiffness`).
     crystal_tensors
@@ -74,7 +74,7 @@ def mineral_at_conditions(mineral, pressure_gpa: float = 0.0, temperature_c: flo
     stiffness : numpy.ndarray, shape (6, 6)
         Voigt stiffness in the crystal frame orix uses, GPa.
     density : float
-        Density, kg/m^3.
+        Density, kg m^-3.
 
     Raises
     ------
@@ -121,7 +121,7 @@ def aggregate(orientation_sets, fractions: dict[str, float], average: str = "hil
     Returns
     -------
     Aggregate
-        The four averages (6, 6) in GPa, the density in kg/m^3 and what went into them.
+        The four averages (6, 6) in GPa, the density in kg m^-3 and what went into them.
 
     Raises
     ------
@@ -224,7 +224,7 @@ def velocity_grid(c: np.ndarray, density_kg_m3: float, step_deg: float = 1.0) ->
     c : numpy.ndarray, shape (6, 6)
         Voigt stiffness, GPa, structural frame.
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
     step_deg : float
         Spacing of the grid, degrees, in (0, 45] (:func:`waves.hemisphere_grid`).
 
@@ -293,7 +293,7 @@ def along_axes(c: np.ndarray, density_kg_m3: float) -> dict:
     c : numpy.ndarray, shape (6, 6)
         Voigt stiffness, GPa, structural frame.
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
 
     Returns
     -------
@@ -327,7 +327,7 @@ def splitting_along(c: np.ndarray, density_kg_m3: float, direction=(0.0, 0.0, 1.
     c : numpy.ndarray
         Voigt stiffness (6, 6) in GPa, structural frame.
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
     direction : array_like
         Propagation vector (3,), not zero (normalised here).
     reference : array_like

@@ -243,7 +243,7 @@ def ray_splitting(c_voigt: np.ndarray, density_kg_m3: float, rays: np.ndarray, p
     c_voigt : numpy.ndarray
         Voigt stiffness (6, 6) in GPa, in the frame of ``rays`` and ``axes``.
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
     rays : numpy.ndarray
         Propagation vectors (N, 3) (normalised here; the sign does not matter).
     path_km : float or numpy.ndarray
@@ -299,7 +299,7 @@ def one_layer(c_geographic: np.ndarray, density_kg_m3: float, thickness_km: floa
     c_geographic : numpy.ndarray
         Voigt stiffness (6, 6) in GPa, north-east-down (``to_geographic``).
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
     thickness_km : float
         Layer thickness, km, positive; the path of a ray is thickness / cos(incidence).
     back_azimuth_deg : array_like
@@ -334,7 +334,7 @@ def thickness_for_delay(c_geographic: np.ndarray, density_kg_m3: float, delay_s:
     c_geographic : numpy.ndarray
         Voigt stiffness (6, 6) in GPa, north-east-down.
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
     delay_s : float
         The delay, seconds, zero or positive.
     back_azimuth_deg, incidence_deg : float
@@ -363,7 +363,7 @@ def field_summary(c_structural: np.ndarray, density_kg_m3: float, field: dict, s
     c_structural : numpy.ndarray
         Voigt stiffness (6, 6) in GPa, structural frame.
     density_kg_m3 : float
-        Density, kg/m^3.
+        Density, kg m^-3.
     field : dict
         The sample's ``field`` settings: placement (``placement``) and ``layer_thickness_km``
         (default 100).

@@ -25,7 +25,7 @@ def test_library_has_the_required_minerals_each_with_source_and_memory_flag(libr
     assert set(REQUIRED) <= set(library)
     for m in library.values():
         assert m.source and isinstance(m.from_memory, tuple)
-        assert 900 < m.density_kg_m3 < 4500   # ice 919 to almandine 4318 kg/m^3 (common practice)
+        assert 900 < m.density_kg_m3 < 4500   # ice 919 to almandine 4318 kg m^-3 (common practice)
         # independent recheck: symmetric and positive definite (numpy eigenvalues)
         assert np.array_equal(m.cij_published_gpa, m.cij_published_gpa.T)
         assert np.linalg.eigvalsh(m.cij_published_gpa).min() > 0

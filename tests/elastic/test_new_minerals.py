@@ -150,7 +150,7 @@ FORMULAS = {
 def test_density_is_that_of_the_formula_in_the_cell(entries, name):
     m = entries[name]
     z, formula = FORMULAS[name]
-    rho = z * formula_mass(formula) / (Avogadro * cell_volume(m.lattice) * 1e-24) * 1000.0   # kg/m^3
+    rho = z * formula_mass(formula) / (Avogadro * cell_volume(m.lattice) * 1e-24) * 1000.0   # kg m^-3
     assert m.density_kg_m3 == pytest.approx(rho, rel=0.003)
 
 

@@ -40,7 +40,7 @@ def brute_force_speeds(c, rho, n=300_000):
     phi = np.pi * (1.0 + 5 ** 0.5) * k
     d = np.vstack([np.column_stack([r * np.cos(phi), r * np.sin(phi), z]), np.eye(3)])
     gamma = np.einsum("ijkl,mj,ml->mik", full_tensor(c), d, d)
-    v = np.sqrt(np.linalg.eigh(gamma)[0] * 1e3 / rho)      # GPa / (kg/m^3) -> km^2/s^2
+    v = np.sqrt(np.linalg.eigh(gamma)[0] * 1e3 / rho)      # GPa / (kg m^-3) -> km^2/s^2
     return v[:, 2], v[:, 1], v[:, 0]
 
 

@@ -35,7 +35,7 @@ def test_orthorhombic_axes_give_sqrt_cii_over_rho(library, name):
 
 def test_olivine_values_quoted_with_abramson_constants(library):
     # For orientation (common practice): sqrt(Cii/rho) 9.77 km/s along [100], 7.65 km/s along [010]
-    # with the Abramson et al. (1997) constants and density 3355 kg/m^3.
+    # with the Abramson et al. (1997) constants and density 3355 kg m^-3.
     m = library["olivine"]
     w = waves.plane_waves(m.stiffness_gpa, m.density_kg_m3, np.eye(3))
     assert w.vp_km_s[0] == pytest.approx(9.77, abs=0.005)

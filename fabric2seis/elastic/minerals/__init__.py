@@ -71,7 +71,7 @@ class Mineral:
     point_group, unique_axis
         Point group as written in the file, and ``"b"`` or ``"c"`` for monoclinic groups.
     density_kg_m3
-        Density at the reference conditions, kg/m^3.
+        Density at the reference conditions, kg m^-3.
     lattice
         Lattice parameters a, b, c (angstrom) and alpha, beta, gamma (degrees).
     published_axes
@@ -431,7 +431,7 @@ def load_mineral_file(path: str | Path) -> Mineral:
         raise InputError(f"unknown point group '{pg}'{nearest(pg, POINT_GROUPS)}", src, "point_group") from None
     density = float(entry["density_kg_m3"])
     if not 100 < density < 30000:
-        raise InputError(f"density {density} kg/m^3 is not plausible", src, "density_kg_m3")
+        raise InputError(f"density {density} kg m^-3 is not plausible", src, "density_kg_m3")
     published = _matrix(entry, "cij_gpa", src)
     published = check_stiffness(published, src, "cij_gpa")
     rot = setting_rotation(entry["lattice"], entry["published_axes"], src)

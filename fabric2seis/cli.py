@@ -16,7 +16,7 @@ from fabric2seis.errors import InputError
 
 
 def _minerals(args: argparse.Namespace) -> int:
-    from fabric2seis.elastic.minerals import find_mineral, load_library
+    from fabric2seis.elastic.minerals import find_mineral, load_library, user_entries
 
     library = load_library(args.library_dir or ())
     if args.name is None:
@@ -28,6 +28,9 @@ def _minerals(args: argparse.Namespace) -> int:
         print("\n'checked: partly' means some fields were recalled without the source at hand; "
               "'fabric2seis minerals NAME' lists which. 'constants': read in the source, or recalled and "
               "compared with published aggregate moduli (Hill average; DISPUTED beyond 8 %).")
+        for entry in user_entries(library):
+            print(f"your own: {entry['name']} from {entry['file']}" + (
+                f", replacing the packaged {entry['replaces']}" if entry["replaces"] else ""))
         return 0
     print(describe_mineral(find_mineral(args.name, library)))
     return 0
@@ -35,12 +38,14 @@ def _minerals(args: argparse.Namespace) -> int:
 
 def _sample(args: argparse.Namespace) -> int:
     from fabric2seis.pipeline import run_sample
+    from fabric2seis.progress import terminal_bars
 
     def progress(message: str) -> None:
         if sys.stderr.isatty():
             print(f"[{args.input}] {message}", file=sys.stderr, flush=True)
 
-    out = run_sample(args.input, args.settings, args.out, progress)
+    out = run_sample(args.input, args.settings, args.out, progress, bars=terminal_bars(),   # bars on a TTY only
+                     minerals_dir=args.minerals)
     print(f"wrote {out}")
     return 0
 
@@ -72,22 +77,62 @@ def _synth(args: argparse.Namespace) -> int:
     return 0
 
 
+#: the samples folder of ``fabric2seis suite`` without --samples (the demo samples of the fabric2seis folder)
+DEMO_SAMPLES = "demo_samples"
+
+
 def _suite(args: argparse.Namespace, extra: list[str]) -> int:
     from pathlib import Path
 
-    from fabric2seis.workflow.config import check_config_files, config_files_among
+    from fabric2seis.workflow import SNAKEFILE
+    from fabric2seis.workflow.config import base_config_file, check_config_files, check_config_paths, split_config_files
+    from fabric2seis.workflow.suite import discover_samples
 
-    if not Path("Snakefile").is_file():
-        raise InputError("no Snakefile here: run 'fabric2seis suite' from the fabric2seis project folder",
-                         Path.cwd())
+    extra = [word for word in extra if word != "--"]      # '--' only separates Snakemake's arguments
+    user_config, files, rest = split_config_arguments([*(["--config", *args.config] if args.config else []), *extra])
+    for name in files:
+        if not Path(name).is_file():
+            raise InputError("no such config file (--config takes a YAML file or KEY=VALUE items)", name,
+                             "option --config")
+    given_files, rest = split_config_files(rest)
+    files += given_files
+    checked = check_config_files([base_config_file(), *files])      # plain YAML and known keys, before Snakemake
+    # folders not given on the command line: the last config file that names them (the project's
+    # config/config.yaml, or the packaged defaults: demo_samples and results), relative to this folder
+    folders = (("samples", "samples_dir"), ("results", "results_dir"))
+    given = [f"{key}={getattr(args, option)}" for option, key in folders
+             if getattr(args, option) is not None]      # a folder named in a config file stays checked by the workflow
+    if args.minerals is not None:            # your own mineral entries, for every sample of the suite
+        if not Path(args.minerals).is_dir():
+            raise InputError("no such folder of mineral entries", args.minerals, "option --minerals")
+        given.append(f"minerals_dir={Path(args.minerals).resolve()}")
+    merged = {k: v for _, data in checked for k, v in data.items()}
+    check_config_paths(merged, checked, {item.split("=", 1)[0]: True for item in given})
+    for option, key in folders:
+        named = [(path, data[key]) for path, data in checked if data.get(key) is not None]
+        if getattr(args, option) is None and named:
+            setattr(args, option, str(named[-1][1]))
+            if option == "samples" and not Path(args.samples).is_dir():
+                raise InputError(f"no samples folder '{args.samples}' here (named by {named[-1][0]}): give the "
+                                 "folder of EBSD exports with --samples DIR", Path.cwd())
+    if args.samples is None or args.results is None:     # no config names them: the packaged defaults' names
+        given += [f"samples_dir={args.samples or DEMO_SAMPLES}"] if args.samples is None else []
+        given += ["results_dir=results"] if args.results is None else []
+        args.samples, args.results = args.samples or DEMO_SAMPLES, args.results or "results"
     if not Path(args.samples).is_dir():
         raise InputError("no such samples folder", args.samples)
-    extra = [word for word in extra if word != "--"]      # '--' only separates Snakemake's arguments
-    user_config, rest = split_config_arguments(extra)
-    check_config_files(["config/config.yaml", *config_files_among(rest)])   # plain YAML, before Snakemake
-    # --samples and --results go to Snakemake as --config: command-line folders may lie anywhere
-    command = [sys.executable, "-m", "snakemake", "--cores", str(args.cores),
-               "--config", f"samples_dir={args.samples}", f"results_dir={args.results}", *user_config, *rest]
+    try:
+        no_samples = not discover_samples(args.samples)
+    except ValueError:                      # two files give one sample name: the closing line says so
+        no_samples = False
+    if no_samples:
+        raise InputError("no EBSD exports here (.ang, .ctf, .h5, or .csv tables; text formats also .gz)",
+                         args.samples, "option --samples")
+    # the packaged workflow, run in this folder; --samples and --results go to Snakemake as --config:
+    # command-line folders may lie anywhere
+    command = [sys.executable, "-m", "snakemake", "--snakefile", str(SNAKEFILE), "--cores", str(args.cores),
+               *(["--configfile", *files] if files else []),
+               *(["--config", *given, *user_config] if given or user_config else []), *rest]
     if "--unlock" in rest:                  # the user releases a lock by hand: pass it on as it is
         return _snakemake(command)[0]
     lock = _hold_results_folder(args.results)
@@ -98,6 +143,15 @@ def _suite(args: argparse.Namespace, extra: list[str]) -> int:
         return _run_suite(args, command, rest, lock)
     finally:
         os.close(lock)
+
+
+def _init(args: argparse.Namespace) -> int:
+    from fabric2seis.workflow.project import write_starter_project
+
+    written = write_starter_project(args.folder)
+    names = ", ".join(str(path.relative_to(args.folder)) for path in written)
+    print(f"wrote {names} into {args.folder}; next: read {args.folder}/README.txt")
+    return 0
 
 
 def _run_suite(args: argparse.Namespace, command: list[str], rest: list[str], lock: int) -> int:
@@ -240,12 +294,14 @@ def pass_on_messages(lines) -> bool:
     return locked
 
 
-def split_config_arguments(extra: list[str]) -> tuple[list[str], list[str]]:
-    """The ``key=value`` items of every ``--config`` among Snakemake's arguments, and the rest.
+def split_config_arguments(extra: list[str]) -> tuple[list[str], list[str], list[str]]:
+    """The items of every ``--config`` among Snakemake's arguments: ``key=value`` items, config files, the rest.
 
     Snakemake keeps only the last ``--config`` it is given, so the user's items are merged into
     the one that carries ``--samples`` and ``--results``; setting ``samples_dir`` or
     ``results_dir`` there is refused, since the options say where the samples and results are.
+    An item without ``=`` is a YAML config file (``fabric2seis suite --config my_settings.yaml``),
+    handed to Snakemake as ``--configfile``.
     """
     items, rest, k = [], [], 0
     while k < len(extra):
@@ -260,13 +316,14 @@ def split_config_arguments(extra: list[str]) -> tuple[list[str], list[str]]:
             continue
         rest.append(word)
         k += 1
-    for item in items:
+    pairs = [item for item in items if "=" in item]
+    for item in pairs:
         key = item.split("=", 1)[0].strip()
         if key in ("samples_dir", "results_dir"):
             option = "--samples" if key == "samples_dir" else "--results"
             raise InputError(f"give the folder with {option}, not with --config {key}=...", None,
                              f"argument --config {item}")
-    return items, rest
+    return pairs, [item for item in items if "=" not in item], rest
 
 
 def _field(args: argparse.Namespace) -> int:
@@ -358,25 +415,44 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = commands.add_parser(
         "suite", help="run the Snakemake workflow over every sample in a folder",
-        description="Run the Snakemake workflow over every sample in a folder, then print one line: samples, "
-                    "how many ok, and each failed sample with its one-line reason.",
+        description="Run the Snakemake workflow (it ships inside the package) in the current folder over every "
+                    "sample in a folder, then print one line: samples, how many ok, and each failed sample with its "
+                    "one-line reason. The config is config/config.yaml of the current folder if it has one, else "
+                    "the packaged defaults; --config FILE goes over it.",
         epilog="Other arguments go to Snakemake unchanged; put them after '--' to be safe, e.g. "
                "'fabric2seis suite -- --dry-run' or '-- --report results/report.html'. Exit status: 0 the "
                "workflow ran (failed samples are rows of suite_summary.csv), 1 Snakemake failed, 2 bad input "
                "or another suite holds the results folder, 3 with --strict when a sample failed, 130 "
                "interrupted.")
-    p.add_argument("--samples", default="demo_samples", metavar="DIR",
-                   help="folder of EBSD exports (default demo_samples)")
-    p.add_argument("--results", default="results", metavar="DIR", help="results folder (default results)")
+    p.add_argument("--samples", metavar="DIR", help="folder of EBSD exports (default: samples_dir of the config, "
+                   f"{DEMO_SAMPLES} in the packaged defaults)")
+    p.add_argument("--results", metavar="DIR", help="results folder (default: results_dir of the config, results "
+                   "in the packaged defaults)")
+    p.add_argument("--minerals", metavar="DIR", help="folder of your own mineral entries (YAML, checked like the "
+                   "packaged ones; an entry of a packaged name replaces it); config key minerals_dir")
     p.add_argument("--cores", default="2", metavar="N", help="cores for Snakemake (default 2)")
+    p.add_argument("--config", nargs="+", action="extend", metavar="FILE|KEY=VALUE",
+                   help="a YAML config file over the defaults (checked like config/config.yaml; may be repeated), "
+                        "or settings as KEY=VALUE, e.g. \"odf={halfwidth_deg: 15}\"")
     p.add_argument("--strict", action="store_true", help="exit with status 3 if any sample failed")
     p.set_defaults(run=_suite, takes_extra=True)
+
+    p = commands.add_parser("init", help="write a starter project into a folder: config, example sidecar, "
+                            "field measurements template, README",
+                            description="Write a starter project into FOLDER (created if missing): "
+                                        "config/config.yaml (every key explained), samples/example.yaml (a "
+                                        "sample's own settings), field_measurements_template.csv and README.txt "
+                                        "(the next commands). Existing files are never written over.")
+    p.add_argument("folder", metavar="FOLDER", help="the project folder")
+    p.set_defaults(run=_init)
 
     p = commands.add_parser("sample", help="process one EBSD export into a results folder")
     p.add_argument("input", help="EBSD export: .ang, .ctf, .h5, .csv (text formats also .gz)")
     p.add_argument("--settings", metavar="FILE", help="settings YAML (default: INPUT's sidecar <stem>.yaml, "
                    "else config/config.yaml)")
     p.add_argument("--out", metavar="DIR", help="output folder (default results/<stem>)")
+    p.add_argument("--minerals", metavar="DIR", help="a folder of your own mineral files (*.yaml): they add "
+                   "minerals or replace library entries of the same name (instead of the settings key minerals_dir)")
     p.set_defaults(run=_sample)
 
     p = commands.add_parser("optics", help="predict the crossed-polar view of the thin section: images at "
@@ -418,8 +494,9 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = commands.add_parser("minerals", help="list the mineral library or show one entry in full")
     p.add_argument("name", nargs="?", help="mineral name or alias (case-insensitive)")
-    p.add_argument("--library-dir", action="append", metavar="DIR",
-                   help="also read the mineral files (*.yaml) in DIR; may be repeated")
+    p.add_argument("--minerals", "--library-dir", action="append", metavar="DIR", dest="library_dir",
+                   help="also read your own mineral files (*.yaml) in DIR, as 'sample --minerals DIR' does; "
+                        "may be repeated")
     p.set_defaults(run=_minerals)
     return parser
 

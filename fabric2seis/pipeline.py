@@ -23,6 +23,7 @@ from fabric2seis.ingest import grains as grains_mod
 from fabric2seis.ingest import phases as phases_mod
 from fabric2seis.ingest.io import read_ebsd
 from fabric2seis.orientations import PhaseOrientations
+from fabric2seis.progress import BarMaker, share, stage_bar
 from fabric2seis.settings import settings_for
 from fabric2seis.stages import FabricResult, Intervals, PhaseFabricResult, Sample, SeismicResult
 from fabric2seis.threads import blas_on_one_thread
@@ -112,9 +113,18 @@ def ingest(path: str | Path, settings: dict, settings_file: str | None = None,
     path = Path(path)
     say(f"reading {path.name}")
     data = read_ebsd(path, angle_units=settings["table"]["angle_units"])
-    phase_minerals = phases_mod.map_phases(data, settings.get("phases"), settings_file=settings_file)
+    library, user_minerals = sample_library(settings, say)
+    drops, notes = phases_mod.phases_to_drop(data, settings.get("drop_phases"), settings.get("phases"), library,
+                                             settings_file)
+    leave_out = [pid for d in drops for pid in d.phase_ids]
+    phase_minerals = phases_mod.map_phases(data, settings.get("phases"), library, settings_file, skip=leave_out)
     clean = settings.get("clean") or {}
-    points = phases_mod.select_points(data, phase_minerals, clean.get("quality_min"), clean.get("quality_field"))
+    points = phases_mod.select_points(data, phase_minerals, clean.get("quality_min"), clean.get("quality_field"),
+                                      leave_out)
+    dropped_phases = _dropped_phase_record(drops, points, settings.get("modal_fractions"), library)
+    for name, record in dropped_phases.items():
+        say(f"phase {name} left out (drop_phases): {record['n_points']:,} points of file phase(s) "
+            f"{', '.join(record['file_phases'])}, former fraction {record['former_fraction']:.4f}")
     f = frames.structural_matrix(settings["frame"], settings_file)
     points.quat = frames.to_structural(points.quat, f)
     grains = None
@@ -141,10 +151,95 @@ def ingest(path: str | Path, settings: dict, settings_file: str | None = None,
                           if grains is not None else "data rows")
     measured = phases_mod.modal_fractions(points.mineral_index, points.weights, points.minerals)
     fractions = phases_mod.modal_fractions(points.mineral_index, points.weights, points.minerals,
-                                           settings.get("modal_fractions"), settings_file)
+                                           _kept_fractions(settings.get("modal_fractions"), dropped_phases, library),
+                                           settings_file, library)
     return Sample(name=checked_sample_name(path), settings=settings, settings_file=settings_file, points=points,
                   grains=grains, fractions=fractions, measured_fractions=measured, grid=data.grid,
-                  n_small_grain_points=small, step=data.step)
+                  n_small_grain_points=small, step=data.step, dropped_phases=dropped_phases,
+                  phase_notes=notes, user_minerals=user_minerals)
+
+
+def sample_library(settings: dict, progress: Progress | None = None) -> tuple[dict, list[dict]]:
+    """The mineral library of a sample: the packaged one, with the user's folder ``minerals_dir`` if set.
+
+    Parameters
+    ----------
+    settings : dict
+        The sample's settings (``minerals_dir``: checked by ``settings.settings_for``).
+    progress : callable, optional
+        Told of every user entry read, and of the packaged entry it replaces.
+
+    Returns
+    -------
+    library : dict of str to Mineral
+        The minerals by name.
+    user_minerals : list of dict
+        The user's entries: ``name``, ``file``, ``replaces`` (``minerals.user_entries``).
+
+    Raises
+    ------
+    InputError
+        If a user's mineral file is refused (naming the file and key).
+    """
+    from fabric2seis.elastic.minerals import load_library, user_entries
+
+    folder = settings.get("minerals_dir")
+    library = load_library([folder] if folder else [])
+    users = user_entries(library)
+    for entry in users:
+        (progress or _quiet)(f"mineral {entry['name']} from {entry['file']}" + (
+            f", replacing the packaged entry {entry['replaces']}" if entry["replaces"] else " (a mineral of "
+            "your own)"))
+    return library, users
+
+
+def _dropped_phase_record(drops: list, points, given: dict | None, library: dict) -> dict:
+    """Per phase left out: the names in the file, its points, and its former fraction.
+
+    The former fraction is the one the settings' ``modal_fractions`` gave it, else its share of the
+    weight (area) of the cleaned points, dropped phases included.
+    """
+    total = float(points.weights.sum()) + sum(w for _, w in points.left_out.values())
+    stated = _fractions_by_mineral(given, library)
+    out = {}
+    for d in drops:
+        n = sum(points.left_out[pid][0] for pid in d.phase_ids)
+        weight = sum(points.left_out[pid][1] for pid in d.phase_ids)
+        fraction = stated.get(d.name, weight / total if total > 0 else 0.0)
+        out[d.name] = {"file_phases": d.file_phases, "n_points": int(n), "former_fraction": round(float(fraction), 6),
+                       "fraction_source": "settings" if d.name in stated else "measured area"}
+    return out
+
+
+def _fractions_by_mineral(given: dict | None, library: dict) -> dict[str, float]:
+    """``modal_fractions`` keyed by library name where a key is a library mineral, else by the key."""
+    from fabric2seis.elastic.minerals import find_mineral
+
+    out = {}
+    for key, value in (given or {}).items():
+        try:
+            out[find_mineral(key, library).name] = float(value)
+        except InputError:
+            out[str(key)] = float(value)
+    return out
+
+
+def _kept_fractions(given: dict | None, dropped: dict, library: dict) -> dict | None:
+    """The settings' ``modal_fractions`` without the phases left out, renormalised to sum to 1."""
+    if not given or not dropped:
+        return given
+    from fabric2seis.elastic.minerals import find_mineral
+
+    kept = {}
+    for key, value in given.items():
+        try:
+            name = find_mineral(key, library).name
+        except InputError:
+            name = str(key)
+        if name not in dropped:
+            kept[key] = float(value)
+    total = sum(kept.values())
+    return {k: v / total for k, v in kept.items()} if total > 0 else kept
 
 
 def _check_two_grains(mineral_index: np.ndarray, minerals: list, path: Path, where: str) -> None:
@@ -197,7 +292,7 @@ def orientation_sets(sample: Sample, weighting: str) -> list[PhaseOrientations]:
     return out
 
 
-def fabric_stage(sample: Sample, progress: Progress | None = None) -> FabricResult:
+def fabric_stage(sample: Sample, progress: Progress | None = None, bars: BarMaker | None = None) -> FabricResult:
     """Compute the fabric indices per mineral (one point per grain unless settings say otherwise).
 
     Minerals with fewer than two orientations are left out.
@@ -208,6 +303,9 @@ def fabric_stage(sample: Sample, progress: Progress | None = None) -> FabricResu
         The ingested sample.
     progress : callable, optional
         Called with a message at each step.
+    bars : callable, optional
+        Draws a progress bar per mineral (``progress.terminal_bars``): indices, convergence and
+        random floor, a third each.
 
     Returns
     -------
@@ -224,13 +322,17 @@ def fabric_stage(sample: Sample, progress: Progress | None = None) -> FabricResu
         mineral, quat, weights = phase
         if len(quat) < 2:
             continue
-        say(f"fabric of {mineral.name} ({len(quat):,} {'grains' if weighting == 'grain' else 'points'})")
-        phases[mineral.name] = PhaseFabricResult(
-            indices=fabric.phase_fabric(mineral, quat, weights, weighting, halfwidth),
-            convergence=fabric.convergence(mineral, quat, weights, halfwidth),
+        what = f"fabric of {mineral.name} ({len(quat):,} {'grains' if weighting == 'grain' else 'points'})"
+        say(what)
+        with stage_bar(bars, what) as done:
+            indices = fabric.phase_fabric(mineral, quat, weights, weighting, halfwidth)
+            done(1 / 3)
+            converging = fabric.convergence(mineral, quat, weights, halfwidth)
+            done(2 / 3)
             # J, M and pfJ of random sets of as many grains (same weights, kernel, point group)
-            random_floor=fabric.random_floor(mineral, len(quat), halfwidth, weights),
-            orientations=phase)
+            floor = fabric.random_floor(mineral, len(quat), halfwidth, weights)
+        phases[mineral.name] = PhaseFabricResult(indices=indices, convergence=converging, random_floor=floor,
+                                                 orientations=phase)
     return FabricResult(phases=phases, weighting=weighting, halfwidth_deg=halfwidth)
 
 
@@ -301,7 +403,8 @@ def seismic_stage(sample: Sample, progress: Progress | None = None) -> SeismicRe
                          along_z={k: along_z[k] for k in ("fast_polarisation_from_x_deg", "delay_s_per_100km")})
 
 
-def uncertainty_stage(sample: Sample, seis: SeismicResult, progress: Progress | None = None) -> Intervals:
+def uncertainty_stage(sample: Sample, seis: SeismicResult, progress: Progress | None = None,
+                      bars: BarMaker | None = None) -> Intervals:
     """Compute 95 % bootstrap intervals (``bootstrap.n`` resamples of the grains, fixed seed).
 
     Parameters
@@ -312,6 +415,10 @@ def uncertainty_stage(sample: Sample, seis: SeismicResult, progress: Progress | 
         The seismic stage (its aggregate).
     progress : callable, optional
         Called with a message at each step.
+    bars : callable, optional
+        Draws a progress bar of the bootstrap (``progress.terminal_bars``): the seismic
+        resamples, the random aggregates, then each mineral's fabric resamples (by blocks of
+        grains and of grain pairs), equal parts.
 
     Returns
     -------
@@ -323,31 +430,46 @@ def uncertainty_stage(sample: Sample, seis: SeismicResult, progress: Progress | 
     ----------
     Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, New York.
     """
-    from fabric2seis import uncertainty
-
     n, seed = int(sample.settings["bootstrap"]["n"]), int(sample.settings["bootstrap"]["seed"])
     if n == 0:
         return Intervals()
     say = progress or _quiet
-    say(f"bootstrap: {n} resamples of the grains")
+    what = f"bootstrap: {n} resamples of the grains"
+    say(what)
+    with stage_bar(bars, what) as done:
+        out = _bootstrap(sample, seis, n, seed, say, done)
+    return Intervals(out)
+
+
+def _bootstrap(sample: Sample, seis: SeismicResult, n: int, seed: int, say: Progress,
+               done: Callable[[float], None]) -> dict:
+    """The intervals of :func:`uncertainty_stage`, telling ``done`` the share finished."""
+    from fabric2seis import uncertainty
+
     rng = np.random.default_rng(seed)
     sets = [s for s in orientation_sets(sample, "grain_area") if len(s.quat) > 1]
+    parts = 2 + sum(len(q) >= uncertainty.MIN_GRAINS_FOR_FABRIC for _, q, _ in sets)
     counts = {m.name: uncertainty.resample_counts(len(q), n, rng) for m, q, _ in sets}
     agg = seis.aggregate
     # maxima over directions are biased up by noise: basic bootstrap intervals (uncertainty.py)
     out, _ = uncertainty.seismic_intervals(sets, sample.fractions, agg.average, agg.density_kg_m3, counts,
                                            agg.crystal_matrices)
     out["interval_method"] = {k: uncertainty.SEISMIC_INTERVAL_METHOD.get(k, "percentile") for k in list(out)}
+    done(1 / parts)
     say("random aggregates of as many grains (the floor of AVs and AVp)")
     out["random_aggregate"] = uncertainty.random_aggregate_floor(sets, sample.fractions, agg.average,
                                                                  agg.density_kg_m3, agg.crystal_matrices)
+    done(2 / parts)
+    part = 2
     main = max(sets, key=lambda s: sample.fractions[s.mineral.name]).mineral.name
     halfwidth = float(sample.settings["odf"]["halfwidth_deg"])
     for m, q, _w in sets:
         if len(q) < uncertainty.MIN_GRAINS_FOR_FABRIC:
             out[f"{m.name}.note"] = f"only {len(q)} grains: no fabric intervals"
             continue
-        f = uncertainty.fabric_bootstrap(m, q, np.ones(len(q)), counts[m.name], halfwidth, rng)
+        f = uncertainty.fabric_bootstrap(m, q, np.ones(len(q)), counts[m.name], halfwidth, rng,
+                                         share(done, part / parts, (part + 1) / parts))
+        part += 1
         for key, v in f.items():
             if v is None:
                 out[f"{m.name}.{key}"] = None
@@ -361,7 +483,7 @@ def uncertainty_stage(sample: Sample, seis: SeismicResult, progress: Progress | 
     out["resamples"] = n
     out["seed"] = seed
     out["main_phase"] = main
-    return Intervals(out)
+    return out
 
 
 def default_out_dir(path: str | Path) -> Path:
@@ -399,12 +521,18 @@ class RunLog:
         ``time.perf_counter()`` at creation, seconds.
     lines
         The logged lines, each with its time since the start in seconds.
+    last
+        ``time.perf_counter()`` of the last line, seconds.
+    written
+        Names of the files already logged by :meth:`wrote`.
     """
 
     def __init__(self, progress: Progress | None = None) -> None:
         self.started = time.perf_counter()
         self.lines: list[str] = []
         self.progress = progress
+        self.last = self.started
+        self.written: set[str] = set()
 
     def say(self, message: str) -> None:
         """Log a step and pass it on to ``progress``.
@@ -414,15 +542,64 @@ class RunLog:
         message : str
             What is being done.
         """
-        self.lines.append(f"{time.perf_counter() - self.started:8.2f} s  {message}")
+        self.last = time.perf_counter()
+        self.lines.append(f"{self.last - self.started:8.2f} s  {message}")
         if self.progress is not None:
             self.progress(message)
+
+    def wrote(self, folder: Path) -> None:
+        """Log the files that appeared in ``folder`` since the last call, with the seconds since the last step.
+
+        Parameters
+        ----------
+        folder : Path
+            The folder being written.
+        """
+        seconds = time.perf_counter() - self.last
+        new = sorted(p.name for p in folder.iterdir() if p.is_file() and p.name not in self.written)
+        if new:
+            self.written.update(new)
+            self.say(f"wrote {', '.join(new)} in {seconds:.2f} s")
+
+
+def analyse_sample(sample: Sample, progress: Progress | None = None, bars: BarMaker | None = None
+                   ) -> tuple[FabricResult, SeismicResult, Intervals, dict]:
+    """Run the stages after ingestion: fabric, seismic, bootstrap, and assemble ``summary.json``'s contents.
+
+    Parameters
+    ----------
+    sample : Sample
+        The ingested sample (:func:`ingest`).
+    progress : callable, optional
+        Called with a message at each step.
+    bars : callable, optional
+        Draws progress bars of the long stages (``progress.terminal_bars``).
+
+    Returns
+    -------
+    tuple
+        The fabric, seismic and bootstrap stages' results and the summary (a dict, ready for JSON).
+
+    Raises
+    ------
+    InputError
+        If the bootstrap would need more memory than allowed, or a stage refuses the settings.
+    """
+    from fabric2seis.sample_output import sample_summary
+
+    source = sample.settings_file or "the default settings"
+    budget.check_bootstrap(sample.settings, [len(s.quat) for s in orientation_sets(sample, "grain_area")], source)
+    fabric = fabric_stage(sample, progress, bars)
+    seismic = seismic_stage(sample, progress)
+    intervals = uncertainty_stage(sample, seismic, progress, bars)
+    return fabric, seismic, intervals, sample_summary(sample, fabric, seismic, intervals)
 
 
 @blas_on_one_thread()        # the same numbers as the workflow's one-thread jobs (threads.py)
 def run_sample(path: str | Path, settings_path: str | Path | None = None, out_dir: str | Path | None = None,
                progress: Progress | None = None, defaults: dict | None = None,
-               results_root: str | Path | None = "results") -> Path:
+               results_root: str | Path | None = "results", bars: BarMaker | None = None,
+               minerals_dir: str | Path | None = None) -> Path:
     """Process one EBSD export into ``out_dir``; returns the folder written.
 
     ``defaults``: settings under the sample's sidecar instead of config/config.yaml (the workflow
@@ -444,6 +621,11 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
         Settings under the sample's sidecar.
     results_root : str or Path or None
         The suite's results folder.
+    bars : callable, optional
+        Draws progress bars of the long stages (``progress.terminal_bars``: on a terminal only).
+    minerals_dir : str or Path, optional
+        A folder of the user's own mineral files (``--minerals DIR``), in place of the settings
+        key ``minerals_dir``.
 
     Returns
     -------
@@ -455,23 +637,18 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     InputError
         If the input, settings or destination are refused.
     """
-    from fabric2seis.sample_output import sample_summary, write_results
+    from fabric2seis.sample_output import write_results
 
     path, log = Path(path), RunLog(progress)
     checked_sample_name(path)
-    settings, settings_file = settings_for(path, settings_path, defaults)
+    settings, settings_file = settings_for(path, settings_path, defaults, minerals_dir)
     budget.check_settings(settings, settings_file or "the default settings")
     log.say(f"fabric2seis {__version__}: {path} with settings {settings_file or 'defaults'}")
     out = Path(out_dir) if out_dir is not None else default_out_dir(path)
     inputs: list[str | Path] = [path, *([settings_file] if settings_file else [])]
     check_destination(out, "sample", inputs, results_root)
     sample = ingest(path, settings, settings_file, log.say)
-    budget.check_bootstrap(settings, [len(s.quat) for s in orientation_sets(sample, "grain_area")],
-                           settings_file or "the default settings")
-    fabric = fabric_stage(sample, log.say)
-    seismic = seismic_stage(sample, log.say)
-    intervals = uncertainty_stage(sample, seismic, log.say)
-    summary = sample_summary(sample, fabric, seismic, intervals)
+    fabric, seismic, intervals, summary = analyse_sample(sample, log.say, bars)
     for note in summary["cautions"]:
         log.say(f"caution: {note}")
     return write_results(out, path, sample, fabric, seismic, summary, log, inputs, results_root)

@@ -56,6 +56,8 @@ def ingestion_summary(sample: Sample) -> dict:
         "dropped": {"unindexed_points": p.n_unindexed, "low_quality_points": p.n_low_quality,
                     "small_grain_points": sample.n_small_grain_points, "points_read": p.n_read},
         "fraction_source": "settings" if sample.settings.get("modal_fractions") else "measured area",
+        "dropped_phases": sample.dropped_phases,
+        "mineral_library": mineral_library_record(sample),
     }
 
 
@@ -102,6 +104,7 @@ def sample_summary(sample: Sample, fabric: FabricResult, seismic: SeismicResult,
     if intervals:
         outside = _estimates_outside(report)
     report["cautions"] = sample_cautions(sample.points.minerals, report["conditions"]["assumptions"], outside)
+    report["cautions"] += sample.phase_notes
     return report
 
 
@@ -123,6 +126,28 @@ def _estimates_outside(report: dict) -> list[str]:
     if outside:
         uncertainty["estimate_outside_interval"] = ", ".join(outside)
     return outside
+
+
+def mineral_library_record(sample: Sample) -> dict:
+    """Where the sample's minerals came from: the user's folder, its entries, and each mineral used.
+
+    Parameters
+    ----------
+    sample : Sample
+        The ingested sample.
+
+    Returns
+    -------
+    dict
+        ``folder`` (``minerals_dir``, or None), ``user_entries`` (every entry of the folder with the
+        packaged file it ``replaces``, or None) and ``used``: per mineral of the sample, its
+        ``origin`` (``packaged`` or ``user``), ``file`` and ``source``.
+    """
+    from fabric2seis.elastic.minerals import mineral_origin
+
+    return {"folder": sample.settings.get("minerals_dir"), "user_entries": sample.user_minerals,
+            "used": {m.name: {"origin": mineral_origin(m), "file": m.file, "source": m.source}
+                     for m in sample.points.minerals}}
 
 
 def provenance(path: Path, sample: Sample) -> dict:
@@ -148,7 +173,8 @@ def provenance(path: Path, sample: Sample) -> dict:
     return {
         "input": str(path), "input_sha256": digest,
         "settings_file": sample.settings_file, "settings": sample.settings,
-        "minerals": {m.name: {"source": m.source, "from_memory": list(m.from_memory)}
+        "mineral_library": mineral_library_record(sample),
+        "minerals": {m.name: {"source": m.source, "from_memory": list(m.from_memory), "file": m.file}
                      for m in sample.points.minerals},
         "versions": {"fabric2seis": __version__, "orix": orix.__version__, "numpy": np.__version__,
                      "scipy": scipy.__version__, "pandas": pandas.__version__,
@@ -169,7 +195,64 @@ def write_json(path: Path, data: Any) -> None:
     path.write_text(json.dumps(data, indent=2, sort_keys=False, default=plain) + "\n")
 
 
-def fabric_figures(folder: Path, sample_name: str, fabric: FabricResult, sample: Sample | None = None) -> None:
+def fabric_figure_options(fabric: FabricResult, sample: Sample | None = None) -> tuple[list[tuple], dict, str]:
+    """What the pole figures and inverse pole figures of a sample draw, from its fabric stage and settings.
+
+    Parameters
+    ----------
+    fabric : FabricResult
+        The fabric stage.
+    sample : Sample, optional
+        The ingested sample: its settings (``figures.poles``, ``figures.pole_hemisphere``,
+        ``figures.pole_levels``) and its counts of grains and points per mineral. Without it, the
+        defaults and the number of orientations.
+
+    Returns
+    -------
+    phases : list of tuple
+        Per mineral: (mineral, quaternions (N, 4), weights (N,), pole labels).
+    options : dict
+        Keyword arguments both figures take: ``halfwidth_deg``, ``weighting``, ``levels``,
+        ``noun`` and, for a map, ``grain_counts`` and ``point_counts``.
+    hemisphere : str
+        Half of the sphere the pole figures show (``"lower"`` or ``"upper"``).
+    """
+    from fabric2seis.fabric.poles import figure_poles
+
+    chosen = ((sample.settings if sample is not None else {}).get("figures") or {})
+    phases = [(p.orientations.mineral, p.orientations.quat, p.orientations.weights,
+               figure_poles(p.orientations.mineral, chosen.get("poles"))) for p in fabric.phases.values()]
+    options: dict = {"halfwidth_deg": fabric.halfwidth_deg, "weighting": fabric.weighting,
+                     "levels": chosen.get("pole_levels"), "noun": "grains"}
+    if sample is not None and sample.grains is not None:
+        names = [m.name for m in sample.points.minerals]
+        points = np.bincount(sample.points.mineral_index, minlength=len(names))
+        grains = np.bincount(sample.grains.mineral_index, minlength=len(names))
+        options.update(noun="points" if fabric.weighting == "area" else "grains",
+                       grain_counts=dict(zip(names, grains.tolist())), point_counts=dict(zip(names, points.tolist())))
+    return phases, options, chosen.get("pole_hemisphere", "lower")
+
+
+def velocity_panels(settings: dict) -> tuple[str, ...]:
+    """The panels of the velocity sheet the settings ask for (``figures.velocities.panels``).
+
+    Parameters
+    ----------
+    settings : dict
+        The sample's settings.
+
+    Returns
+    -------
+    tuple of str
+        Names from ``figures.velocities.PANELS``.
+    """
+    from fabric2seis.figures.velocities import DEFAULT_PANELS
+
+    return tuple((settings.get("figures") or {}).get("velocities", {}).get("panels", DEFAULT_PANELS))
+
+
+def fabric_figures(folder: Path, sample_name: str, fabric: FabricResult, sample: Sample | None = None,
+                   log: RunLog | None = None) -> None:
     """Draw pole figures, inverse pole figures and the convergence of the fabric indices.
 
     Parameters
@@ -181,33 +264,23 @@ def fabric_figures(folder: Path, sample_name: str, fabric: FabricResult, sample:
     fabric : FabricResult
         The fabric stage; nothing is drawn when it has no phase.
     sample : Sample, optional
-        The ingested sample: its settings (``figures.poles``, ``figures.pole_hemisphere``,
-        ``figures.pole_levels``) and its counts of grains and points per mineral. Without it, the
-        defaults and the number of orientations.
+        The ingested sample (:func:`fabric_figure_options`).
+    log : RunLog, optional
+        Logs each figure written, with the seconds it took.
     """
-    from fabric2seis.fabric.poles import figure_poles
     from fabric2seis.figures.poles import convergence_figure, inverse_pole_figures, pole_figures
 
     if not fabric.phases:
         return
-    chosen = ((sample.settings if sample is not None else {}).get("figures") or {})
-    phases = [(p.orientations.mineral, p.orientations.quat, p.orientations.weights,
-               figure_poles(p.orientations.mineral, chosen.get("poles"))) for p in fabric.phases.values()]
-    counts: dict = {"noun": "grains"}
-    if sample is not None:
-        names = [m.name for m in sample.points.minerals]
-        points = np.bincount(sample.points.mineral_index, minlength=len(names))
-        if sample.grains is not None:
-            grains = np.bincount(sample.grains.mineral_index, minlength=len(names))
-            counts = {"noun": "points" if fabric.weighting == "area" else "grains",
-                      "grain_counts": dict(zip(names, grains.tolist())),
-                      "point_counts": dict(zip(names, points.tolist()))}
-    pole_figures(folder / "pole_figures", sample_name, phases, fabric.halfwidth_deg, fabric.weighting,
-                 hemisphere=chosen.get("pole_hemisphere", "lower"), levels=chosen.get("pole_levels"), **counts)
-    inverse_pole_figures(folder / "inverse_pole_figures", sample_name, phases, fabric.halfwidth_deg,
-                         fabric.weighting, levels=chosen.get("pole_levels"), **counts)
+    wrote = (lambda: log.wrote(folder)) if log is not None else (lambda: None)
+    phases, options, hemisphere = fabric_figure_options(fabric, sample)
+    pole_figures(folder / "pole_figures", sample_name, phases, hemisphere=hemisphere, **options)
+    wrote()
+    inverse_pole_figures(folder / "inverse_pole_figures", sample_name, phases, **options)
+    wrote()
     convergence_figure(folder / "fabric_convergence", sample_name,
                        {name: p.convergence for name, p in fabric.phases.items()})
+    wrote()
 
 
 def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, seismic: SeismicResult,
@@ -243,34 +316,43 @@ def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, s
     """
     from fabric2seis.figures.map_overview import map_overview_figure
     from fabric2seis.ingest.grains import grains_table
+    from fabric2seis.tables import write_tensor_texts
 
     agg = seismic.aggregate
     with folder_written_whole(out, "sample", inputs, results_root) as tmp:
-        write_json(tmp / "summary.json", summary)
         log.say("writing tables and figures")
-        fabric_figures(tmp, sample.name, fabric, sample)
+        write_json(tmp / "summary.json", summary)
+        log.wrote(tmp)              # run.log: each file written, with the seconds it took
+        fabric_figures(tmp, sample.name, fabric, sample, log)
         map_overview_figure(tmp / "map_overview", sample)     # maps only: a grain list has no map
-        write_json(tmp / "stiffness.json", {
+        log.wrote(tmp)
+        stiffness = {
             **{k: np.round(v, 6).tolist() for k, v in agg.tensors.items()},
             "density_kg_m3": round(agg.density_kg_m3, 3), "units": "GPa, Voigt order 11 22 33 23 13 12",
-            "frame": "structural (X lineation, Z foliation normal)", "used_for_velocities": agg.average})
+            "frame": "structural (X lineation, Z foliation normal)", "used_for_velocities": agg.average}
+        write_json(tmp / "stiffness.json", stiffness)
+        write_tensor_texts(stiffness, tmp, sample.name)     # the same numbers as plain 6x6 text
+        log.wrote(tmp)
         seismic.grid.table().to_csv(tmp / "velocities.csv", index=False)
+        log.wrote(tmp)
         if seismic.sweep is not None and seismic.field is not None:
-            _write_sweep(tmp, sample.name, seismic)
-        from fabric2seis.figures.velocities import DEFAULT_PANELS, velocity_figure
+            _write_sweep(tmp, sample.name, seismic, log)
+        from fabric2seis.figures.velocities import velocity_figure
 
-        panels = (sample.settings.get("figures") or {}).get("velocities", {}).get("panels", DEFAULT_PANELS)
         velocity_figure(tmp / "velocities", sample.name, agg.stiffness, agg.density_kg_m3, agg.average,
-                        int(summary["n_grains"]), panels=panels, grid=seismic.grid)
+                        int(summary["n_grains"]), panels=velocity_panels(sample.settings), grid=seismic.grid)
+        log.wrote(tmp)
         write_json(tmp / "provenance.json", provenance(path, sample))
+        log.wrote(tmp)
         if sample.grains is not None:
             grains_table(sample.grains, sample.points.minerals).to_csv(tmp / "grains.csv", index=False)
+            log.wrote(tmp)
         log.say(f"done, results in {out}")
         (tmp / "run.log").write_text("\n".join(log.lines) + "\n")
     return out
 
 
-def _write_sweep(folder: Path, sample_name: str, seismic: SeismicResult) -> None:
+def _write_sweep(folder: Path, sample_name: str, seismic: SeismicResult, log: RunLog) -> None:
     """The splitting of the placed layer against back-azimuth: table and figure."""
     import pandas as pd
 
@@ -281,4 +363,6 @@ def _write_sweep(folder: Path, sample_name: str, seismic: SeismicResult) -> None
     pd.DataFrame({"back_azimuth_deg": sweep["back_azimuth_deg"], "fast_azimuth_deg": sweep["fast_azimuth_deg"].round(3),
                   "delay_s": sweep["delay_s"].round(5), "incidence_deg": field["sweep_incidence_deg"]}
                  ).to_csv(folder / "splitting_vs_backazimuth.csv", index=False)
+    log.wrote(folder)
     splitting_figure(folder / "splitting_vs_backazimuth", sample_name, sweep, field)
+    log.wrote(folder)

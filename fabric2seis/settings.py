@@ -118,7 +118,7 @@ class _UniqueKeyLoader(yaml.SafeLoader):
         return super().construct_mapping(node, deep)
 
 
-def validate(settings: dict, source: str | Path | None = None) -> dict:
+def validate(settings: dict, source: str | Path | None = None, minerals_dir: str | Path | None = None) -> dict:
     """Check settings against the schema, plus the checks a schema cannot express.
 
     Parameters
@@ -127,6 +127,9 @@ def validate(settings: dict, source: str | Path | None = None) -> dict:
         Settings to check.
     source : str or Path, optional
         Where they came from, for error messages.
+    minerals_dir : str or Path, optional
+        The user's mineral folder the poles of ``figures.poles`` may name minerals of; the
+        settings' own ``minerals_dir`` if not given.
 
     Returns
     -------
@@ -160,10 +163,49 @@ def validate(settings: dict, source: str | Path | None = None) -> dict:
                          "key frame")
     poles = (settings.get("figures") or {}).get("poles")
     if poles:                      # minerals and their lattices: read only when poles are listed
+        from fabric2seis.elastic.minerals import load_library
         from fabric2seis.fabric.poles import check_pole_setting
 
-        check_pole_setting(poles, source)
+        folder = minerals_dir or settings.get("minerals_dir")
+        check_pole_setting(poles, source, load_library([folder] if folder else []))
     return settings
+
+
+def check_inside_project(key: str, value: str | Path, source: str | Path | None, allowed: bool = False,
+                         project: str | Path | None = None) -> None:
+    """Refuse a path written in a settings file that lies outside the project folder.
+
+    The rule of the workflow's config files (``workflow.config.check_config_paths``), for one key
+    of any settings file: a relative path is taken from the project folder (the folder the command
+    runs in) and must stay inside it, and so must an absolute one, unless ``allowed``
+    (``allow_outside_paths: true``). Paths typed on the command line are not checked.
+
+    Parameters
+    ----------
+    key : str
+        The settings key, for the message.
+    value : str or Path
+        The path as written.
+    source : str or Path or None
+        The settings file, for the message.
+    allowed : bool
+        ``allow_outside_paths`` of the settings.
+    project : str or Path, optional
+        The project folder (default: the current folder).
+
+    Raises
+    ------
+    InputError
+        Naming the file and key, if the path leaves the project and that is not allowed.
+    """
+    if allowed:
+        return
+    project = Path(project if project is not None else Path.cwd()).resolve()
+    target = (project / str(value)).resolve()
+    if target != project and project not in target.parents:
+        raise InputError(f"{key} '{value}' lies outside the project folder {project}; give it on the command "
+                         f"line (fabric2seis sample --minerals DIR), or set allow_outside_paths: true",
+                         source, f"key {key}")
 
 
 def _check_finite(data, key: str, source) -> None:
@@ -261,8 +303,19 @@ def defaults() -> dict:
     InputError
         If the defaults file is not valid.
     """
-    path = PROJECT_DEFAULTS if PROJECT_DEFAULTS.is_file() else PACKAGED_DEFAULTS
+    path = defaults_file()
     return validate(read_yaml(path), path)
+
+
+def defaults_file() -> Path:
+    """Name the file :func:`defaults` reads: config/config.yaml here if present, else the packaged copy.
+
+    Returns
+    -------
+    Path
+        The defaults file.
+    """
+    return PROJECT_DEFAULTS if PROJECT_DEFAULTS.is_file() else PACKAGED_DEFAULTS
 
 
 def sidecar_of(input_path: str | Path) -> Path:
@@ -284,11 +337,15 @@ def sidecar_of(input_path: str | Path) -> Path:
 
 
 def settings_for(input_path: str | Path, settings_path: str | Path | None = None,
-                 base: dict | None = None) -> tuple[dict, str | None]:
+                 base: dict | None = None, minerals_dir: str | Path | None = None) -> tuple[dict, str | None]:
     """Gather the settings of one sample and the file they came from (None: defaults only).
 
     ``base`` replaces the defaults (the workflow passes its config, ``--config`` values included),
     merged over the defaults so that keys it leaves out keep their default values.
+    ``minerals_dir`` (``fabric2seis sample --minerals DIR``) replaces the settings key of that
+    name. A ``minerals_dir`` written in the sidecar, the settings file or the defaults must lie in
+    the project folder unless ``allow_outside_paths`` is true (:func:`check_inside_project`);
+    the workflow checks its own config files (``workflow.config.check_config_paths``).
 
     Parameters
     ----------
@@ -298,23 +355,47 @@ def settings_for(input_path: str | Path, settings_path: str | Path | None = None
         A settings file to use instead of the sidecar; it must exist.
     base : dict, optional
         Settings to use instead of the defaults.
+    minerals_dir : str or Path, optional
+        A folder of the user's mineral files given on the command line; it must exist.
 
     Returns
     -------
     settings : dict
-        Validated settings.
+        Validated settings; ``minerals_dir`` is the folder used, or None.
     source : str or None
         The settings file merged over the base, or None.
 
     Raises
     ------
     InputError
-        If a settings file cannot be read or is not valid.
+        If a settings file cannot be read or is not valid, or the minerals folder does not exist
+        or (written in a file) lies outside the project.
     """
+    if minerals_dir is not None and not Path(minerals_dir).is_dir():
+        raise InputError("no such folder of mineral files", minerals_dir, "option --minerals")
+    from_files = base is None
     base = defaults() if base is None else validate(merge(defaults(), base), "the workflow's config")
     chosen = Path(settings_path) if settings_path else sidecar_of(input_path)
-    if settings_path is None and not chosen.is_file():
-        return base, None
-    own = read_yaml(chosen)
-    validate(own, chosen)
-    return validate(merge(base, own), chosen), str(chosen)
+    has_file = settings_path is not None or chosen.is_file()
+    own = read_yaml(chosen) if has_file else {}
+    folder = minerals_dir or _text(own.get("minerals_dir")) or base.get("minerals_dir")
+    settings, source = base, None
+    if has_file:
+        validate(own, chosen, folder)
+        settings, source = validate(merge(base, own), chosen, folder), str(chosen)
+    if minerals_dir is not None:
+        settings = {**settings, "minerals_dir": str(minerals_dir)}
+    elif settings.get("minerals_dir"):
+        written = chosen if own.get("minerals_dir") else (defaults_file() if from_files else None)
+        if written is not None:
+            check_inside_project("minerals_dir", settings["minerals_dir"], written,
+                                 settings.get("allow_outside_paths") is True)
+        if not Path(settings["minerals_dir"]).is_dir():
+            raise InputError(f"no such folder of mineral files: {settings['minerals_dir']}",
+                             written or "the workflow's config", "key minerals_dir")
+    return settings, source
+
+
+def _text(value) -> str | None:
+    """A string value of a settings file, else None (the schema refuses other types later)."""
+    return value if isinstance(value, str) and value else None

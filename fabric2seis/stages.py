@@ -44,6 +44,13 @@ class Sample:
     step
         Map step (spacing of neighbouring points along x) in the file's length unit; None for a
         grain list.
+    dropped_phases
+        Phases left out by the settings (``drop_phases``), by name: ``file_phases``, ``n_points``,
+        ``former_fraction`` and its ``fraction_source``.
+    phase_notes
+        Cautions about the phases (a mineral of ``drop_phases`` the sample does not hold).
+    user_minerals
+        The user's own mineral entries (``minerals_dir``): ``name``, ``file``, ``replaces``.
     """
 
     name: str
@@ -56,6 +63,9 @@ class Sample:
     grid: str | None
     n_small_grain_points: int
     step: float | None = None
+    dropped_phases: dict = field(default_factory=dict)
+    phase_notes: list = field(default_factory=list)
+    user_minerals: list = field(default_factory=list)
 
 
 @dataclass

@@ -18,6 +18,7 @@ weights (grain lists), so intervals describe the sampling of grains, the unit th
 from __future__ import annotations
 
 import os
+from collections.abc import Callable
 
 import numpy as np
 
@@ -459,7 +460,8 @@ _AGGREGATE_FLOORS: dict = {}
 
 
 def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.ndarray,
-                     halfwidth_deg: float, rng: np.random.Generator) -> dict[str, np.ndarray | None]:
+                     halfwidth_deg: float, rng: np.random.Generator,
+                     done: Callable[[float], None] | None = None) -> dict[str, np.ndarray | None]:
     """Compute J (quadratic form over the pair matrix) and M (weighted pairs of distinct grains) of every resample.
 
     Parameters
@@ -476,6 +478,9 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
         Halfwidth of the kernel of the ODF behind J, degrees.
     rng : numpy.random.Generator
         Picks the grain pairs of the M-index when there are too many to take all.
+    done : callable, optional
+        Told the share of the work finished (0 to 1) as blocks of grains (J) and of grain pairs
+        (M) are finished, for a progress bar; the numbers do not depend on it.
 
     Returns
     -------
@@ -490,9 +495,12 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
     Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, New York.
     """
     j = None
+    tell = done or (lambda _fraction: None)
+    j_part = 0.5 if len(quat) <= MAX_J_GRAINS else 0.0          # shares of the bar: J, then M
     if len(quat) <= MAX_J_GRAINS:
         v = (counts * weights[None, :]).T                            # (N, B), unnormalised
-        forms, diagonal = fabric.j_quadratic_forms(quat, v, mineral.symmetry, halfwidth_deg)
+        forms, diagonal = fabric.j_quadratic_forms(quat, v, mineral.symmetry, halfwidth_deg,
+                                                   done=lambda f: tell(j_part * f))
         j = resampled_j(forms, diagonal, counts, weights)
     # M: the uncorrelated pairs of the original grains are found and measured once; a resample
     # weights pair (i, j) by how often both grains were drawn, c_i c_j (pairs of distinct grains)
@@ -511,6 +519,7 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
         weight = counts[:, i[sl]] * counts[:, k[sl]]                  # (B, pairs)
         one_hot = _one_hot(bins[sl], len(reference))
         hist += (one_hot.T @ weight.T).T
+        tell(j_part + (1.0 - j_part) * min(start + 100_000, len(i)) / len(i))
     total = hist.sum(axis=1, keepdims=True)
     m = np.full(len(counts), np.nan)          # a resample of one distinct grain has no pairs
     ok = total[:, 0] > 0

@@ -54,7 +54,6 @@ def _fake_suite(tmp_path, monkeypatch, outcomes):
     from fabric2seis.workflow.status import SampleStatus, write_status
 
     monkeypatch.chdir(tmp_path)
-    (tmp_path / "Snakefile").write_text("")
     (tmp_path / "config").mkdir(exist_ok=True)
     (tmp_path / "config" / "config.yaml").write_text("{}\n")
     (tmp_path / "s").mkdir(exist_ok=True)
@@ -94,3 +93,48 @@ def test_suite_help_says_where_snakemakes_arguments_go_and_the_exit_codes():
     out = run("suite", "--help")
     assert out.returncode == 0 and "'--'" in out.stdout and "--strict" in out.stdout
     assert "3 with --strict" in " ".join(out.stdout.split())
+
+
+def test_suite_runs_the_packaged_workflow_in_the_current_folder(tmp_path, monkeypatch, capsys):
+    # issue 14: `fabric2seis suite` needs no Snakefile in the folder; --config FILE goes to Snakemake as a
+    # config file (merged with any --configfile, since Snakemake keeps only the last one: its --help)
+    from fabric2seis.cli import main
+    from fabric2seis.workflow import SNAKEFILE
+
+    commands = _fake_suite(tmp_path, monkeypatch, {"a": "ok"})
+    (tmp_path / "mine.yaml").write_text("odf: {halfwidth_deg: 15}\n")
+    (tmp_path / "more.yaml").write_text("bootstrap: {n: 10}\n")
+    assert main(["suite", "--samples", "s", "--results", "r", "--config", "mine.yaml", "averaging=voigt",
+                 "--", "--configfile", "more.yaml", "-n"]) == 0
+    command = commands[-1]
+    assert command[command.index("--snakefile") + 1] == str(SNAKEFILE) and SNAKEFILE.is_file()
+    assert command.count("--configfile") == 1 and command.count("--config") == 1
+    files = command[command.index("--configfile") + 1:command.index("--config")]
+    assert files == ["mine.yaml", "more.yaml"]
+    assert command[command.index("--config") + 1:command.index("--config") + 4] == [
+        "samples_dir=s", "results_dir=r", "averaging=voigt"]
+
+
+def test_suite_checks_a_config_file_before_snakemake_and_names_a_missing_one(tmp_path, monkeypatch, capsys):
+    from fabric2seis.cli import main
+
+    commands = _fake_suite(tmp_path, monkeypatch, {"a": "ok"})
+    (tmp_path / "bad.yaml").write_text("odf: {halfwidht_deg: 15}\n")     # a misspelt key
+    assert main(["suite", "--samples", "s", "--results", "r", "--config", "bad.yaml"]) == 2
+    assert main(["suite", "--samples", "s", "--results", "r", "--config", "missing.yaml"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 2 and commands == []
+    assert err[0].startswith("fabric2seis suite: error: bad.yaml") and "halfwidth_deg" in err[0]
+    assert err[1].startswith("fabric2seis suite: error: missing.yaml, option --config: no such config file")
+
+
+def test_suite_without_samples_where_there_are_no_demo_samples_says_to_give_them(tmp_path):
+    # issue 14: from a folder without demo_samples/, one line naming --samples, exit 2, nothing written
+    run = subprocess.run([sys.executable, "-m", "fabric2seis", "suite"], cwd=tmp_path, capture_output=True, text=True)
+    assert run.returncode == 2 and run.stderr.count("\n") == 1 and "Traceback" not in run.stderr
+    assert "demo_samples" in run.stderr and "--samples DIR" in run.stderr
+    (tmp_path / "empty").mkdir()
+    run = subprocess.run([sys.executable, "-m", "fabric2seis", "suite", "--samples", "empty"], cwd=tmp_path,
+                         capture_output=True, text=True)
+    assert run.returncode == 2 and run.stderr.count("\n") == 1 and "no EBSD exports" in run.stderr
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["empty"]

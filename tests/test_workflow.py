@@ -7,6 +7,7 @@ import subprocess
 import sys
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 import pytest
 
@@ -78,6 +79,34 @@ def test_suite_outputs_agree_with_the_sample_command(suite, tmp_path):
     a = json.loads((results / "two" / "summary.json").read_text())
     b = json.loads((direct / "summary.json").read_text())
     assert a == b
+
+
+def test_spreadsheet_tables_and_text_tensors_of_the_suite_hold_the_summaries_numbers(suite):
+    # the numbers a user copies into a paper, read back through the suite command's own files and
+    # compared with summary.json and stiffness.json read independently (CONTRACT.md outputs)
+    _, results, _ = suite
+    short = pd.read_csv(results / "suite_table.csv").set_index("sample")
+    long = pd.read_csv(results / "suite_long.csv", keep_default_na=False)
+    assert list(long.columns) == ["sample", "phase", "quantity", "value", "low", "high", "unit"]
+    assert (short.loc["broken", "status"] != "ok") and short.loc[["one sample", "two"], "status"].eq("ok").all()
+    assert "n_grains,".encode() in (results / "suite_table.csv").read_bytes()
+    assert ",120," in (results / "suite_table.csv").read_text()          # an integer stays an integer
+    for name in ("one sample", "two"):
+        summary = json.loads((results / name / "summary.json").read_text())
+        row = short.loc[name]
+        assert row["Vp max (km/s)"] == pytest.approx(summary["seismic"]["vp_max_km_s"], rel=1e-6)
+        assert row["max AVs (%)"] == pytest.approx(summary["seismic"]["avs_max_pct"], rel=1e-6)
+        assert row["J main phase"] == pytest.approx(summary["phases"]["olivine"]["J"], rel=1e-6)
+        assert [row["J 95% low"], row["J 95% high"]] == pytest.approx(summary["uncertainty"]["olivine.J"], rel=1e-6)
+        j = long[(long["sample"] == name) & (long["phase"] == "olivine") & (long["quantity"] == "J-index")]
+        assert len(j) == 1 and j["unit"].iloc[0] == "dimensionless"
+        assert j[["value", "low", "high"]].astype(float).iloc[0].tolist() == pytest.approx(
+            [summary["phases"]["olivine"]["J"], *summary["uncertainty"]["olivine.J"]], rel=1e-6)
+        stiffness = json.loads((results / name / "stiffness.json").read_text())
+        for average in ("voigt", "reuss", "hill", "geometric"):
+            text = (results / name / f"stiffness_{average}.txt").read_text()
+            assert "GPa" in text and "11 22 33 23 13 12" in text and "kg m^-3" in text
+            assert np.allclose(np.loadtxt(results / name / f"stiffness_{average}.txt"), stiffness[average], atol=1e-6)
 
 
 def _report_structure(samples, results, out):
@@ -235,6 +264,26 @@ def test_editing_one_sidecar_reruns_only_that_sample(tmp_path):
     dry = subprocess.run(cmd[:3] + ["-n"] + cmd[3:-1], cwd=ROOT, capture_output=True, text=True, timeout=300)
     text = dry.stdout + dry.stderr
     assert _planned_jobs(text) == [("sample", "s1"), ("sample_report", "s1")], text[-1500:]
+
+
+def test_own_minerals_reach_every_sample_of_the_suite_and_an_edit_reruns_it(tmp_path):
+    # `fabric2seis suite --minerals DIR`: an entry of a packaged name replaces it (here olivine with a
+    # density changed by hand), and editing that file makes the suite run the samples again
+    samples, results = _small_suite(tmp_path)
+    own = tmp_path / "own minerals"
+    own.mkdir()
+    packaged = (ROOT / "fabric2seis" / "elastic" / "minerals" / "data" / "olivine.yaml").read_text()
+    cmd = [sys.executable, "-m", "fabric2seis", "suite", "--samples", str(samples), "--results", str(results),
+           "--cores", "1", "--minerals", str(own), "-q"]
+    densities = []
+    for density in (3300.0, 3310.0):
+        (own / "olivine.yaml").write_text(re.sub(r"(?m)^density_kg_m3:.*$", f"density_kg_m3: {density}", packaged))
+        run = subprocess.run(cmd, cwd=tmp_path, capture_output=True, text=True, timeout=900)
+        assert run.returncode == 0, run.stderr[-2000:]
+        summary = json.loads((results / "s0" / "summary.json").read_text())
+        densities.append(summary["density_kg_m3"])
+        assert summary["mineral_library"]["used"]["olivine"]["origin"] == "user"
+    assert densities == [3300.0, 3310.0]      # a one-mineral rock has the mineral's density (common practice)
 
 
 def test_settings_given_with_config_on_the_command_line_reach_the_samples(tmp_path):

@@ -87,6 +87,9 @@ FIGURE_POLES: dict[str, tuple[str, ...]] = {
     "muscovite": ("(001)", "[100]"),
     "biotite": ("(001)", "[100]"),
     "chlorite": ("(001)", "[100]"),
+    "lizardite": ("c [0001]", "a [2-1-10]"),
+    "orthoclase": ("(010)", "(001)", "[100]"),
+    "omphacite": ("[001]", "(010)", "(100)"),
     "quartz": ("c [0001]", "a [2-1-10]", "r (10-11)", "z (01-11)"),
     "calcite": ("c [0001]", "a [2-1-10]", "r (10-14)"),
     "ice": ("c [0001]", "a [2-1-10]"),
@@ -234,7 +237,8 @@ def figure_poles(mineral, chosen: Mapping[str, list[str]] | None = None) -> list
     return _entry_for(mineral, chosen) or list(FIGURE_POLES.get(mineral.name, ())) or default_poles(mineral)
 
 
-def check_pole_setting(chosen: Mapping[str, list[str]] | None, source: str | Path | None = None) -> None:
+def check_pole_setting(chosen: Mapping[str, list[str]] | None, source: str | Path | None = None,
+                       library: dict | None = None) -> None:
     """Refuse a settings key ``figures.poles`` with an unknown mineral or an unreadable pole.
 
     Parameters
@@ -243,6 +247,9 @@ def check_pole_setting(chosen: Mapping[str, list[str]] | None, source: str | Pat
         Mineral name or alias -> pole labels.
     source : str or Path, optional
         The settings file, for the message.
+    library : dict of str to Mineral, optional
+        Where the minerals are looked up (with a user's own minerals); the packaged library if
+        not given.
 
     Raises
     ------
@@ -256,7 +263,7 @@ def check_pole_setting(chosen: Mapping[str, list[str]] | None, source: str | Pat
     for key, labels in (chosen or {}).items():
         where = f"key figures.poles.{key}"
         try:
-            mineral = find_mineral(str(key))
+            mineral = find_mineral(str(key), library)
         except InputError as exc:
             raise InputError(exc.message, source, where) from None
         if mineral.name in seen:

@@ -25,6 +25,7 @@ from memory).
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
@@ -295,7 +296,7 @@ def j_pair_matrix(quat: np.ndarray, symmetry, halfwidth_deg: float = 10.0, chunk
 
 
 def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: float = 10.0,
-                      chunk: int = 512) -> tuple[np.ndarray, np.ndarray]:
+                      chunk: int = 512, done: Callable[[float], None] | None = None) -> tuple[np.ndarray, np.ndarray]:
     """v_b^T A v_b for the columns of v, and the diagonal of A, without storing A.
 
     A is the matrix of ``j_pair_matrix``; it is built one block of rows at a time, dense, and
@@ -316,6 +317,8 @@ def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: 
         Kernel halfwidth (degrees).
     chunk : int
         Rows of A built at a time.
+    done : callable, optional
+        Told the share of the blocks finished (0 to 1) after each block, for a progress bar.
 
     Returns
     -------
@@ -349,8 +352,13 @@ def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: 
 
     # blocks fixed in advance, shared among threads (numpy releases the GIL) and added in their
     # order: the number of threads changes the time, not the sums (fabric2seis/threads.py)
+    starts = range(0, len(q), chunk)
+    parts: list[tuple[np.ndarray, np.ndarray]] = []
     with ThreadPoolExecutor(worker_count()) as pool:
-        parts = list(pool.map(block_terms, range(0, len(q), chunk)))
+        for terms in pool.map(block_terms, starts):
+            parts.append(terms)
+            if done is not None:
+                done(len(parts) / len(starts))
     forms = np.zeros(v.shape[1])
     for part, _ in parts:
         forms += part

@@ -21,6 +21,9 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 from matplotlib import transforms
+from matplotlib.axes import Axes
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
 from matplotlib.patches import PathPatch
 from matplotlib.path import Path as DrawnPath
 from matplotlib.ticker import FixedLocator, MaxNLocator, NullFormatter, NullLocator, ScalarFormatter
@@ -34,6 +37,7 @@ from fabric2seis.figures.projection import (
     frame_axes,
     plt,
     projection_note,
+    projection_text,
     save,
     trend_plunge_text,
 )
@@ -191,16 +195,78 @@ def pole_density_grid(mineral, quat: np.ndarray, weights: np.ndarray, pole, half
     return a, b, d, dirs
 
 
-def pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_deg: float, weighting: str, *,
-                 hemisphere: str = "lower", levels: int | Sequence[float] | None = None,
-                 noun: str = "grains", grain_counts: Mapping[str, int] | None = None,
-                 point_counts: Mapping[str, int] | None = None) -> list[str]:
+def _pole_panel(ax, a, b, d, lv, extend: str, pole):
+    """One pole figure panel: filled contours in m.u.d., the 1 m.u.d. line, the frame and the pole as title."""
+    filled = ax.contourf(a, b, d, levels=lv, cmap="viridis", extend=extend)
+    filled.set_rasterized(True)  # keeps the PDF small and quick to write
+    ax.contour(a, b, d, levels=[1.0], colors="white", linewidths=0.6)
+    frame_axes(ax)
+    ax.set_title(pole.math_text(), fontsize=9)
+    return filled
+
+
+def pole_figure_panel(mineral, quat: np.ndarray, weights: np.ndarray, pole, halfwidth_deg: float, *,
+                      hemisphere: str = "lower", levels: int | Sequence[float] | None = None,
+                      ax: Axes | None = None, heading: str = "") -> Figure:
+    """Draw one pole figure (one pole of one phase) with its colour bar, on ``ax`` or a new figure.
+
+    The same drawing as a panel of :func:`pole_figure_sheet`, for notebooks and figures of one's own.
+
+    Parameters
+    ----------
+    mineral : fabric2seis.elastic.minerals.Mineral
+        The phase's mineral.
+    quat : numpy.ndarray
+        Unit quaternions (N, 4), structural frame.
+    weights : numpy.ndarray
+        Weights (N,), non-negative with a positive sum.
+    pole : str or fabric2seis.fabric.poles.Pole
+        The pole label (``"[100]"``, ``"(001)"``).
+    halfwidth_deg : float
+        Halfwidth of the density kernel, degrees.
+    hemisphere : {"lower", "upper"}
+        Half of the sphere drawn.
+    levels : int or sequence of float, optional
+        Contour levels (:func:`contour_levels`).
+    ax : matplotlib.axes.Axes, optional
+        Where to draw; a new figure of one panel if not given.
+    heading : str
+        For a new figure: its heading (sample, weighting); the panel's title names the mineral,
+        the pole and the number of orientations.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        The figure holding the panel.
+    """
+    pole = parse_pole(pole) if isinstance(pole, str) else pole
+    if ax is None:
+        fig = Figure(figsize=(3.4, 4.1), layout="constrained")
+        FigureCanvasAgg(fig)
+        ax = fig.add_subplot()
+        if heading:
+            fig.suptitle(heading, fontsize=8)
+    a, b, d, _ = pole_density_grid(mineral, quat, weights, pole, halfwidth_deg, hemisphere)
+    lv, extend = contour_levels(np.nanmax(d), levels)
+    filled = _pole_panel(ax, a, b, d, lv, extend, pole)
+    fig_of = ax.get_figure(root=True)
+    assert fig_of is not None
+    cbar = fig_of.colorbar(filled, ax=ax, location="bottom", shrink=0.8, pad=0.02, aspect=25)
+    cbar.set_label("pole density (m.u.d.)", fontsize=8)
+    cbar.ax.tick_params(labelsize=7)
+    ax.set_title(f"{mineral.name} {pole.math_text()}, {len(quat):,} orientations\n"
+                 f"{projection_text(hemisphere, 'structural frame')}", fontsize=8)
+    return fig_of
+
+
+def pole_figure_sheet(sample_name: str, phases: list[tuple], halfwidth_deg: float, weighting: str, *,
+                      hemisphere: str = "lower", levels: int | Sequence[float] | None = None,
+                      noun: str = "grains", grain_counts: Mapping[str, int] | None = None,
+                      point_counts: Mapping[str, int] | None = None) -> Figure:
     """Draw contoured pole densities in m.u.d.: one band per phase, one panel per pole, a side table.
 
     Parameters
     ----------
-    stem : str or Path
-        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
     sample_name : str
         Name shown in the heading.
     phases : list of tuple
@@ -221,8 +287,8 @@ def pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_deg: flo
 
     Returns
     -------
-    list of str
-        The files written.
+    matplotlib.figure.Figure
+        The figure.
     """
     grains, points = dict(grain_counts or {}), dict(point_counts or {})
     n_cols = max(len(p[3]) for p in phases)
@@ -240,11 +306,7 @@ def pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_deg: flo
                 ax.axis("off")
                 continue
             d = densities[col]
-            filled = ax.contourf(a, b, d, levels=lv, cmap="viridis", extend=extend)
-            filled.set_rasterized(True)  # keeps the PDF small and quick to write
-            ax.contour(a, b, d, levels=[1.0], colors="white", linewidths=0.6)
-            frame_axes(ax)
-            ax.set_title(poles[col].math_text(), fontsize=9)
+            filled = _pole_panel(ax, a, b, d, lv, extend, poles[col])
             k = np.nanargmax(d)
             rows.append([poles[col].math_text(), f"{np.nanmax(d):.1f}", trend_plunge_text(dirs.reshape(-1, 3)[k]),
                          f"{np.nanmin(d):.1f}"])
@@ -258,7 +320,26 @@ def pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_deg: flo
     fig.suptitle(f"{sample_name}: pole figures\n{weighting} weighting, kernel halfwidth {halfwidth_deg:g}°; "
                  "white line: 1 m.u.d. (a uniform distribution)", fontsize=10)
     projection_note(fig, hemisphere, "structural frame: X lineation (right), Z foliation normal (up), Y centre")
-    return save(fig, stem)
+    return fig
+
+
+def pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_deg: float, weighting: str,
+                 **options) -> list[str]:
+    """Draw the pole figures (:func:`pole_figure_sheet`) and write them as PNG and PDF.
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    sample_name, phases, halfwidth_deg, weighting, **options
+        As :func:`pole_figure_sheet` takes them.
+
+    Returns
+    -------
+    list of str
+        The files written.
+    """
+    return save(pole_figure_sheet(sample_name, phases, halfwidth_deg, weighting, **options), stem)
 
 
 def _sector_screen(v: np.ndarray) -> np.ndarray:
@@ -342,10 +423,10 @@ def _angle_to(direction: np.ndarray, targets: np.ndarray, ops: np.ndarray) -> np
     return np.degrees(np.arccos(np.clip(cos, 0.0, 1.0)))
 
 
-def inverse_pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_deg: float, weighting: str,
-                         sample_directions=STRUCTURAL_AXES, *, levels: int | Sequence[float] | None = None,
-                         noun: str = "grains", grain_counts: Mapping[str, int] | None = None,
-                         point_counts: Mapping[str, int] | None = None) -> list[str]:
+def inverse_pole_figure_sheet(sample_name: str, phases: list[tuple], halfwidth_deg: float, weighting: str,
+                              sample_directions=STRUCTURAL_AXES, *, levels: int | Sequence[float] | None = None,
+                              noun: str = "grains", grain_counts: Mapping[str, int] | None = None,
+                              point_counts: Mapping[str, int] | None = None) -> Figure:
     """Density of structural axes in crystal coordinates, in the fundamental sector of the Laue class.
 
     The sector and its edge come from orix (``Symmetry.fundamental_sector`` of the Laue class);
@@ -354,8 +435,6 @@ def inverse_pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_
 
     Parameters
     ----------
-    stem : str or Path
-        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
     sample_name : str
         Name shown in the heading.
     phases : list of tuple
@@ -371,12 +450,12 @@ def inverse_pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_
     noun : str
         What one orientation is (``"grains"`` or ``"points"``).
     grain_counts, point_counts : mapping of str to int, optional
-        Grains and points of each mineral, by name (see ``pole_figures``).
+        Grains and points of each mineral, by name (see ``pole_figure_sheet``).
 
     Returns
     -------
-    list of str
-        The files written.
+    matplotlib.figure.Figure
+        The figure.
     """
     grains, points = dict(grain_counts or {}), dict(point_counts or {})
     n_cols = len(sample_directions)
@@ -437,15 +516,30 @@ def inverse_pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_
                  f"{weighting} weighting, kernel halfwidth {halfwidth_deg:g}°; white line: 1 m.u.d.; "
                  "one fundamental sector of the Laue class; dots: the phase's poles", fontsize=10)
     projection_note(fig, "upper", "crystal frame: c* at the centre, a to the right")
-    return save(fig, stem)
+    return fig
+
+
+def inverse_pole_figures(stem, sample_name: str, phases: list[tuple], halfwidth_deg: float, weighting: str,
+                         **options) -> list[str]:
+    """Draw the inverse pole figures (:func:`inverse_pole_figure_sheet`) and write them as PNG and PDF.
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    sample_name, phases, halfwidth_deg, weighting, **options
+        As :func:`inverse_pole_figure_sheet` takes them.
+
+    Returns
+    -------
+    list of str
+        The files written.
+    """
+    return save(inverse_pole_figure_sheet(sample_name, phases, halfwidth_deg, weighting, **options), stem)
 
 
 def convergence_figure(stem, sample_name: str, results: dict) -> list[str]:
-    """Draw J, M and the maximum pole density against the number of grains, one line per phase.
-
-    The grain axis is logarithmic with plain numbers at the subset sizes; each value axis spans at
-    least 5 % either side of every phase's value with all grains (a shaded band), so that changes
-    of a percent or so look as small as they are.
+    """Draw the convergence of the fabric indices (:func:`convergence_sheet`) and write it as PNG and PDF.
 
     Parameters
     ----------
@@ -460,6 +554,28 @@ def convergence_figure(stem, sample_name: str, results: dict) -> list[str]:
     -------
     list of str
         The files written.
+    """
+    return save(convergence_sheet(sample_name, results), stem)
+
+
+def convergence_sheet(sample_name: str, results: dict) -> Figure:
+    """Draw J, M and the maximum pole density against the number of grains, one line per phase.
+
+    The grain axis is logarithmic with plain numbers at the subset sizes; each value axis spans at
+    least 5 % either side of every phase's value with all grains (a shaded band), so that changes
+    of a percent or so look as small as they are.
+
+    Parameters
+    ----------
+    sample_name : str
+        Name shown in the heading.
+    results : dict
+        Convergence of the fabric indices by mineral name (``PhaseFabricResult.convergence``).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        The figure.
     """
     fig, axes = plt.subplots(1, 3, figsize=(10.5, 3.6), layout="constrained")
     keys = (("J", "J-index"), ("M", "M-index"), ("max_mud", "largest pole density (m.u.d.)"))
@@ -492,7 +608,7 @@ def convergence_figure(stem, sample_name: str, results: dict) -> list[str]:
     fig.legend(loc="outside lower center", ncols=1, fontsize=7, frameon=False)
     fig.suptitle(f"{sample_name}: fabric indices on nested random subsets of the grains\n"
                  "shaded: within 5 % of the value with all grains", fontsize=9)
-    return save(fig, stem)
+    return fig
 
 
 def _settled_text(conv: dict) -> str:

@@ -4,6 +4,7 @@ a sheet whose legend has a row of its own, and fast-azimuth lines broken where t
 from __future__ import annotations
 
 import numpy as np
+from matplotlib.figure import Figure
 
 from fabric2seis.figures.projection import plt, save
 
@@ -83,6 +84,24 @@ def legend_in(key, handles, labels, n_cols: int) -> None:
 
 
 def splitting_figure(stem, sample_name: str, sweep: dict, summary: dict) -> list[str]:
+    """Draw the splitting against back-azimuth (:func:`splitting_sheet`) and write it as PNG and PDF.
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    sample_name, sweep, summary
+        As :func:`splitting_sheet` takes them.
+
+    Returns
+    -------
+    list of str
+        The files written.
+    """
+    return save(splitting_sheet(sample_name, sweep, summary), stem)
+
+
+def splitting_sheet(sample_name: str, sweep: dict, summary: dict) -> Figure:
     """Fast azimuth and delay against back-azimuth as ``waves.splitting.field_summary`` computed them.
 
     ``sweep``: ``back_azimuth_deg``, ``fast_azimuth_deg``, ``delay_s`` (arrays (B,)); ``summary``:
@@ -91,8 +110,6 @@ def splitting_figure(stem, sample_name: str, sweep: dict, summary: dict) -> list
 
     Parameters
     ----------
-    stem : str or Path
-        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
     sample_name : str
         Name shown in the title.
     sweep : dict
@@ -102,8 +119,8 @@ def splitting_figure(stem, sample_name: str, sweep: dict, summary: dict) -> list
 
     Returns
     -------
-    list of str
-        The files written.
+    matplotlib.figure.Figure
+        The figure.
     """
     fig, gs, key = sheet(6.0, [2.1, 1.9], 1)
     ax1 = fig.add_subplot(gs[0])
@@ -128,4 +145,4 @@ def splitting_figure(stem, sample_name: str, sweep: dict, summary: dict) -> list
     fig.suptitle(f"{sample_name}: predicted splitting of one layer {summary['layer_thickness_km']:g} km thick\n"
                  f"lineation trend {summary['lineation_trend_deg']:.0f}°, plunge "
                  f"{summary['lineation_plunge_deg']:.0f}°", fontsize=9)
-    return save(fig, stem)
+    return fig

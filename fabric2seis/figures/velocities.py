@@ -21,6 +21,7 @@ from functools import partial
 
 import numpy as np
 from matplotlib import patheffects
+from matplotlib.axes import Axes
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.collections import LineCollection
 from matplotlib.figure import Figure
@@ -352,6 +353,56 @@ def velocity_figure(stem, sample_name: str, c: np.ndarray, density_kg_m3: float,
     fig = velocity_sheet(c, density_kg_m3, sample_name=sample_name, average=average, n_grains=n_grains,
                          panels=panels, grid=grid)
     return save(fig, stem)
+
+
+def velocity_hemisphere(c: np.ndarray, density_kg_m3: float, panel: str = "vp", *, grid=None,
+                        ax: Axes | None = None, heading: str = "") -> Figure:
+    """Draw one hemisphere of the velocity sheet (one quantity of :data:`PANELS`) on ``ax`` or a new figure.
+
+    The same drawing as a panel of :func:`velocity_sheet`: filled contours, a colour bar with
+    units and callouts of the extremes (and the fast polarisation bars on ``"avs"``).
+
+    Parameters
+    ----------
+    c : numpy.ndarray, shape (6, 6)
+        Voigt stiffness, GPa, structural frame.
+    density_kg_m3 : float
+        Density, kg/m^3.
+    panel : str
+        A name from :data:`PANELS` (``"vp"``, ``"avs"``, ``"delay"`` ...).
+    grid : fabric2seis.waves.seismic.VelocityGrid, optional
+        The seismic stage's velocities, where the search for the extremes starts (:func:`extremes`).
+    ax : matplotlib.axes.Axes, optional
+        Where to draw; a new figure of one panel if not given.
+    heading : str
+        For a new figure: its first heading line (sample, grains, average); the projection and
+        frame follow on a second line.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        The figure holding the panel.
+
+    Raises
+    ------
+    ValueError
+        If the panel name is unknown.
+    """
+    (name,) = check_panels([panel])
+    if ax is None:
+        fig = Figure(figsize=(3.6, 4.6), layout="constrained")
+        FigureCanvasAgg(fig)
+        ax = fig.add_subplot(label=f"hemisphere {name}")
+        fig.suptitle(f"{heading}\n" * bool(heading) + "lower hemisphere, equal area, structural frame\n"
+                     "X lineation (right), Z foliation normal (up)", fontsize=8)
+    root = ax.get_figure(root=True)
+    assert root is not None
+    a, b, dirs, inside = disk_grid(161)
+    w = waves.plane_waves(c, density_kg_m3, dirs[inside])
+    _hemisphere(root, ax, name, a, b, inside, w, extremes(c, density_kg_m3, [name], grid))
+    if name == "avs":
+        _fast_bars(ax, c, density_kg_m3, float(_delay(w.vp_km_s, w.vs1_km_s, w.vs2_km_s).max()))
+    return root
 
 
 def _hemisphere(fig: Figure, ax, name: str, a, b, inside, w, found: list[Extreme]) -> None:

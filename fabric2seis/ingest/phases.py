@@ -1,8 +1,10 @@
-"""Phase mapping (names in the file -> library minerals) and cleaning of points."""
+"""Phase mapping (names in the file -> library minerals), phases left out (``drop_phases``) and cleaning of points."""
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from collections.abc import Collection
+from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 
@@ -77,6 +79,9 @@ class PointSet:
         Points read, dropped as unindexed, and dropped below the quality threshold.
     dropped
         Where the points left out of a map lie and why; None for grain lists.
+    left_out
+        Points of phases dropped by the settings, after cleaning: phase id -> (number of points,
+        their weight in the unit of ``weights``).
     """
 
     source: str
@@ -90,10 +95,12 @@ class PointSet:
     n_unindexed: int
     n_low_quality: int
     dropped: DroppedPoints | None = None
+    left_out: dict[int, tuple[int, float]] = field(default_factory=dict)
 
 
 def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
-               library: dict[str, Mineral] | None = None, settings_file=None) -> dict[int, Mineral]:
+               library: dict[str, Mineral] | None = None, settings_file=None,
+               skip: Collection[int] = ()) -> dict[int, Mineral]:
     """Library mineral of every phase id that has points.
 
     By the settings mapping ``phases`` (file name -> library name) first, else by the library's
@@ -110,6 +117,8 @@ def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
         The mineral library; the bundled one if not given.
     settings_file : str or Path, optional
         Where ``phases`` came from, for error messages (the data file if not given).
+    skip : collection of int
+        Phase ids left out (dropped by the settings): they need no library mineral.
 
     Returns
     -------
@@ -124,7 +133,7 @@ def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
     """
     library = load_library() if library is None else library
     by_file_name = {k.lower(): v for k, v in (phases or {}).items()}
-    present = sorted(set(np.unique(data.phase_id)) - {-1})
+    present = sorted(set(np.unique(data.phase_id)) - {-1} - set(skip))
     found = [data.phase_names.get(p, f"phase {p}") for p in present]
     out = {}
     for pid in present:
@@ -153,8 +162,11 @@ def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
 
 
 def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_min: float | None = None,
-                  quality_field: str | None = None) -> PointSet:
+                  quality_field: str | None = None, leave_out: Collection[int] = ()) -> PointSet:
     """Drop unindexed points and points below the quality threshold; attach minerals and weights.
+
+    Points of the phases ``leave_out`` (settings key ``drop_phases``, :func:`phases_to_drop`) are
+    left out after the cleaning; their number and weight are kept in ``PointSet.left_out``.
 
     Parameters
     ----------
@@ -166,6 +178,8 @@ def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_mi
         Smallest quality value kept, in the unit of the quality measure.
     quality_field : str, optional
         Quality measure to use; the first of ``DEFAULT_QUALITY`` the file has if not given.
+    leave_out : collection of int
+        Phase ids whose points are left out.
 
     Returns
     -------
@@ -196,6 +210,13 @@ def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_mi
         if not keep.any():
             raise InputError(f"no point passes clean.quality_min = {quality_min} on '{field}'",
                              data.source, "key clean.quality_min")
+    left_out = {}
+    for pid in leave_out:
+        sel = keep & (data.phase_id == pid)
+        w = data.weights[sel] if data.weights is not None else None
+        area = data.pixel_area if data.is_map else 1.0
+        left_out[int(pid)] = (int(sel.sum()), float(w.sum()) if w is not None else float(sel.sum()) * area)
+        keep &= data.phase_id != pid
     minerals: list = []
     index_of: dict[str, int] = {}
     for m in phase_minerals.values():
@@ -216,17 +237,18 @@ def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_mi
         weights = np.full(len(mineral_index), data.pixel_area if data.is_map else 1.0)
     dropped = None
     if data.x is not None and data.y is not None:
-        out = ~keep
+        out = ~keep & ~np.isin(data.phase_id, list(left_out))    # a dropped phase is no reason to show
         reason = np.where(indexed[out], LOW_QUALITY, NOT_INDEXED).astype(np.int8)
         dropped = DroppedPoints(data.x[out], data.y[out], reason)
     return PointSet(
         source=data.source, quat=kept(data.quat), mineral_index=mineral_index, minerals=minerals,
         x=kept(data.x), y=kept(data.y), weights=weights, n_read=data.n_points,
-        n_unindexed=n_unindexed, n_low_quality=n_low, dropped=dropped)
+        n_unindexed=n_unindexed, n_low_quality=n_low, dropped=dropped, left_out=left_out)
 
 
 def modal_fractions(mineral_index: np.ndarray, weights: np.ndarray, minerals: list[Mineral],
-                    override: dict[str, float] | None = None, source=None) -> dict[str, float]:
+                    override: dict[str, float] | None = None, source=None,
+                    library: dict[str, Mineral] | None = None) -> dict[str, float]:
     """Return the measured area (or weight) fraction of each mineral, or the settings' fractions.
 
     Parameters
@@ -242,6 +264,8 @@ def modal_fractions(mineral_index: np.ndarray, weights: np.ndarray, minerals: li
         minerals and sum to 1 (within 1e-3).
     source : str or Path, optional
         The settings file, for error messages.
+    library : dict of str to Mineral, optional
+        Where the names of ``override`` are looked up; the packaged library if not given.
 
     Returns
     -------
@@ -261,7 +285,7 @@ def modal_fractions(mineral_index: np.ndarray, weights: np.ndarray, minerals: li
     given = {}
     for key, value in override.items():
         try:
-            given[find_mineral(key).name] = float(value)
+            given[find_mineral(key, library).name] = float(value)
         except InputError:
             raise InputError(f"modal fraction given for '{key}', which is not a library mineral",
                              source, "key modal_fractions") from None
@@ -275,3 +299,101 @@ def modal_fractions(mineral_index: np.ndarray, weights: np.ndarray, minerals: li
         raise InputError(f"modal fractions sum to {sum(given.values()):.4f}, not 1 (within 1e-3)",
                          source, "key modal_fractions")
     return {m.name: given[m.name] for m in minerals}
+
+
+@dataclass
+class DroppedPhase:
+    """A phase the settings leave out (``drop_phases``): what it was and how much of the sample it made.
+
+    Attributes
+    ----------
+    name
+        The library mineral's name, or the name in the file when it is no library mineral.
+    file_phases
+        The names in the file of the phases left out under this name.
+    phase_ids
+        Their phase ids in the file.
+    """
+
+    name: str
+    file_phases: list[str]
+    phase_ids: list[int]
+
+
+def phases_to_drop(data: EBSDData, names: list[str] | None, phases: dict[str, str] | None = None,
+                   library: dict[str, Mineral] | None = None, settings_file=None
+                   ) -> tuple[list[DroppedPhase], list[str]]:
+    """Find the phases of a file the settings key ``drop_phases`` names.
+
+    A name matches a phase of the file by its name in the file (case-insensitively), or by the
+    library mineral the phase stands for (through ``phases`` or its own name). A library mineral
+    that this file does not hold is a caution, not an error (one settings file may serve many
+    samples); a name that is neither a phase of the file nor a library mineral is an error.
+
+    Parameters
+    ----------
+    data : EBSDData
+        The file's record.
+    names : list of str or None
+        The settings key ``drop_phases``.
+    phases : dict of str to str, optional
+        Settings mapping from phase names in the file to library names.
+    library : dict of str to Mineral, optional
+        The mineral library; the packaged one if not given.
+    settings_file : str or Path, optional
+        Where the settings came from, for error messages.
+
+    Returns
+    -------
+    dropped : list of DroppedPhase
+        The phases left out, one per name that matched.
+    notes : list of str
+        Cautions: library minerals named that the file does not hold.
+
+    Raises
+    ------
+    InputError
+        Naming the key (``drop_phases.0``): a name that is neither a phase of the file nor a library
+        mineral, or names that would leave out every phase of the file.
+    """
+    if not names:
+        return [], []
+    library = load_library() if library is None else library
+    by_file_name = {k.lower(): v for k, v in (phases or {}).items()}
+    present = sorted(set(np.unique(data.phase_id)) - {-1})
+    file_names = {pid: data.phase_names.get(pid, f"phase {pid}") for pid in present}
+
+    def mineral_of(text: str) -> Mineral | None:
+        try:
+            return find_mineral(text, library)
+        except InputError:
+            return None
+
+    stands_for = {pid: mineral_of(by_file_name.get(n.lower(), n)) for pid, n in file_names.items()}
+    dropped: list = []
+    notes: list[str] = []
+    taken: set[int] = set()
+    for k, name in enumerate(names):
+        wanted = " ".join(str(name).lower().split())
+        mineral = mineral_of(name)
+        ids = [pid for pid, n in file_names.items() if " ".join(n.lower().split()) == wanted
+               or (mineral is not None and getattr(stands_for[pid], "name", None) == mineral.name)]
+        if ids and set(ids) <= taken:       # named twice (in other words): left out once
+            continue
+        ids = [pid for pid in ids if pid not in taken]
+        if not ids:
+            if mineral is None:
+                found = ", ".join(repr(n) for n in file_names.values())
+                raise InputError(f"'{name}' is neither a phase of {Path(str(data.source)).name} ({found}) nor a "
+                                 f"library mineral{nearest(str(name), list(file_names.values()) + list(library))}",
+                                 settings_file, f"key drop_phases.{k}")
+            notes.append(f"drop_phases names {mineral.name}, which this sample does not hold; nothing left out "
+                         "for it")
+            continue
+        taken.update(ids)
+        label = mineral.name if mineral is not None else file_names[ids[0]]
+        dropped.append(DroppedPhase(label, [file_names[i] for i in ids], ids))
+    if taken and taken == set(present):
+        raise InputError(f"drop_phases leaves out every phase of the file ({', '.join(file_names.values())}); "
+                         "nothing would be left to work with", settings_file, "key drop_phases")
+    return dropped, notes

@@ -1,9 +1,12 @@
 """The workflow's config files: read safely before Snakemake reads them, and paths kept in the project.
 
-Snakemake reads config files with its own YAML loader, which evaluates templates in a file that
-asks for them (``__use_yte__: true``). The Snakefile therefore reads ``config/config.yaml`` (and
-``fabric2seis suite`` every ``--configfile``) first with :func:`check_config_files`: plain YAML
-(no Python tags such as ``!!python/object``), and only the keys of the settings schema.
+The workflow's config is the project's ``config/config.yaml`` when the folder it runs in has one,
+else the packaged defaults (:func:`base_config_file`); config files given on the command line go
+over it. Snakemake reads config files with its own YAML loader, which evaluates templates in a file
+that asks for them (``__use_yte__: true``). The Snakefile therefore reads that file (and
+``fabric2seis suite`` every ``--configfile`` and ``--config FILE``) first with
+:func:`check_config_files`: plain YAML (no Python tags such as ``!!python/object``), and only the
+keys of the settings schema.
 
 Paths written in a config file (``samples_dir``, ``results_dir``) must lie inside the project
 folder (the folder the workflow runs in) unless the config sets ``allow_outside_paths: true``.
@@ -19,10 +22,22 @@ from collections.abc import Iterable, Iterator, Mapping
 from pathlib import Path
 
 from fabric2seis.errors import InputError
-from fabric2seis.settings import read_yaml, validate
+from fabric2seis.settings import PACKAGED_DEFAULTS, PROJECT_DEFAULTS, read_yaml, validate
 
 #: the settings that are paths
-PATH_KEYS = ("samples_dir", "results_dir")
+PATH_KEYS = ("samples_dir", "results_dir", "minerals_dir")
+
+
+def base_config_file() -> Path:
+    """The workflow's config file, under those of the command line.
+
+    Returns
+    -------
+    Path
+        ``config/config.yaml`` if the current folder (the project) has one, else the packaged
+        defaults ``fabric2seis/defaults.yaml`` (the same choice as ``settings.defaults``).
+    """
+    return PROJECT_DEFAULTS if PROJECT_DEFAULTS.is_file() else PACKAGED_DEFAULTS
 
 
 def check_config_files(paths: Iterable[str | Path]) -> list[tuple[Path, dict]]:
@@ -86,8 +101,11 @@ def check_config_paths(config: Mapping, files: list[tuple[Path, dict]], given: M
                              f"{key}=...), or set allow_outside_paths: true", sources[-1], f"key {key}")
 
 
-def config_files_among(arguments: list[str]) -> list[str]:
-    """The files named by ``--configfile`` / ``--configfiles`` among Snakemake's arguments.
+def split_config_files(arguments: list[str]) -> tuple[list[str], list[str]]:
+    """The files named by ``--configfile`` / ``--configfiles`` among Snakemake's arguments, and the rest.
+
+    Snakemake keeps only the last ``--configfile`` it is given, so ``fabric2seis suite`` hands
+    all the files over in one.
 
     Parameters
     ----------
@@ -96,10 +114,12 @@ def config_files_among(arguments: list[str]) -> list[str]:
 
     Returns
     -------
-    list of str
+    files : list of str
         The config files, in order.
+    rest : list of str
+        The other arguments, in order.
     """
-    files, k = [], 0
+    files, rest, k = [], [], 0
     while k < len(arguments):
         word = arguments[k]
         k += 1
@@ -109,7 +129,9 @@ def config_files_among(arguments: list[str]) -> list[str]:
             while k < len(arguments) and not arguments[k].startswith("-"):
                 files.append(arguments[k])
                 k += 1
-    return files
+        else:
+            rest.append(word)
+    return files, rest
 
 
 @contextlib.contextmanager

@@ -1,6 +1,6 @@
 """Files gathered for the workflow report (``snakemake --report``), and the labels of its entries.
 
-The report has four categories (``workflow/rules/report.smk``): Suite (the suite table and
+The report has four categories (``fabric2seis/workflow/rules/report.smk``): Suite (the suite table and
 figure, and ``suite_overview``: every sample with its status and settings digest), Samples (one
 subcategory per sample: its figures and tables, or its error), Field comparison (one
 subcategory per station, and one for all stations) and Stacks (one subcategory per stack folder

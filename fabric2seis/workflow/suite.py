@@ -14,7 +14,7 @@ from fabric2seis.workflow.status import read_statuses
 
 # folders and files the workflow itself keeps in the results folder: no sample may take their names
 WORKFLOW_NAMES = ("status", "logs", "benchmarks", "report_parts", "field", "stack", "suite_summary",
-                  "suite_comparison", "report", "optics", "optics_status")
+                  "suite_table", "suite_long", "suite_comparison", "report", "optics", "optics_status")
 
 
 def check_workflow_sample_name(name: str, path: str | Path) -> str:

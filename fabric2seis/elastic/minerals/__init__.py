@@ -6,6 +6,8 @@ the crystal Cartesian frame orix uses for the phase (e1 || a, e3 || c*), and che
 positive definite, and invariant under every operation of its point group (which is the zero
 pattern and the equalities of its symmetry class, in whatever setting it was published). The
 optional ``optics`` key (refractive indices and the indicatrix) is read and checked by ``optical``.
+A user's own mineral files (``--minerals DIR``, settings key ``minerals_dir``) are read and checked
+by the same code and add to or replace packaged entries (:func:`load_library`, :func:`user_entries`).
 """
 
 from __future__ import annotations
@@ -538,39 +540,90 @@ def _twins(block, src: str) -> tuple[dict, ...]:
 
 
 def load_library(extra_dirs: Iterable[str | Path] = ()) -> dict[str, Mineral]:
-    """Load all minerals of the bundled library plus any ``*.yaml`` in ``extra_dirs``, by name.
+    """Load all minerals of the packaged library plus every ``*.yaml`` in ``extra_dirs``, by name.
 
-    A user's file of the same name replaces the bundled entry. Results are cached.
+    A user's entry is read and checked exactly as a packaged one (:func:`load_mineral_file`). One of
+    the same name as a packaged entry replaces it (:func:`user_entries` says which); two user files
+    of one name are refused. Results are cached while the files stay unchanged.
 
     Parameters
     ----------
     extra_dirs : iterable of str or Path
-        Folders with more mineral files.
+        Folders with more mineral files (a user's own minerals).
 
     Returns
     -------
     dict of str to Mineral
-        The minerals by name.
+        The minerals by name: the packaged ones in file order, then the user's new ones.
 
     Raises
     ------
     InputError
-        If a mineral file is invalid (:func:`load_mineral_file`).
+        If a folder is not a folder, a mineral file is invalid (:func:`load_mineral_file`), or two
+        user files give the same name.
     """
-    extra = tuple(str(d) for d in extra_dirs)
-    return dict(_load_library_cached(extra))
+    files = []
+    for d in extra_dirs:
+        if not Path(d).is_dir():
+            raise InputError("no such folder of mineral files", d)
+        files += sorted(Path(d).glob("*.yaml"))
+    stamps = tuple((str(f), f.stat().st_mtime_ns, f.stat().st_size) for f in files)
+    return dict(_load_library_cached(stamps))
+
+
+@functools.lru_cache(maxsize=1)
+def _packaged() -> tuple[tuple[str, Mineral], ...]:
+    return tuple((m.name, m) for m in map(load_mineral_file, sorted(DATA_DIR.glob("*.yaml"))))
 
 
 @functools.lru_cache(maxsize=8)
-def _load_library_cached(extra_dirs: tuple[str, ...]) -> tuple[tuple[str, Mineral], ...]:
-    files = sorted(DATA_DIR.glob("*.yaml"))
-    for d in extra_dirs:
-        files += sorted(Path(d).glob("*.yaml"))
-    minerals: dict[str, Mineral] = {}
-    for f in files:
+def _load_library_cached(user_files: tuple[tuple[str, int, int], ...]) -> tuple[tuple[str, Mineral], ...]:
+    minerals = dict(_packaged())
+    from_user: dict[str, str] = {}
+    for f, _, _ in user_files:
         m = load_mineral_file(f)
-        minerals[m.name] = m  # a user's file of the same name replaces the bundled entry
+        if m.name in from_user:
+            raise InputError(f"a second entry named '{m.name}' (the first is {from_user[m.name]}); keep one",
+                             f, "name")
+        from_user[m.name] = f
+        minerals[m.name] = m  # a user's file of the same name replaces the packaged entry
     return tuple(minerals.items())
+
+
+def user_entries(library: dict[str, Mineral]) -> list[dict]:
+    """List the entries of a library read from outside the packaged folder, and what each replaced.
+
+    Parameters
+    ----------
+    library : dict of str to Mineral
+        A library from :func:`load_library`.
+
+    Returns
+    -------
+    list of dict
+        Per user entry: ``name``, ``file`` (the user's file) and ``replaces`` (the packaged file it
+        replaced, or None for a new mineral).
+    """
+    packaged = dict(_packaged())
+    return [{"name": m.name, "file": m.file,
+             "replaces": packaged[m.name].file if m.name in packaged else None}
+            for m in library.values() if m is not packaged.get(m.name)]
+
+
+def mineral_origin(mineral: Mineral) -> str:
+    """Say where an entry came from: ``"packaged"`` (the library's own folder) or ``"user"``.
+
+    Parameters
+    ----------
+    mineral : Mineral
+        A library entry.
+
+    Returns
+    -------
+    str
+        ``"packaged"`` or ``"user"``.
+    """
+    return "packaged" if Path(mineral.file).parent == DATA_DIR else "user"
 
 
 def find_mineral(name: str, library: dict[str, Mineral] | None = None) -> Mineral:
@@ -595,8 +648,10 @@ def find_mineral(name: str, library: dict[str, Mineral] | None = None) -> Minera
     """
     library = load_library() if library is None else library
     key = " ".join(str(name).lower().replace("_", " ").split())
+    if key in library:           # a name before any alias: a user's entry may bear another's alias
+        return library[key]
     for m in library.values():
-        if key == m.name or key in m.aliases:
+        if key in m.aliases:
             return m
     names = list(library) + [a for m in library.values() for a in m.aliases]
     raise InputError(f"unknown mineral '{name}'{nearest(name, names)}; the library has: "

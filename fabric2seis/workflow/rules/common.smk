@@ -3,6 +3,8 @@ import hashlib
 import json
 from pathlib import Path
 
+import yaml
+
 from fabric2seis.settings import sidecar_of
 from fabric2seis import __version__
 from fabric2seis.workflow.report_files import (discover_stacks, entry_title, field_entry_labels, sample_entry_labels,
@@ -29,7 +31,24 @@ def settings_digest(wildcards):
     sidecar = sidecar_of(SAMPLES[wildcards.sample])
     text = sidecar.read_bytes() if sidecar.is_file() else b""   # bytes: a sidecar in any encoding
     sample_config = {k: v for k, v in config.items() if k != "optics"}
-    return hashlib.sha256(text + json.dumps(sample_config, sort_keys=True).encode()).hexdigest()[:16]
+    return hashlib.sha256(text + json.dumps(sample_config, sort_keys=True).encode()
+                          + mineral_files_bytes(config.get("minerals_dir"), sidecar)).hexdigest()[:16]
+
+
+def mineral_files_bytes(folder, sidecar):
+    """Names and contents of the user's mineral entries (config's and sidecar's minerals_dir): an edit reruns."""
+    folders = [folder] if folder else []
+    try:                                    # a sidecar's own folder; a bad sidecar fails in its sample job
+        named = (yaml.safe_load(sidecar.read_text(encoding="utf-8")) or {}).get("minerals_dir") if sidecar.is_file() \
+            else None
+        folders += [named] if isinstance(named, str) else []
+    except Exception:
+        pass
+    found = b""
+    for name in folders:
+        for path in sorted(Path(name).glob("*.y*ml")) if Path(name).is_dir() else []:
+            found += path.name.encode() + b"\0" + path.read_bytes()
+    return found
 
 
 def optics_digest(wildcards):

@@ -120,7 +120,7 @@ def ingest(path: str | Path, settings: dict, settings_file: str | None = None,
     phase_minerals = phases_mod.map_phases(data, settings.get("phases"), library, settings_file, skip=leave_out)
     clean = settings.get("clean") or {}
     points = phases_mod.select_points(data, phase_minerals, clean.get("quality_min"), clean.get("quality_field"),
-                                      leave_out)
+                                      leave_out, clean.get("quality_max"))
     dropped_phases = _dropped_phase_record(drops, points, settings.get("modal_fractions"), library)
     for name, record in dropped_phases.items():
         say(f"phase {name} left out (drop_phases): {record['n_points']:,} points of file phase(s) "

@@ -7,6 +7,7 @@ applies), no traceback, and no output folder, not even a partial one.
 import json
 import subprocess
 import sys
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -87,6 +88,32 @@ def test_quality_threshold_drops_points(tmp_path, small_map):
     assert main(["sample", str(tmp_path / "q.csv"), "--out", str(tmp_path / "r")]) == 0
     s = json.loads((tmp_path / "r" / "summary.json").read_text())
     assert s["dropped"]["low_quality_points"] == 60
+
+
+def test_angular_misfit_is_cleaned_from_above_and_a_minimum_on_it_is_refused(tmp_path):
+    # MAD (mean angular deviation, .ctf) is a misfit: lower is better, so a point is dropped when its MAD
+    # is above the threshold (common practice); a minimum on it would keep the worst points
+    lines = (Path(__file__).resolve().parents[1] / "demo_samples" / "VM02_harzburgite.ctf").read_text().splitlines()
+    start = next(k for k, line in enumerate(lines) if line.startswith("Phase\tX\tY")) + 1
+    header = [("YCells\t30" if line.startswith("YCells") else line) for line in lines[:start]]
+    rows = [line.split("\t") for line in lines[start:start + 150 * 30]]
+    bad = 0
+    for k, row in enumerate(rows):
+        if k % 7 == 0:
+            row[8] = "2.5"                      # column MAD
+            bad += row[0] != "0"                # indexed points only count as dropped for quality
+    f = tmp_path / "m.ctf"
+    f.write_text("\n".join(header + ["\t".join(r) for r in rows]) + "\n")
+    (tmp_path / "m.yaml").write_text("clean: {quality_field: mad, quality_max: 1.0}\nbootstrap: {n: 10}\n")
+    assert main(["sample", str(f), "--out", str(tmp_path / "r")]) == 0
+    s = json.loads((tmp_path / "r" / "summary.json").read_text())
+    assert s["dropped"]["low_quality_points"] == bad > 0
+    (tmp_path / "m.yaml").write_text("clean: {quality_field: mad, quality_min: 1.0}\n")
+    run = subprocess.run([sys.executable, "-m", "fabric2seis", "sample", str(f), "--out", str(tmp_path / "r2")],
+                         capture_output=True, text=True)
+    assert run.returncode == 2 and "Traceback" not in run.stderr
+    assert "key clean.quality_min" in run.stderr and "quality_max" in run.stderr and "m.ctf" in run.stderr
+    assert not (tmp_path / "r2").exists()
 
 
 def test_structural_frame_rotates_orientations(tmp_path):

@@ -12,8 +12,12 @@ from fabric2seis.elastic.minerals import POINT_GROUPS, Mineral, find_mineral, lo
 from fabric2seis.errors import InputError, nearest
 from fabric2seis.ingest.io.record import EBSDData
 
-#: quality measure used by ``clean.quality_min`` when ``clean.quality_field`` is not set
+#: quality measure used by ``clean.quality_min`` / ``quality_max`` when ``clean.quality_field`` is not set
 DEFAULT_QUALITY = ("ci", "bc", "quality")
+#: measures where higher is better (confidence index, band contrast, image quality, band slope) and
+#: where lower is better (angular misfits: mean angular deviation of .ctf, fit of .ang; common practice)
+HIGHER_IS_BETTER = ("ci", "bc", "iq", "bs")
+LOWER_IS_BETTER = ("mad", "fit")
 
 #: why a map point was left out, indexed by ``DroppedPoints.reason``
 DROPPED_REASONS = ("not indexed", "below the quality threshold", "in a grain below grains.min_pixels")
@@ -162,7 +166,8 @@ def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
 
 
 def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_min: float | None = None,
-                  quality_field: str | None = None, leave_out: Collection[int] = ()) -> PointSet:
+                  quality_field: str | None = None, leave_out: Collection[int] = (),
+                  quality_max: float | None = None) -> PointSet:
     """Drop unindexed points and points below the quality threshold; attach minerals and weights.
 
     Points of the phases ``leave_out`` (settings key ``drop_phases``, :func:`phases_to_drop`) are
@@ -175,7 +180,10 @@ def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_mi
     phase_minerals : dict of int to Mineral
         Library mineral by phase id (:func:`map_phases`).
     quality_min : float, optional
-        Smallest quality value kept, in the unit of the quality measure.
+        Smallest quality value kept, in the unit of the quality measure (for a measure where higher
+        is better, ``HIGHER_IS_BETTER``, or the CSV's ``quality``).
+    quality_max : float, optional
+        Largest value kept (for an angular misfit, ``LOWER_IS_BETTER``, or the CSV's ``quality``).
     quality_field : str, optional
         Quality measure to use; the first of ``DEFAULT_QUALITY`` the file has if not given.
     leave_out : collection of int
@@ -197,19 +205,30 @@ def select_points(data: EBSDData, phase_minerals: dict[int, Mineral], quality_mi
         raise InputError(f"all {data.n_points} points are unindexed: nothing to work with", data.source)
     keep = indexed.copy()
     n_low = 0
-    if quality_min is not None:
+    thresholds = {"quality_min": quality_min, "quality_max": quality_max}
+    if any(v is not None for v in thresholds.values()):
         field = quality_field or next((q for q in DEFAULT_QUALITY if q in data.quality), None)
         if field is None or field not in data.quality:
             have = ", ".join(data.quality) or "none"
-            raise InputError(f"clean.quality_min is set but the file has no quality measure "
+            raise InputError(f"a quality threshold is set but the file has no quality measure "
                              f"'{quality_field or ' / '.join(DEFAULT_QUALITY)}' (it has: {have})",
                              data.source, "key clean.quality_field")
-        good = data.quality[field] >= quality_min
+        wrong = ("quality_min", LOWER_IS_BETTER, "lower", "quality_max"), ("quality_max", HIGHER_IS_BETTER, "higher",
+                                                                             "quality_min")
+        for key, measures, better, instead in wrong:
+            if thresholds[key] is not None and field in measures:
+                raise InputError(f"on '{field}' {better} is better, so clean.{key} would keep the worst points; "
+                                 f"use clean.{instead}", data.source, f"key clean.{key}")
+        good = np.ones(data.n_points, dtype=bool)
+        if quality_min is not None:
+            good &= data.quality[field] >= quality_min
+        if quality_max is not None:
+            good &= data.quality[field] <= quality_max
         n_low = int((keep & ~good).sum())
         keep &= good
         if not keep.any():
-            raise InputError(f"no point passes clean.quality_min = {quality_min} on '{field}'",
-                             data.source, "key clean.quality_min")
+            key = "quality_min" if quality_min is not None else "quality_max"
+            raise InputError(f"no point passes the quality threshold on '{field}'", data.source, f"key clean.{key}")
     left_out = {}
     for pid in leave_out:
         sel = keep & (data.phase_id == pid)

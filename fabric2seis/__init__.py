@@ -20,7 +20,9 @@ __version__ = "0.1.0"
 #: the names of fabric2seis.api offered here, loaded on first use
 _API_NAMES = ("Analysis", "read_sample", "analyse", "velocity_figure", "velocity_hemisphere", "pole_figures",
               "pole_figure", "inverse_pole_figures", "fabric_convergence_figure", "map_overview_figure",
-              "splitting_figure")
+              "splitting_figure", "fit_field", "field_splitting_figure", "misfit_figure", "fast_directions_figure",
+              "stack_figure", "suite_figure", "thin_section", "crossed_polars_figure", "retardation_figure",
+              "interference_chart_figure")
 
 __all__ = ["__version__", *_API_NAMES]
 

@@ -16,6 +16,7 @@ from __future__ import annotations
 import textwrap
 
 import numpy as np
+from matplotlib.figure import Figure
 from scipy.stats import chi2
 
 from fabric2seis.figures.projection import plt, save
@@ -124,7 +125,26 @@ def poor_fit_note(fig, model: dict) -> None:
 
 
 def data_and_predictions(stem, fit) -> list[str]:
-    """Draw measured fast azimuths and delays against back-azimuth, with the best model's predicted curve.
+    """Draw the measurements against the best model (:func:`data_and_predictions_sheet`) and write it
+    as PNG and PDF.
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    fit : waves.field.StationFit
+        As :func:`data_and_predictions_sheet` takes it.
+
+    Returns
+    -------
+    list of str
+        The files written.
+    """
+    return save(data_and_predictions_sheet(fit), stem)
+
+
+def data_and_predictions_sheet(fit) -> Figure:
+    """Measured fast azimuths and delays against back-azimuth, with the best model's predicted curve.
 
     Measurements are filled black circles with their errors; a null is drawn as two open diamonds
     at the fast azimuths it allows (along its back-azimuth and at right angles to it); the
@@ -132,15 +152,13 @@ def data_and_predictions(stem, fit) -> list[str]:
 
     Parameters
     ----------
-    stem : str or Path
-        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
     fit : waves.field.StationFit
         Measurements (degrees, s) and best model of one station.
 
     Returns
     -------
-    list of str
-        The files written.
+    matplotlib.figure.Figure
+        The figure: the fast-azimuth and delay panels, and the legend row.
     """
     data, m = fit.measurements, fit.model
     ok = ~data["null"].to_numpy(bool)
@@ -175,7 +193,7 @@ def data_and_predictions(stem, fit) -> list[str]:
     fig.suptitle(_title(f"{fit.sample} at station {fit.station}: measured and predicted splitting", m,
                         _best_text(m), _verdict_text(m)), fontsize=8)
     poor_fit_note(fig, m)
-    return save(fig, stem)
+    return fig
 
 
 def _error_bars(model: dict) -> tuple[list | None, list | None]:
@@ -237,21 +255,41 @@ def _draw_surface(ax, x, y, above, bands, norm, levels):
 
 
 def misfit_surface(stem, fit) -> list[str]:
-    """Chi-square above the best fit over the coarse grid of the best attitude: the whole searched
-    range and a close-up of the best fit, banded at the joint 68 % and 95 % levels (contours),
-    with the best fit marked with its one-parameter 68 % intervals.
+    """Draw the misfit of a station fit (:func:`misfit_sheet`) and write it as PNG and PDF.
 
     Parameters
     ----------
     stem : str or Path
         Path of the files without suffix; ``.png`` and ``.pdf`` are written.
     fit : waves.field.StationFit
-        Misfit grid and best model of one station.
+        As :func:`misfit_sheet` takes it.
 
     Returns
     -------
     list of str
         The files written.
+    """
+    return save(misfit_sheet(fit), stem)
+
+
+def misfit_sheet(fit) -> Figure:
+    """Chi-square above the best fit over the coarse grid of the best attitude: the whole searched
+    range and a close-up of the best fit, banded at the joint 68 % and 95 % levels (contours),
+    with the best fit marked with its one-parameter 68 % intervals.
+
+    When only one parameter of thickness and trend was searched, the misfit is a curve over it,
+    one panel, with the one-parameter levels.
+
+    Parameters
+    ----------
+    fit : waves.field.StationFit
+        Misfit grid and best model of one station.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        The figure: the whole range and the close-up with their colour bar (or the curve), and the
+        legend row.
     """
     from matplotlib.colors import BoundaryNorm
     from matplotlib.ticker import FuncFormatter
@@ -323,7 +361,7 @@ def misfit_surface(stem, fit) -> list[str]:
                         f"best {model['thickness_km']:.0f} km, lineation trend {model['lineation_trend_deg']:.0f}°; "
                         + _verdict_text(model)), fontsize=8)
     poor_fit_note(fig, model)
-    return save(fig, stem)
+    return fig
 
 
 def _rose_outline(angles_deg: np.ndarray, edges_deg: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -341,7 +379,25 @@ RING_MARKERS = ("o", "s", "^", "D", "v", "P", "h", "<")
 
 
 def fast_direction_rose(stem, predictions) -> list[str]:
-    """Draw fast directions in map view, one panel per station: the measured ones as a filled grey
+    """Draw the fast directions in map view (:func:`fast_direction_sheet`) and write them as PNG and PDF.
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
+    predictions : pandas.DataFrame
+        As :func:`fast_direction_sheet` takes it.
+
+    Returns
+    -------
+    list of str
+        The files written.
+    """
+    return save(fast_direction_sheet(predictions), stem)
+
+
+def fast_direction_sheet(predictions) -> Figure:
+    """Fast directions in map view, one panel per station: the measured ones as a filled grey
     rose, the predictions of each sample's best layer as open markers on a ring of their own.
 
     Directions are axial, so each is drawn at its azimuth and the opposite one. Each sample keeps
@@ -350,15 +406,13 @@ def fast_direction_rose(stem, predictions) -> list[str]:
 
     Parameters
     ----------
-    stem : str or Path
-        Path of the files without suffix; ``.png`` and ``.pdf`` are written.
     predictions : pandas.DataFrame
         The predictions table: sample, station, null, measured and predicted fast azimuths (degrees).
 
     Returns
     -------
-    list of str
-        The files written.
+    matplotlib.figure.Figure
+        The figure: a polar panel per station and the legend row.
     """
     stations = sorted(set(predictions["station"]))
     samples = list(dict.fromkeys(predictions["sample"]))
@@ -400,4 +454,4 @@ def fast_direction_rose(stem, predictions) -> list[str]:
     fig.suptitle("Fast polarisation azimuths in map view (north up, clockwise; each axis drawn both ways)\n"
                  f"measured: number per {ROSE_BIN_DEG:.0f}° bin; predicted by each sample's best layer: one marker "
                  "per measurement on the sample's ring", fontsize=8)
-    return save(fig, stem)
+    return fig

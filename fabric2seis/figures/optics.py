@@ -18,6 +18,9 @@ from fabric2seis.figures.projection import plt, save
 from fabric2seis.optics.colour import ORDER_NM, PLATE_NM, InterferenceTable, xyz_to_srgb
 
 if TYPE_CHECKING:
+    from matplotlib.axes import Axes
+    from matplotlib.figure import Figure
+
     from fabric2seis.optics.section import SectionResult
 
 #: colour of points without data (grey, distinct from black extinction)
@@ -97,12 +100,28 @@ def _polariser_cross(ax, size: float) -> None:
 
 
 def crossed_polar_images(stem, result: SectionResult, plate: bool) -> list[str]:
-    """Draw the predicted crossed-polar image at every stage turn of the settings, one panel each.
+    """Draw the crossed-polar images (:func:`crossed_polar_sheet`) and write them as PNG and PDF.
 
     Parameters
     ----------
     stem : str or Path
         Path of the figure without suffix.
+    result, plate
+        As :func:`crossed_polar_sheet` takes them.
+
+    Returns
+    -------
+    list of str
+        The files written (PNG and PDF).
+    """
+    return save(crossed_polar_sheet(result, plate), stem)
+
+
+def crossed_polar_sheet(result: SectionResult, plate: bool) -> Figure:
+    """The predicted crossed-polar image at every stage turn of the settings, one panel each.
+
+    Parameters
+    ----------
     result : SectionResult
         The section's optics (a map).
     plate : bool
@@ -110,8 +129,8 @@ def crossed_polar_images(stem, result: SectionResult, plate: bool) -> list[str]:
 
     Returns
     -------
-    list of str
-        The files written (PNG and PDF).
+    matplotlib.figure.Figure
+        The figure: one panel per stage turn (``optics.stage_deg``).
     """
     from matplotlib.transforms import Affine2D
 
@@ -152,7 +171,7 @@ def crossed_polar_images(stem, result: SectionResult, plate: bool) -> list[str]:
              "anticlockwise.\nGrey: no data (not indexed, cleaned out, small grains or no optical constants); "
              "black: extinction. Map length unit: um (as in the file).", ha="center", va="bottom", fontsize=6)
     fig.subplots_adjust(bottom=0.14, top=0.82, wspace=0.05)
-    return save(fig, stem)
+    return fig
 
 
 def _round_length(value: float) -> float:
@@ -162,7 +181,7 @@ def _round_length(value: float) -> float:
 
 
 def retardation_map(stem, result: SectionResult) -> list[str]:
-    """Draw the retardation of every point (nm) on the map, with a colour bar and the order limits.
+    """Draw the retardation map (:func:`retardation_sheet`) and write it as PNG and PDF.
 
     Parameters
     ----------
@@ -176,6 +195,40 @@ def retardation_map(stem, result: SectionResult) -> list[str]:
     list of str
         The files written (PNG and PDF).
     """
+    return save(retardation_sheet(result), stem)
+
+
+def retardation_sheet(result: SectionResult) -> Figure:
+    """The retardation map (:func:`retardation_panel`) on a figure of its own, with the orientation
+    of the view in a note at its foot.
+
+    Parameters
+    ----------
+    result : SectionResult
+        The section's optics (a map).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        The figure.
+    """
+    fig, ax = plt.subplots(figsize=(6.2, 5.0))
+    retardation_panel(result, ax)
+    fig.text(0.5, 0.005, f"{_ORIENTATION}; {_map_note(result)}. Grey: no data.", ha="center", va="bottom", fontsize=6)
+    return fig
+
+
+def retardation_panel(result: SectionResult, ax: Axes) -> None:
+    """Draw the retardation of every point (nm) on the map into ``ax``, with a colour bar and the
+    order limits.
+
+    Parameters
+    ----------
+    result : SectionResult
+        The section's optics (a map).
+    ax : matplotlib.axes.Axes
+        Where to draw; the colour bar takes room from it.
+    """
     import matplotlib
 
     opt = result.settings
@@ -186,10 +239,11 @@ def retardation_map(stem, result: SectionResult) -> list[str]:
     # back to map coordinates: y = cy - north when y points south (down), cy + north otherwise
     extent = ((left + cx, right + cx, cy - bottom, cy - top) if _y_down(result)
               else (left + cx, right + cx, cy + bottom, cy + top))
-    fig, ax = plt.subplots(figsize=(6.2, 5.0))
     cmap = matplotlib.colormaps["cividis"].with_extremes(bad=NO_DATA)
     shown = ax.imshow(np.ma.masked_invalid(image[..., 0]), extent=extent, origin="upper", cmap=cmap,
                       interpolation="nearest", vmin=0.0)
+    fig = ax.get_figure(root=True)
+    assert fig is not None
     bar = fig.colorbar(shown, ax=ax, shrink=0.85)
     bar.set_label("retardation (nm)")
     top = float(np.nanmax(r)) if np.isfinite(r).any() else 0.0
@@ -199,12 +253,28 @@ def retardation_map(stem, result: SectionResult) -> list[str]:
     ax.set_ylabel("map y (um)")
     ax.set_title(f"{result.name}: retardation, {opt.thickness_um:g} um section, view along {opt.view_text}\n"
                  f"{len(r):,} points; white lines on the bar: ends of the orders ({ORDER_NM:g} nm each)", fontsize=8)
-    fig.text(0.5, 0.005, f"{_ORIENTATION}; {_map_note(result)}. Grey: no data.", ha="center", va="bottom", fontsize=6)
-    return save(fig, stem)
 
 
 def interference_chart(stem, result: SectionResult, statistics: list[dict]) -> list[str]:
-    """Draw the interference colours of the section's thickness, each phase's retardation range beneath.
+    """Draw the interference-colour chart (:func:`interference_chart_sheet`) and write it as PNG and PDF.
+
+    Parameters
+    ----------
+    stem : str or Path
+        Path of the figure without suffix.
+    result, statistics
+        As :func:`interference_chart_sheet` takes them.
+
+    Returns
+    -------
+    list of str
+        The files written (PNG and PDF).
+    """
+    return save(interference_chart_sheet(result, statistics), stem)
+
+
+def interference_chart_sheet(result: SectionResult, statistics: list[dict]) -> Figure:
+    """The interference colours of the section's thickness, each phase's retardation range beneath.
 
     Three strips of colour against retardation (at 45 degrees from extinction): between crossed
     polars, and with the plate, slow directions parallel (adding 530 nm) or crossed (subtracting).
@@ -214,8 +284,6 @@ def interference_chart(stem, result: SectionResult, statistics: list[dict]) -> l
 
     Parameters
     ----------
-    stem : str or Path
-        Path of the figure without suffix.
     result : SectionResult
         The section's optics.
     statistics : list of dict
@@ -223,8 +291,8 @@ def interference_chart(stem, result: SectionResult, statistics: list[dict]) -> l
 
     Returns
     -------
-    list of str
-        The files written (PNG and PDF).
+    matplotlib.figure.Figure
+        The figure: the colour strips above, the phases' ranges below.
     """
     t_nm = result.settings.thickness_um * 1000.0
     reach = max([3.0 * ORDER_NM] + [1.05 * row["retardation_possible_max_nm"] for row in statistics])
@@ -268,4 +336,4 @@ def interference_chart(stem, result: SectionResult, statistics: list[dict]) -> l
              "plate 530 nm. Bars: 5-95 % of the phase's points, white tick median, diamond largest seen, "
              "thin line up to n_gamma - n_alpha.", ha="center", va="bottom", fontsize=6)
     fig.subplots_adjust(bottom=0.2, top=0.78, hspace=0.08)
-    return save(fig, stem)
+    return fig

@@ -3,29 +3,46 @@
 from __future__ import annotations
 
 import numpy as np
+from matplotlib.figure import Figure
 
 from fabric2seis.figures.projection import save
 from fabric2seis.figures.splitting import PREDICTED_COLOUR, broken_at_wraps, legend_in, sheet
 
 
 def stack_figure(stem, sweep) -> list[str]:
-    """Fast azimuth and delay against back-azimuth: analytic (line), waveform-measured (points),
-    predicted nulls (vertical lines), measurements with their errors if given.
-
-    ``sweep`` is a ``waves.stack.StackSweep``: the figure draws its fine analytic curve, table,
-    nulls and measurements; returns the files written (``stem`` .png and .pdf).
+    """Draw the apparent splitting of a stack (:func:`stack_sheet`) and write it as PNG and PDF.
 
     Parameters
     ----------
     stem : str or Path
         Path of the files without suffix; ``.png`` and ``.pdf`` are written.
     sweep : waves.stack.StackSweep
-        Apparent splitting (fast azimuth in degrees, delay in s) against back-azimuth (degrees).
+        As :func:`stack_sheet` takes it.
 
     Returns
     -------
     list of str
         The files written.
+    """
+    return save(stack_sheet(sweep), stem)
+
+
+def stack_sheet(sweep) -> Figure:
+    """Fast azimuth and delay against back-azimuth: analytic (line), waveform-measured (points),
+    predicted nulls (vertical lines), measurements with their errors if given.
+
+    ``sweep`` is a ``waves.stack.StackSweep``: the figure draws its fine analytic curve, table,
+    nulls and measurements.
+
+    Parameters
+    ----------
+    sweep : waves.stack.StackSweep
+        Apparent splitting (fast azimuth in degrees, delay in s) against back-azimuth (degrees).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        The figure: the fast-azimuth and delay panels, and the legend row.
     """
     stack, table, nulls, data = sweep.stack, sweep.table, sweep.nulls, sweep.measurements
     n_stations = 0 if data is None else data["station"].nunique()
@@ -70,4 +87,4 @@ def stack_figure(stem, sweep) -> list[str]:
                  fontsize=9)
     handles, labels = ax1.get_legend_handles_labels()
     legend_in(key, handles, labels, n_cols=3)
-    return save(fig, stem)
+    return fig

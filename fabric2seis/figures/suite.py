@@ -11,6 +11,7 @@ from __future__ import annotations
 import textwrap
 
 import numpy as np
+from matplotlib.figure import Figure
 
 from fabric2seis.figures.projection import plt, save
 
@@ -110,20 +111,39 @@ def _number(row, key: str, default: float = np.nan) -> float:
 
 
 def suite_figure(stem, table) -> list[str]:
-    """Draw the suite comparison: fabric strength against AVs, delay per 100 km, and the P-G-R triangle.
+    """Draw the suite comparison (:func:`suite_sheet`) and write it as PNG and PDF.
 
     Parameters
     ----------
     stem : str or Path
         Path of the files without suffix; ``.png`` and ``.pdf`` are written.
     table : pandas.DataFrame
-        The suite table (``workflow.suite.suite_table``); samples whose status is not ``ok`` are
-        listed in the key with their error and left out of the panels.
+        As :func:`suite_sheet` takes it.
 
     Returns
     -------
     list of str
         The files written.
+    """
+    return save(suite_sheet(table), stem)
+
+
+def suite_sheet(table) -> Figure:
+    """The suite comparison: fabric strength against AVs, delay per 100 km, and the P-G-R triangle.
+
+    The layout is fixed once drawn (the number labels are placed on screen), so the figure comes
+    back without a layout engine.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        The suite table (``workflow.suite.suite_table``); samples whose status is not ``ok`` are
+        listed in the key with their error and left out of the panels.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        The figure: the three panels and the key.
     """
     ok = table[table["status"] == "ok"].reset_index(drop=True)
     failed = table[table["status"] != "ok"]
@@ -169,7 +189,7 @@ def suite_figure(stem, table) -> list[str]:
     fig.set_layout_engine("none")
     place_labels(ax1, np.c_[j, avs], numbers, marker_pt=4.0)
     place_labels(ax3, first_poles, numbers, marker_pt=4.0)
-    return save(fig, stem)
+    return fig
 
 
 def _key(ax, ok, failed, colours, pole_names: list[str]) -> None:

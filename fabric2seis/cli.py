@@ -20,14 +20,18 @@ def _minerals(args: argparse.Namespace) -> int:
 
     library = load_library(args.library_dir or ())
     if args.name is None:
-        print(f"{'name':<12} {'point group':<11} {'density':>12}  {'checked':<8} {'constants':<26} source")
+        print(f"{'name':<12} {'point group':<11} {'density':>12}  {'checked':<8} {'constants':<26} "
+              f"{'to P, T':<8} source")
         for m in library.values():
             checked = "yes" if not m.from_memory else "partly"
             print(f"{m.name:<12} {m.point_group:<11} {m.density_kg_m3:>7.0f} kg/m³  {checked:<8} "
-                  f"{constants_status(m):<26} {m.source.split(';')[0]}")
+                  f"{constants_status(m):<26} {depth_status(m):<8} {m.source.split(';')[0]}")
         print("\n'checked: partly' means some fields were recalled without the source at hand; "
               "'fabric2seis minerals NAME' lists which. 'constants': read in the source, or recalled and "
-              "compared with published aggregate moduli (Hill average; DISPUTED beyond 8 %).")
+              "compared with published aggregate moduli (Hill average; DISPUTED beyond 8 %). 'to P, T': "
+              "P and T when the library holds pressure and temperature derivatives (P~ for the aggregate's "
+              "rates only); a mineral without them is refused away from the conditions of its "
+              "measurement unless conditions.allow_ambient_constants is set.")
         for entry in user_entries(library):
             print(f"your own: {entry['name']} from {entry['file']}" + (
                 f", replacing the packaged {entry['replaces']}" if entry["replaces"] else ""))
@@ -345,6 +349,14 @@ def _field(args: argparse.Namespace) -> int:
     return 0
 
 
+def depth_status(m) -> str:
+    """'P', 'T', 'P T' (with ~ for aggregate-only rates) or '-': what a mineral can be brought to."""
+    parts = [letter + ("~" if block in m.aggregate_derivatives else "")
+             for letter, block, d in (("P", "pressure_derivatives", m.dcij_dp),
+                                      ("T", "temperature_derivatives", m.dcij_dt_gpa_per_k)) if d is not None]
+    return " ".join(parts) or "-"
+
+
 def constants_status(m) -> str:
     """How far to trust a library entry's constants, in a few words."""
     if not m.constants_recalled:
@@ -380,6 +392,9 @@ def describe_mineral(m) -> str:
         lines += [f"  dCij/dP (dimensionless), {m.pressure_source}:", table(m.dcij_dp)]
     if m.dcij_dt_gpa_per_k is not None:
         lines += [f"  dCij/dT (GPa/K), {m.temperature_source}:", table(m.dcij_dt_gpa_per_k, "8.4f")]
+    for block, given in m.aggregate_derivatives.items():
+        lines.append(f"  {block.replace('_', ' ')} given for the aggregate only "
+                     f"({', '.join(f'{k} {v:g}' for k, v in given.items())}), applied to every direction alike")
     if m.derivatives_from_memory:
         lines.append(f"  derivatives from memory: {', '.join(m.derivatives_from_memory)}")
     lines.append(f"  measured at     {m.reference_temperature_c:g} C, {m.reference_pressure_gpa:g} GPa "

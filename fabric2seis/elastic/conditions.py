@@ -177,6 +177,16 @@ def assumptions(mineral, pressure_gpa: float, temperature_c: float) -> list[str]
                          + (f" (within {NEGLIGIBLE_DT_C:g} K)" if abs(dt) <= NEGLIGIBLE_DT_C else ""))
         if (mineral.eos or {}).get("thermal_expansion_per_k") is None:
             notes.append(f"{mineral.name}: no thermal expansion, density not corrected for temperature")
+        elif "thermal_expansion_per_k" in ((mineral.eos or {}).get("from_memory") or ()):
+            notes.append(f"{mineral.name}: thermal expansion recalled without the source at hand (from memory)")
+    for block, used in (("pressure_derivatives", dp != 0 and mineral.dcij_dp is not None),
+                        ("temperature_derivatives", dt != 0 and mineral.dcij_dt_gpa_per_k is not None)):
+        given = mineral.aggregate_derivatives.get(block)
+        if used and given:
+            kind = block.split("_")[0]
+            values = ", ".join(f"{k} = {v:g}" for k, v in given.items())
+            notes.append(f"{mineral.name}: {kind} derivatives of the aggregate only ({values}), applied to "
+                         "every direction alike: the change of the crystal's anisotropy is not modelled")
     recalled = mineral.derivatives_from_memory
     if ("pressure_derivatives" in recalled or "temperature_derivatives" in recalled) and (dp != 0 or dt != 0):
         notes.append(f"{mineral.name}: derivatives marked from memory ({', '.join(recalled)})")

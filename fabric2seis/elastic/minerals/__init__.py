@@ -93,6 +93,10 @@ class Mineral:
         Temperature derivatives (6, 6) in GPa/K and their source, or None.
     derivatives_from_memory
         Which derivative blocks were recalled without the source at hand.
+    aggregate_derivatives
+        Derivative blocks given only as the aggregate's dK and dG (``pressure_derivatives``:
+        ``dk_dp``, ``dg_dp``; ``temperature_derivatives``: ``dk_dt_gpa_per_k``,
+        ``dg_dt_gpa_per_k``), applied to every direction alike (:func:`isotropic_derivative`).
     eos
         Equation of state: ``k0_gpa``, ``k0_prime``, ``thermal_expansion_per_k`` (1/K), ``source``.
     notes, file
@@ -124,6 +128,7 @@ class Mineral:
     dcij_dt_gpa_per_k: np.ndarray | None = None
     temperature_source: str | None = None
     derivatives_from_memory: tuple[str, ...] = ()
+    aggregate_derivatives: dict = field(default_factory=dict, compare=False)
     d2cij_dp2: np.ndarray | None = None
     eos: dict | None = None
     notes: str = ""
@@ -440,12 +445,16 @@ def load_mineral_file(path: str | Path) -> Mineral:
     stiffness = rotate_voigt(published, rot)
     check_symmetry_pattern(stiffness, sym, src)
 
-    def derivative(block_key: str, matrix_key: str):
+    def derivative(block_key: str, matrix_key: str, aggregate_keys: tuple[str, str]):
         block = entry.get(block_key)
         if block is None:
             return None, None, False
-        if not isinstance(block, dict) or matrix_key not in block or "source" not in block:
-            raise InputError(f"needs '{matrix_key}' and 'source'", src, block_key)
+        if not isinstance(block, dict) or "source" not in block or (matrix_key in block) == ("aggregate" in block):
+            raise InputError(f"needs 'source' and either '{matrix_key}' or 'aggregate' "
+                             f"({aggregate_keys[0]}, {aggregate_keys[1]})", src, block_key)
+        if "aggregate" in block:
+            isotropic[block_key] = _aggregate_derivative(block["aggregate"], aggregate_keys, src, block_key)
+            return isotropic[block_key][0], str(block["source"]), bool(block.get("from_memory", True))
         m = _matrix(block, matrix_key, src)
         if not np.allclose(m, m.T):
             raise InputError("derivatives must be symmetric", src, f"{block_key}.{matrix_key}")
@@ -454,7 +463,8 @@ def load_mineral_file(path: str | Path) -> Mineral:
         check_symmetry_pattern(m_orix, sym, src, f"{block_key}.{matrix_key}", tol=1e-3 * scale)
         return m_orix, str(block["source"]), bool(block.get("from_memory", True))
 
-    dp, dp_src, dp_mem = derivative("pressure_derivatives", "dcij_dp")
+    isotropic: dict[str, tuple[np.ndarray, dict]] = {}
+    dp, dp_src, dp_mem = derivative("pressure_derivatives", "dcij_dp", ("dk_dp", "dg_dp"))
     d2p = None
     if dp is not None and "d2cij_dp2" in entry["pressure_derivatives"]:
         m2 = _matrix(entry["pressure_derivatives"], "d2cij_dp2", src)
@@ -465,7 +475,8 @@ def load_mineral_file(path: str | Path) -> Mineral:
         if not isinstance(eos, dict) or set(eos) - allowed or "source" not in eos:
             raise InputError(f"equation_of_state takes {', '.join(sorted(allowed))} and needs a source",
                              src, "equation_of_state")
-    dt, dt_src, dt_mem = derivative("temperature_derivatives", "dcij_dt_gpa_per_k")
+    dt, dt_src, dt_mem = derivative("temperature_derivatives", "dcij_dt_gpa_per_k",
+                                    ("dk_dt_gpa_per_k", "dg_dt_gpa_per_k"))
     deriv_mem = tuple(k for k, m in (("pressure_derivatives", dp_mem),
                                        ("temperature_derivatives", dt_mem)) if m)
     twins = _twins(entry.get("twins"), src)
@@ -486,9 +497,38 @@ def load_mineral_file(path: str | Path) -> Mineral:
         source=str(entry["source"]), from_memory=tuple(memory),
         dcij_dp=dp, pressure_source=dp_src, dcij_dt_gpa_per_k=dt, temperature_source=dt_src,
         derivatives_from_memory=deriv_mem, d2cij_dp2=d2p, eos=eos,
+        aggregate_derivatives={k: v[1] for k, v in isotropic.items()},
         notes=str(entry.get("notes", "")).strip(), file=src, twins=twins,
         reference_temperature_c=reference[0], reference_pressure_gpa=reference[1], aggregate_check=check,
         optics=optics)
+
+
+def isotropic_derivative(dk: float, dg: float) -> np.ndarray:
+    """Voigt matrix (6, 6) that changes an isotropic part only: bulk by ``dk``, shear by ``dg``.
+
+    The stiffness of an isotropic body is C_ij = (K - 2G/3) + 2G on the diagonal of the first three
+    rows and G for 44, 55, 66 (common practice); its derivative is the same expression in the
+    derivatives. Adding it to a crystal's constants moves the Voigt bulk and shear moduli by exactly
+    ``dk`` and ``dg`` and keeps the crystal's anisotropy in absolute terms.
+    """
+    m = np.zeros((6, 6))
+    m[:3, :3] = dk - 2.0 * dg / 3.0
+    m[[0, 1, 2], [0, 1, 2]] = dk + 4.0 * dg / 3.0
+    m[[3, 4, 5], [3, 4, 5]] = dg
+    return m
+
+
+def _aggregate_derivative(block, keys: tuple[str, str], src: str, where: str) -> tuple[np.ndarray, dict]:
+    """An ``aggregate`` derivative block (published dK, dG of the aggregate) as an isotropic Voigt matrix."""
+    if not isinstance(block, dict) or set(block) != set(keys):
+        raise InputError(f"aggregate takes exactly {keys[0]} and {keys[1]}", src, f"{where}.aggregate")
+    try:
+        dk, dg = (float(block[k]) for k in keys)
+    except (TypeError, ValueError):
+        raise InputError("aggregate derivatives must be numbers", src, f"{where}.aggregate") from None
+    if not (np.isfinite(dk) and np.isfinite(dg)):
+        raise InputError("aggregate derivatives must be finite", src, f"{where}.aggregate")
+    return isotropic_derivative(dk, dg), {keys[0]: dk, keys[1]: dg}
 
 
 def _reference_conditions(block, src: str) -> tuple[float, float]:

@@ -28,6 +28,7 @@ Special Publications 409 (bibliographic details of all these from memory).
 
 from __future__ import annotations
 
+import functools
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass
@@ -35,7 +36,6 @@ from pathlib import Path
 
 import numpy as np
 from orix.vector import Miller
-from scipy.spatial import cKDTree
 
 from fabric2seis.errors import InputError
 from fabric2seis.fabric.checks import check_halfwidth, check_poles, check_quaternions, check_weights
@@ -430,10 +430,15 @@ def pole_density(at: np.ndarray, poles: np.ndarray, weights: np.ndarray, halfwid
                  bin_step_deg: float = 1.0) -> np.ndarray:
     """Axial pole density at unit directions ``at``.
 
-    Poles are first binned on a hemisphere grid of ``bin_step_deg`` (a tenth of the kernel
-    halfwidth), so the cost does not grow with the number of grains; each evaluation point then
-    sums the bins within the kernel's support (where it exceeds 1e-6 of its peak), found with a
-    k-d tree.
+    Poles are binned on a grid of colatitude and azimuth of ``bin_step_deg`` (a tenth of the
+    kernel halfwidth), so the cost does not grow with the number of grains. The kernel depends on
+    the angle between two directions only, so between a ring of the grid and a ring of colatitudes
+    it depends on the difference of azimuths alone: the density on the rings of a grid half as fine
+    is a circular convolution in azimuth, done with the FFT (``_ring_kernel`` holds the kernel's
+    transforms, computed once per halfwidth), and read at ``at`` by bilinear interpolation.
+    Binning (shared among the four nearest nodes) and interpolation together are exact to about
+    2e-3 of the peak for a 10 degree kernel
+    (tests/fabric/test_poles.py measures it against the kernel summed over every pole).
 
     Parameters
     ----------
@@ -446,7 +451,7 @@ def pole_density(at: np.ndarray, poles: np.ndarray, weights: np.ndarray, halfwid
     halfwidth_deg : float
         Halfwidth of the kernel whose pole-figure image smooths the density (degrees).
     bin_step_deg : float
-        Step of the hemisphere grid on which poles are binned (degrees).
+        Step of the grid on which poles are binned (degrees); it must divide 90.
 
     Returns
     -------
@@ -462,21 +467,83 @@ def pole_density(at: np.ndarray, poles: np.ndarray, weights: np.ndarray, halfwid
     check_halfwidth(halfwidth_deg)
     if np.ndim(at) != 2 or np.shape(at)[1] != 3:
         raise ValueError(f"at must be an array of unit directions of shape (M, 3), got shape {np.shape(at)}")
-    kernel = Kernel(halfwidth_deg)
+    rings = int(round(90.0 / bin_step_deg))
+    if not bin_step_deg > 0 or abs(rings * bin_step_deg - 90.0) > 1e-9:
+        raise ValueError(f"bin_step_deg must divide 90 degrees, got {bin_step_deg!r}")
+    targets, kernel_ft = _ring_kernel(float(halfwidth_deg), float(bin_step_deg))
+    step = np.radians(bin_step_deg)
+    n_az = 4 * rings
     w = np.repeat(np.asarray(weights, dtype=float) / np.sum(weights) / poles.shape[1], poles.shape[1])
-    p = poles.reshape(-1, 3)
-    p = np.where(p[:, 2:3] > 0, -p, p)                    # axial: fold onto z <= 0
-    cells, _ = hemisphere_cells(bin_step_deg)
-    nearest = cKDTree(np.vstack([cells, -cells])).query(p)[1] % len(cells)
-    mass = np.bincount(nearest, weights=w, minlength=len(cells))
-    used = np.flatnonzero(mass)
-    both = np.vstack([cells[used], -cells[used]])         # the axial kernel: half at +u, half at -u
-    both_mass = np.concatenate([mass[used], mass[used]]) / 2.0
-    support = 2.0 * np.arccos(1e-6 ** (1.0 / (2.0 * kernel.kappa)))
-    pairs = cKDTree(np.asarray(at, dtype=float)).sparse_distance_matrix(
-        cKDTree(both), 2.0 * np.sin(support / 2.0), output_type="ndarray")
-    cos = 1.0 - pairs["v"] ** 2 / 2.0
-    return np.bincount(pairs["i"], weights=both_mass[pairs["j"]] * kernel.pole_value(cos), minlength=len(at))
+    colat, az = _colatitude_azimuth(poles.reshape(-1, 3))       # folded onto the lower hemisphere
+    # the axial kernel: half of each pole at u, half at -u (colatitude 180 - t, azimuth + 180)
+    mass = (_deposit(colat, az, w / 2.0, rings, step)
+            + _deposit(np.pi - colat, az + np.pi, w / 2.0, rings, step))
+    # read at half the azimuth step: zero-padding the spectrum is the band-limited interpolation
+    on_rings = 2.0 * np.fft.irfft(np.einsum("tsf,sf->tf", kernel_ft, np.fft.rfft(mass, axis=1)),
+                                  n=2 * n_az, axis=1)
+    n_az, step = 2 * n_az, step / 2.0
+    t_colat, t_az = _colatitude_azimuth(np.asarray(at, dtype=float))
+    x = t_colat / (np.radians(targets[1] - targets[0]))
+    i0 = np.minimum(x.astype(int), len(targets) - 2)
+    fx = x - i0
+    y = t_az / step - 1.0                                      # the first azimuth read: half a bin
+    j0 = np.floor(y).astype(int)
+    fy = y - j0
+    j0 %= n_az
+    j1 = (j0 + 1) % n_az
+    return ((1 - fx) * ((1 - fy) * on_rings[i0, j0] + fy * on_rings[i0, j1])
+            + fx * ((1 - fy) * on_rings[i0 + 1, j0] + fy * on_rings[i0 + 1, j1]))
+
+
+def _deposit(colat: np.ndarray, az: np.ndarray, w: np.ndarray, rings: int, step: float) -> np.ndarray:
+    """Masses ``w`` shared bilinearly among the four nearest nodes of the sphere's grid (2 rings, 4 rings).
+
+    Nodes sit at colatitudes (i + 1/2) step, i = 0 .. 2 rings - 1, and azimuths (b + 1/2) step; a
+    share beyond the first or last ring goes to that ring on the opposite azimuth (the grid's pole).
+    Sharing keeps each pole's mean position, so the error of binning is of second order in the step.
+    """
+    n_rings, n_az = 2 * rings, 4 * rings
+    x = colat / step - 0.5
+    y = np.mod(az, 2.0 * np.pi) / step - 0.5
+    i0, j0 = np.floor(x).astype(int), np.floor(y).astype(int)
+    fx, fy = x - i0, y - j0
+    out = np.zeros(n_rings * n_az)
+    for di, wx in ((0, 1.0 - fx), (1, fx)):
+        i = i0 + di
+        flip = (i < 0) | (i >= n_rings)
+        i = np.where(i < 0, -1 - i, np.where(i >= n_rings, 2 * n_rings - 1 - i, i))
+        for dj, wy in ((0, 1.0 - fy), (1, fy)):
+            j = (j0 + dj + np.where(flip, n_az // 2, 0)) % n_az
+            out += np.bincount(i * n_az + j, weights=w * wx * wy, minlength=n_rings * n_az)
+    return out.reshape(n_rings, n_az)
+
+
+def _colatitude_azimuth(v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Angle from -z (0 to pi/2 after folding v onto z <= 0) and azimuth (0 to 2 pi) of unit vectors."""
+    v = np.where(v[:, 2:3] > 0, -v, v)
+    colat = np.arccos(np.clip(-v[:, 2], -1.0, 1.0))
+    return colat, np.mod(np.arctan2(v[:, 1], v[:, 0]), 2.0 * np.pi)
+
+
+@functools.lru_cache(maxsize=4)
+def _ring_kernel(halfwidth_deg: float, bin_step_deg: float) -> tuple[np.ndarray, np.ndarray]:
+    """Colatitudes (degrees, 0 to 90, half a bin apart) of the target rings, and the kernel's FFT in azimuth.
+
+    Entry [t, s, f] is the real FFT over the difference of azimuths of the pole-figure kernel
+    between a direction at target colatitude t and one at the centre of source ring s (source
+    rings cover 0 to 180 degrees).
+    """
+    kernel = Kernel(halfwidth_deg)
+    rings = int(round(90.0 / bin_step_deg))
+    n_az = 4 * rings
+    targets = np.linspace(0.0, 90.0, 2 * rings + 1)
+    source = np.radians((np.arange(2 * rings) + 0.5) * bin_step_deg)
+    dphi = np.arange(n_az) * 2.0 * np.pi / n_az
+    out = np.empty((len(targets), len(source), n_az // 2 + 1), dtype=complex)
+    for k, t in enumerate(np.radians(targets)):
+        cos = np.cos(t) * np.cos(source)[:, None] + np.sin(t) * np.sin(source)[:, None] * np.cos(dphi)[None, :]
+        out[k] = np.fft.rfft(kernel.pole_value(np.clip(cos, -1.0, 1.0)), axis=1)
+    return targets, out
 
 
 def pf_j(poles: np.ndarray, weights: np.ndarray, halfwidth_deg: float = 10.0,

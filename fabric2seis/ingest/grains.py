@@ -10,14 +10,16 @@ nearest the grain's first pixel.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
-from scipy.sparse import coo_matrix
-from scipy.sparse.csgraph import connected_components
 
-from fabric2seis.elastic.minerals import Mineral
 from fabric2seis.orientations import nearest_equivalent, proper_symmetry_quaternions, within_angle
+
+if TYPE_CHECKING:       # pandas and scipy are imported where they are used, to keep start-up short
+    import pandas as pd
+
+    from fabric2seis.elastic.minerals import Mineral
 
 
 @dataclass
@@ -181,6 +183,9 @@ def reconstruct(x, y, grid: str, step: float, quat: np.ndarray, mineral_index: n
             if len(sel):
                 sym = proper_symmetry_quaternions(m.symmetry)
                 linked[sel] = within_angle(quat[i[sel]], quat[j[sel]], sym, threshold)
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import connected_components
+
     graph = coo_matrix((np.ones(int(linked.sum()), dtype=np.int8), (i[linked], j[linked])), shape=(n, n))
     _, label = connected_components(graph, directed=False)
     return grain_statistics(label, x, y, quat, mineral_index, minerals, pixel_area, step)
@@ -299,6 +304,7 @@ def grains_table(grains: Grains, minerals: list[Mineral]) -> pd.DataFrame:
     ----------
     Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
     """
+    import pandas as pd
     from orix.quaternion import Rotation
 
     euler = np.degrees(Rotation(grains.quat).to_euler()) % 360.0

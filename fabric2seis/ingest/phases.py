@@ -8,7 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
-from fabric2seis.elastic.minerals import POINT_GROUPS, Mineral, find_mineral, load_library
+from fabric2seis.elastic.minerals import POINT_GROUP_NAMES, Mineral, find_mineral, load_library, point_groups
 from fabric2seis.errors import InputError, nearest
 from fabric2seis.ingest.io.record import EBSDData
 
@@ -156,7 +156,7 @@ def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
                              f"'phases' to library names: {', '.join(sorted(library))}", data.source) from None
         file_group = data.phase_point_groups.get(pid)
         if file_group:
-            file_laue = POINT_GROUPS[file_group].laue.name if file_group in POINT_GROUPS else None
+            file_laue = point_groups()[file_group].laue.name if file_group in POINT_GROUP_NAMES else None
             if file_laue is not None and file_laue != mineral.symmetry.laue.name:
                 raise InputError(f"phase '{name}' has point group {file_group} (Laue class {file_laue}) in "
                                  f"the file, but library mineral '{mineral.name}' is {mineral.point_group} "

@@ -4,13 +4,15 @@ from __future__ import annotations
 
 import json
 from pathlib import Path
-
-import pandas as pd
+from typing import TYPE_CHECKING
 
 from fabric2seis.errors import InputError
 from fabric2seis.ingest.io import is_supported
 from fabric2seis.pipeline import checked_sample_name, sample_name
 from fabric2seis.workflow.status import read_statuses
+
+if TYPE_CHECKING:       # pandas is imported by the functions that build tables (the sample jobs need none)
+    import pandas as pd
 
 # folders and files the workflow itself keeps in the results folder: no sample may take their names
 WORKFLOW_NAMES = ("status", "logs", "benchmarks", "report_parts", "field", "stack", "suite_summary",
@@ -161,6 +163,8 @@ def suite_table(summary_files: list[str | Path]) -> pd.DataFrame:
     pandas.DataFrame
         One row per file.
     """
+    import pandas as pd
+
     rows = []
     for f in summary_files:
         summary = json.loads(Path(f).read_text())
@@ -181,6 +185,8 @@ def suite_table_from_status(status_files: list[str | Path]) -> pd.DataFrame:
     pandas.DataFrame
         One row per sample, its status and, when it succeeded, its summary's scalar keys.
     """
+    import pandas as pd
+
     rows = []
     for status in read_statuses(status_files):
         if status.ok and not Path(str(status.summary)).is_file():

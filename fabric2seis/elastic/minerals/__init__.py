@@ -16,18 +16,18 @@ import functools
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 import yaml
-from diffpy.structure import Lattice, Structure
-from orix.crystal_map import Phase
-from orix.quaternion import Rotation
-from orix.quaternion import symmetry as orix_symmetry
-from orix.vector import Miller
 
 from fabric2seis.elastic import check_stiffness, rotate_voigt
 from fabric2seis.elastic.minerals.optical import OpticalConstants, read_optics
 from fabric2seis.errors import InputError, nearest
+
+if TYPE_CHECKING:       # orix is imported where it is used: importing it takes seconds (matplotlib, numba)
+    from orix.crystal_map import Phase
+    from orix.quaternion import symmetry as orix_symmetry
 
 DATA_DIR = Path(__file__).with_name("data")
 
@@ -43,18 +43,35 @@ _AXIS_NAMES = ("a", "b", "c", "a*", "b*", "c*")
 SYMMETRY_TOLERANCE_GPA = 0.06
 #: orix's 38 point groups by name, from the public names of ``orix.quaternion.symmetry`` (the
 #: monoclinic and orthorhombic groups with an axis named are orix's "211", "121", "112", "m11" ...)
-POINT_GROUPS: dict[str, orix_symmetry.Symmetry] = {group.name: group for group in (
-    orix_symmetry.C1, orix_symmetry.Ci,
-    orix_symmetry.C2x, orix_symmetry.C2y, orix_symmetry.C2z, orix_symmetry.Csx, orix_symmetry.Csy,
-    orix_symmetry.Csz, orix_symmetry.C2h,
-    orix_symmetry.D2, orix_symmetry.C2v, orix_symmetry.D2h,
-    orix_symmetry.C4, orix_symmetry.S4, orix_symmetry.C4h, orix_symmetry.D4, orix_symmetry.C4v,
-    orix_symmetry.D2d, orix_symmetry.D4h,
-    orix_symmetry.C3, orix_symmetry.S6, orix_symmetry.D3x, orix_symmetry.D3y, orix_symmetry.D3,
-    orix_symmetry.C3v, orix_symmetry.D3d,
-    orix_symmetry.C6, orix_symmetry.C3h, orix_symmetry.C6h, orix_symmetry.D6, orix_symmetry.C6v,
-    orix_symmetry.D3h, orix_symmetry.D6h,
-    orix_symmetry.T, orix_symmetry.Th, orix_symmetry.O, orix_symmetry.Td, orix_symmetry.Oh)}
+POINT_GROUP_NAMES = ("1", "-1", "211", "121", "112", "m11", "1m1", "11m", "2/m", "222", "mm2", "mmm",
+                     "4", "-4", "4/m", "422", "4mm", "-42m", "4/mmm", "3", "-3", "321", "312", "32", "3m",
+                     "-3m", "6", "-6", "6/m", "622", "6mm", "-6m2", "6/mmm", "23", "m-3", "432", "-43m",
+                     "m-3m")
+
+
+@functools.cache
+def point_groups() -> dict[str, orix_symmetry.Symmetry]:
+    """orix's 38 point groups by name (``POINT_GROUP_NAMES``); orix is imported on the first call."""
+    from orix.quaternion import symmetry as orix_symmetry
+
+    return {group.name: group for group in (
+            orix_symmetry.C1, orix_symmetry.Ci,
+            orix_symmetry.C2x, orix_symmetry.C2y, orix_symmetry.C2z, orix_symmetry.Csx, orix_symmetry.Csy,
+            orix_symmetry.Csz, orix_symmetry.C2h,
+            orix_symmetry.D2, orix_symmetry.C2v, orix_symmetry.D2h,
+            orix_symmetry.C4, orix_symmetry.S4, orix_symmetry.C4h, orix_symmetry.D4, orix_symmetry.C4v,
+            orix_symmetry.D2d, orix_symmetry.D4h,
+            orix_symmetry.C3, orix_symmetry.S6, orix_symmetry.D3x, orix_symmetry.D3y, orix_symmetry.D3,
+            orix_symmetry.C3v, orix_symmetry.D3d,
+            orix_symmetry.C6, orix_symmetry.C3h, orix_symmetry.C6h, orix_symmetry.D6, orix_symmetry.C6v,
+            orix_symmetry.D3h, orix_symmetry.D6h,
+            orix_symmetry.T, orix_symmetry.Th, orix_symmetry.O, orix_symmetry.Td, orix_symmetry.Oh)}
+
+
+def __getattr__(name: str):
+    if name == "POINT_GROUPS":        # the dictionary of orix's groups, built when first asked for
+        return point_groups()
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 @dataclass(frozen=True)
@@ -190,6 +207,8 @@ class Mineral:
         list of numpy.ndarray, each shape (3, 3)
             One rotation per twin law, in orix's crystal frame; empty without twins.
         """
+        from orix.quaternion import Rotation
+
         out = []
         for twin in self.twins:
             axis = crystal_directions(self.lattice)[twin["axis"]]
@@ -199,6 +218,9 @@ class Mineral:
     @property
     def phase(self) -> Phase:
         """An orix Phase with this mineral's point group and lattice."""
+        from diffpy.structure import Lattice, Structure
+        from orix.crystal_map import Phase
+
         lat = self.lattice
         structure = Structure(lattice=Lattice(lat["a"], lat["b"], lat["c"],
                                               lat["alpha"], lat["beta"], lat["gamma"]))
@@ -228,7 +250,9 @@ def point_group_symmetry(point_group: str, unique_axis: str | None = None) -> or
     KeyError
         If the name is not a point group orix knows.
     """
-    if point_group not in POINT_GROUPS:
+    from orix.quaternion import symmetry as orix_symmetry
+
+    if point_group not in POINT_GROUP_NAMES:
         raise KeyError(point_group)
     if point_group in ("2", "m", "2/m") and unique_axis == "b":
         proper = orix_symmetry.C2y
@@ -237,7 +261,7 @@ def point_group_symmetry(point_group: str, unique_axis: str | None = None) -> or
         group = orix_symmetry.Symmetry.from_generators(proper, orix_symmetry.Ci)
         group.name = "2/m"
         return group
-    return POINT_GROUPS[point_group]
+    return point_groups()[point_group]
 
 
 def lattice_base(lattice: dict) -> np.ndarray:
@@ -253,6 +277,9 @@ def lattice_base(lattice: dict) -> np.ndarray:
     numpy.ndarray, shape (3, 3)
         The lattice vectors as rows, in angstrom.
     """
+    from diffpy.structure import Lattice, Structure
+    from orix.crystal_map import Phase
+
     return np.asarray(Phase(point_group="1", structure=Structure(lattice=Lattice(
         lattice["a"], lattice["b"], lattice["c"],
         lattice["alpha"], lattice["beta"], lattice["gamma"]))).structure.lattice.base, dtype=float)
@@ -298,6 +325,8 @@ def crystal_direction(mineral: Mineral, label: str) -> np.ndarray:
     numbers = [int(c) for c in text[1:-1].replace(",", " ").split()] if " " in text or "," in text \
         else [int(c) for c in text[1:-1]]
     kind = "hkl" if text.startswith("(") else "uvw"
+    from orix.vector import Miller
+
     return Miller(**{kind: numbers}, phase=mineral.phase).unit.data[0]
 
 
@@ -374,6 +403,8 @@ def check_symmetry_pattern(c: np.ndarray, sym: orix_symmetry.Symmetry, source: s
     InputError
         Unless ``c`` (orix crystal frame) is invariant under every operation of ``sym``.
     """
+    from orix.quaternion import Rotation
+
     ops = Rotation(sym.data).to_matrix()  # proper parts; elastic tensors are centrosymmetric
     rotated = rotate_voigt(c, ops)
     diff = np.abs(rotated - c).max(axis=0)
@@ -435,7 +466,7 @@ def load_mineral_file(path: str | Path) -> Mineral:
     try:
         sym = point_group_symmetry(pg, unique)
     except KeyError:
-        raise InputError(f"unknown point group '{pg}'{nearest(pg, POINT_GROUPS)}", src, "point_group") from None
+        raise InputError(f"unknown point group '{pg}'{nearest(pg, POINT_GROUP_NAMES)}", src, "point_group") from None
     density = float(entry["density_kg_m3"])
     if not 100 < density < 30000:
         raise InputError(f"density {density} kg m^-3 is not plausible", src, "density_kg_m3")
@@ -482,6 +513,8 @@ def load_mineral_file(path: str | Path) -> Mineral:
     twins = _twins(entry.get("twins"), src)
     reference = _reference_conditions(entry.get("reference_conditions"), src)
     check = _aggregate_check(entry.get("aggregate_check"), src)
+    from orix.quaternion import Rotation
+
     optics = read_optics(entry.get("optics"), lattice_base(entry["lattice"]), unique,
                          Rotation(sym.data).to_matrix(), src)
     memory = entry["from_memory"] or []

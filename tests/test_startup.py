@@ -1,0 +1,52 @@
+"""Start-up of a sample job: what `fabric2seis sample` and the workflow's sample script import
+before the work begins stays light. A structural check of sys.modules in a fresh interpreter, not
+a timing (the seconds are measured in benchmarks/startup.py)."""
+
+import ast
+import json
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+from fabric2seis.elastic.minerals import POINT_GROUP_NAMES, point_groups
+
+ROOT = Path(__file__).resolve().parents[1]
+ENV = {**os.environ, "PYTHONPATH": str(ROOT)}
+SCRIPTS = ROOT / "fabric2seis" / "workflow" / "scripts"
+#: libraries that take a second or more to import and that the sample job needs only later, where it
+#: reads a map (orix), builds grains or fits (scipy), writes tables (pandas) or draws (matplotlib)
+HEAVY = ("matplotlib", "orix", "scipy", "pandas", "numba", "dask")
+
+
+def loaded_after(statements: list[str]) -> list[str]:
+    """The heavy libraries in sys.modules of a fresh interpreter after running the import statements."""
+    code = "\n".join([*statements, "import sys, json",
+                      f"print(json.dumps([m for m in {HEAVY!r} if m in sys.modules]))"])
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=ENV, cwd=ROOT,
+                         check=True)
+    return json.loads(out.stdout)
+
+
+def script_imports(script: Path) -> list[str]:
+    """The module-level import statements of a workflow script, as written (ast.unparse)."""
+    tree = ast.parse(script.read_text())
+    return [ast.unparse(node) for node in tree.body if isinstance(node, (ast.Import, ast.ImportFrom))]
+
+
+def test_the_sample_command_imports_no_heavy_library_before_it_works():
+    # cli.main dispatches to _sample, which imports pipeline; pipeline imports its stages where they run
+    assert loaded_after(["import fabric2seis.cli", "import fabric2seis.pipeline"]) == []
+
+
+def test_the_workflow_sample_script_imports_no_heavy_library_before_it_works():
+    statements = script_imports(SCRIPTS / "run_sample.py")
+    assert any("fabric2seis.pipeline" in s for s in statements)     # the check reads the real script
+    assert loaded_after(statements) == []
+
+
+def test_the_point_group_names_known_without_orix_are_orix_s_groups_in_order():
+    # POINT_GROUP_NAMES answers "is this a point group" before orix is imported; it must stay the
+    # names of orix's 38 groups (orix.quaternion.symmetry, the reference library) in the same order
+    assert tuple(point_groups()) == POINT_GROUP_NAMES
+    assert len(POINT_GROUP_NAMES) == 38

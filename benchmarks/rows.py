@@ -21,7 +21,12 @@ of its children stays small.
 from __future__ import annotations
 
 import json
+import os
+import tempfile
 from pathlib import Path
+
+#: the checkout the benchmarks measure
+REPOSITORY_ROOT = Path(__file__).resolve().parent.parent
 
 OPERATORS = ("<=", "<", ">=", ">")
 
@@ -70,3 +75,36 @@ def add_options(parser, quick_help: str) -> None:
     parser.add_argument("--json", default=None, metavar="PATH",
                         help="also write the measured figures as JSON rows to PATH (for benchmarks/run.py)")
     parser.add_argument("--quick", action="store_true", help=quick_help)
+
+
+def child_environment(bytecode_cache: bool = True) -> dict[str, str]:
+    """The environment of the processes a benchmark starts.
+
+    This checkout comes first on ``PYTHONPATH`` (Snakemake's scripts import it too). Python's
+    bytecode cache is on (``PYTHONDONTWRITEBYTECODE`` removed), kept in a folder of the system's
+    temporary folder (``PYTHONPYCACHEPREFIX``) so that the checkout stays clean: an installed
+    package has its bytecode compiled, and a shell that forbids writing it would charge the
+    compilation of every module to every process. ``bytecode_cache=False`` measures that case.
+    """
+    environment = dict(os.environ)
+    environment["PYTHONPATH"] = os.pathsep.join(
+        [str(REPOSITORY_ROOT)] + [p for p in environment.get("PYTHONPATH", "").split(os.pathsep)
+                                   if p and Path(p).resolve() != REPOSITORY_ROOT])
+    if bytecode_cache:
+        environment.pop("PYTHONDONTWRITEBYTECODE", None)
+        environment["PYTHONPYCACHEPREFIX"] = str(Path(tempfile.gettempdir()) / "fabric2seis-benchmark-pycache")
+    else:
+        environment["PYTHONDONTWRITEBYTECODE"] = "1"
+        environment.pop("PYTHONPYCACHEPREFIX", None)
+    return environment
+
+
+#: rows recorded by :func:`record` in this process, for scripts that print as they measure
+COLLECTED: list[dict] = []
+
+
+def record(figure: str, value: float | None, unit: str, **keywords) -> dict:
+    """Make a row (the arguments of :func:`row`) and keep it in :data:`COLLECTED`."""
+    made = row(figure, value, unit, **keywords)
+    COLLECTED.append(made)
+    return made

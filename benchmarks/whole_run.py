@@ -38,7 +38,8 @@ child as ``os.wait4`` reports it (Linux: kB; MB here are 2**20 bytes); Linux car
 peak over into its children, so this parent imports neither numpy nor orix and makes the maps in
 child processes too (its own peak, the floor under every measured peak, is printed). The file has
 just been written, so both readers find it in the operating system's file cache. Generating and
-writing the maps is not timed (shown for information).
+writing the maps is not timed (shown for information). Children run with Python's bytecode cache
+on (``rows.child_environment``), as an installed package has it.
 
 How to run
 ----------
@@ -77,7 +78,7 @@ import tempfile
 import time
 from pathlib import Path
 
-from rows import add_options, row, write_rows
+from rows import add_options, child_environment, row, write_rows
 
 REPOSITORY_ROOT = Path(__file__).resolve().parent.parent
 #: pixels per grain of the synthetic maps ("grains of tens of pixels")
@@ -190,8 +191,7 @@ def watched_run(command: list[str], cwd: Path, timeout_s: float, cap_mb: float, 
     Stops it (SIGKILL) when it runs longer than ``timeout_s`` or its resident memory passes
     ``cap_mb``; ``stopped`` then says why.
     """
-    environment = {**os.environ, "PYTHONPATH": os.pathsep.join(
-        [str(REPOSITORY_ROOT)] + [p for p in os.environ.get("PYTHONPATH", "").split(os.pathsep) if p])}
+    environment = child_environment()
     start = time.perf_counter()
     process = subprocess.Popen(command, cwd=cwd, env=environment, stdout=stdout or subprocess.DEVNULL,
                                stderr=subprocess.PIPE if stdout is None else subprocess.STDOUT)
@@ -448,7 +448,8 @@ def main(argv: list[str] | None = None) -> int:
         print()
         for entry in rows:
             value = "not measured" if entry["value"] is None else f"{entry['value']:,.2f} {entry['unit']}"
-            base = f"; baseline {entry['baseline']:,.2f} {entry['baseline_unit']}" if entry["baseline"] is not None else ""
+            base = (f"; baseline {entry['baseline']:,.2f} {entry['baseline_unit']}"
+                    if entry["baseline"] is not None else "")
             ratio = f"; ratio {entry['ratio']:.2f}" if entry["ratio"] is not None else ""
             print(f"  {entry['figure']:<62} {value}{base}{ratio}  ({entry['note']})")
         end_load = os.getloadavg()

@@ -206,6 +206,9 @@ def markdown(mode: str, machine_info: dict, results: list[dict], quick_wall_s: f
         lines.append(f"- **measured under load**: the 1-minute load average was above half the "
                      f"{cores} cores around {', '.join(r['name'] for r in loaded)} (other work on the "
                      "machine), so those times are longer than the machine can do; see the load column below")
+    if mode == "quick":
+        lines += ["", "Quick sizes are reduced: the targets are those of the full sizes, so a quick verdict is "
+                      "only indicative (a speed-up over a quadratic baseline, for one, is smaller on small inputs)."]
     lines += ["", "Ratio: as named in each row (e.g. whole run / orix read); the baseline is measured in "
               "the same run, beside the figure. Pass or fail against the target is decided by run.py.", "",
               "| benchmark | figure | measured | baseline | ratio | target | result |",

@@ -71,7 +71,8 @@ BENCHMARKS = [
 #: the wall time --quick must keep to (s)
 QUICK_BUDGET_S = 120.0
 #: expected wall time of each --quick benchmark (s) until a quick table tells the measured one
-QUICK_GUESS_S = {"whole_run": 50.0, "startup": 55.0, "splitting_layers": 11.0, "seismic_stage": 18.0}
+QUICK_GUESS_S = {"whole_run": 50.0, "startup": 55.0, "splitting_layers": 8.0, "seismic_stage": 18.0,
+                 "rotation_and_averaging": 6.0, "optics": 12.0, "fabric_indices": 8.0, "ingestion": 30.0}
 DEFAULT_QUICK_GUESS_S = 15.0
 VERSIONS = ("fabric2seis", "numpy", "scipy", "orix", "matplotlib", "snakemake")
 

@@ -8,7 +8,7 @@ What it measures
    ``fabric2seis.workflow.status`` and ``fabric2seis.workflow.suite``. Target: under 1.5 s each.
    Beside them, measured in alternation with them: ``python -c pass`` (the interpreter alone, the
    baseline of the ratio) and, for information, ``import fabric2seis.cli`` (the command's first
-   import). Median of 5 processes each (3 with ``--quick``). Children run with Python's bytecode
+   import). Median of 5 processes each (2 with ``--quick``, and no warm-up process). Children run with Python's bytecode
    cache on, as an installed package has it (``rows.child_environment``); the import of
    ``fabric2seis.pipeline`` is also timed without it (``PYTHONDONTWRITEBYTECODE=1``), for
    information.
@@ -25,8 +25,8 @@ What it measures
    of it. A warm-up run of the first suite comes first. Also from the second suite alone: each
    sample's jobs as Snakemake's own benchmark files time them (the sample job and the sample
    report job) minus its run.log work, the mean over the samples (Snakemake's scheduling between
-   jobs is not in it). ``--quick`` runs only one suite, the demo sample and 1 tiny sample, and
-   takes the overhead from its job files; nor does it time the import without bytecode cache.
+   jobs is not in it). ``--quick`` runs only one suite, the demo sample alone, and takes the
+   overhead from its job files; nor does it time the import without bytecode cache.
 
 How it measures
 ---------------
@@ -39,7 +39,7 @@ How to run
 From the repository root::
 
     python benchmarks/startup.py [--samples 8] [--repeats 5]
-    python benchmarks/startup.py --quick      # 3 processes per import, one suite of 2 samples
+    python benchmarks/startup.py --quick      # 2 processes per import, one suite of the demo sample
 
 About three minutes with the defaults, about one with ``--quick`` (2 cores).
 """
@@ -87,9 +87,9 @@ def process_seconds(code: str, environment: dict | None = None) -> float:
     return time.perf_counter() - start
 
 
-def import_rows(repeats: int, uncached: bool) -> list[dict]:
+def import_rows(repeats: int, uncached: bool, warm_up: bool = True) -> list[dict]:
     codes = ["pass"] + [code for _, code, _ in IMPORT_SETS]
-    for code in codes:                      # warm the file cache
+    for code in codes if warm_up else []:   # warm the file cache
         process_seconds(code)
     times: dict[str, list[float]] = {code: [] for code in codes}
     for _ in range(repeats):                # in alternation: every set sees the same machine
@@ -171,7 +171,7 @@ def overhead_rows(count: int, quick: bool) -> list[dict]:
     finally:
         shutil.rmtree(folder, ignore_errors=True)
     jobs_note = (f"from Snakemake's job benchmark files of a suite of the demo sample and {count} tiny "
-                 "samples: (sample job + sample report job - run.log work), mean over the samples; "
+                 "sample(s): (sample job + sample report job - run.log work), mean over the samples; "
                  "Snakemake's scheduling between jobs not included")
     if quick:
         print(f"Workflow on 1 core, demo sample and {count} tiny samples: {wall_b:.1f} s (run.log work "
@@ -203,14 +203,15 @@ def overhead_rows(count: int, quick: bool) -> list[dict]:
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--samples", type=int, default=None,
-                        help="tiny samples added to the suite (default 8; --quick 1)")
+                        help="tiny samples added to the suite (default 8; --quick 0)")
     parser.add_argument("--repeats", type=int, default=None, help="processes per import set (default 5; --quick 3)")
-    add_options(parser, "3 processes per import set; one suite (the demo sample and 1 tiny sample), "
+    add_options(parser, "2 processes per import set, no warm-up; one suite (the demo sample alone), "
                         "overhead from its job files")
     args = parser.parse_args(argv)
-    repeats = args.repeats or (3 if args.quick else 5)
-    count = args.samples or (1 if args.quick else 8)
-    rows = import_rows(repeats, uncached=not args.quick) + overhead_rows(count, quick=args.quick)
+    repeats = args.repeats or (2 if args.quick else 5)
+    count = args.samples if args.samples is not None else (0 if args.quick else 8)
+    rows = (import_rows(repeats, uncached=not args.quick, warm_up=not args.quick)
+            + overhead_rows(count, quick=args.quick))
     write_rows(args.json, "startup", rows)
     return 0
 

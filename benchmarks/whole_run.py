@@ -161,6 +161,8 @@ def read_with_orix(path: str, warm_up_path: str) -> dict:
 
 def child_main(args: argparse.Namespace) -> int:
     if args.child == "generate":
+        if args.warm_up_file:                 # the small map orix reads first, made in the same process
+            write_synthetic_map(Path(args.warm_up_file), WARM_UP_PIXELS, 0)
         result = write_synthetic_map(Path(args.file), args.pixels, args.seed)
     else:
         result = read_with_orix(args.file, args.warm_up_file)
@@ -356,7 +358,8 @@ def rows_of(results: list[dict], runs: int) -> list[dict]:
     if len(measured) >= 2:
         (n1, m1), (n2, m2) = measured[-2], measured[-1]
         slope = (m2 - m1) / (n2 - n1)
-        largest = n2 + (STATED_MACHINE_MB - m2) / slope if slope > 0 else None
+        # an extrapolation: three significant figures are all it can claim
+        largest = float(f"{n2 + (STATED_MACHINE_MB - m2) / slope:.3g}") if slope > 0 else None
         out.append(row("largest map the defaults handle in 16 GB (peak-memory slope)", largest, "px",
                        note=(f"linear through the peaks at {n1:,} px ({m1:.0f} MB) and {n2:,} px "
                              f"({m2:.0f} MB): {slope * 1e6:.0f} MB per 10^6 px; 16 GB = "
@@ -422,11 +425,12 @@ def main(argv: list[str] | None = None) -> int:
     workdir = Path(tempfile.mkdtemp(prefix="fabric2seis-whole-run-", dir=args.workdir))
     results, failed = [], False
     try:
-        in_child("generate", workdir / "warm_up.ang", ["--pixels", str(WARM_UP_PIXELS), "--seed", "0"])
+        warm_up = workdir / "warm_up.ang"
         for pixels in args.size_list:
             path = workdir / f"map_{pixels}.ang"
+            first = [] if warm_up.is_file() else ["--warm-up-file", str(warm_up)]
             try:
-                made = in_child("generate", path, ["--pixels", str(pixels), "--seed", str(args.seed)])
+                made = in_child("generate", path, ["--pixels", str(pixels), "--seed", str(args.seed)] + first)
             except RuntimeError as exc:
                 print(f"{pixels:,} px: making the map FAILED: {exc}")
                 failed = True

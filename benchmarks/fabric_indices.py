@@ -78,6 +78,7 @@ import numpy as np
 import orix
 import scipy
 from orix.quaternion import Misorientation, Orientation
+from rows import COLLECTED, record, write_rows
 
 import fabric2seis
 from fabric2seis.elastic.minerals import find_mineral
@@ -233,6 +234,9 @@ def part_one(args, olivine) -> tuple[list[str], bool]:
                         / math.log(last / first))
             say(f"  scaling exponent log(t_last/t_first)/log(N_last/N_first), {first:,} to "
                 f"{last:,} grains: {exponent:.2f}")
+            record(f"j_index scaling exponent, {kind}, {first:,} to {last:,} grains", exponent, "",
+                   target=("value", "<=", TARGET_SCALING_EXPONENT),
+                   note=f"{measured[kind][first].seconds:.2f} s -> {measured[kind][last].seconds:.2f} s")
             targets.append(f"  {'j_index scaling exponent, ' + kind:<52} {exponent:8.2f}  "
                            f"(target <= {TARGET_SCALING_EXPONENT}): {verdict(exponent <= TARGET_SCALING_EXPONENT)}")
         else:
@@ -262,6 +266,10 @@ def part_one(args, olivine) -> tuple[list[str], bool]:
         pairs = timed(lambda q=q, w=w: j_index(q, w, symmetry, HALFWIDTH_DEG, method="pairs"))
         say(f"  {'':<9}  ({fast.runs_text}, {brute.runs_text}); the pair sum of earlier versions: "
             f"{pairs.seconds:.2f} s, J {pairs.result:.6f}")
+        record(f"j_index, {kind}, {n:,} grains", fast.seconds, "s", baseline=brute.seconds, baseline_unit="s",
+               baseline_label="brute-force pair sum", ratio=ratio, ratio_label="brute / j_index",
+               target=("ratio", ">=", TARGET_SPEEDUP_OVER_BRUTE),
+               note=f"{fast.runs_text}; J agrees to {difference:.1e} relative")
         targets.append(f"  {f'j_index vs brute force, {kind}, {n:,} grains':<52} {ratio:7.1f}x  "
                        f"(target >= {TARGET_SPEEDUP_OVER_BRUTE:.0f}x): "
                        f"{verdict(ratio >= TARGET_SPEEDUP_OVER_BRUTE)}")
@@ -354,6 +362,14 @@ def part_two(args, olivine) -> tuple[list[str], bool]:
     say(f"  M-index = {first_value:.5f} (second call {second.result:.5f}); for random grains "
         "only sampling noise, so close to 0")
     say()
+    record(f"misorientation angles, {args.m_pairs:,} pairs", ours.seconds, "s", baseline=theirs.seconds,
+           baseline_unit="s", baseline_label="orix Misorientation.reduce().angle", ratio=ratio,
+           ratio_label="orix / fabric2seis", target=("ratio", ">=", TARGET_SPEEDUP_OVER_ORIX),
+           note=f"{ours.runs_text}; angles agree to {largest_deg:.1e} deg")
+    record(f"m_index, {args.m_grains:,} grains, first call (empty caches)", first_seconds, "s",
+           baseline=second.seconds, baseline_unit="s", baseline_label="second call (cached histogram)",
+           ratio=first_seconds / second.seconds, ratio_label="first / second",
+           note="one run; second " + second.runs_text)
     target = (f"  {'misorientation angles, orix / fabric2seis':<52} {ratio:7.1f}x  "
               f"(target >= {TARGET_SPEEDUP_OVER_ORIX:.0f}x): {verdict(ratio >= TARGET_SPEEDUP_OVER_ORIX)}")
     return [target], agrees
@@ -389,6 +405,8 @@ def parse_arguments(argv: list[str] | None) -> argparse.Namespace:
     parser.add_argument("--max-call-minutes", type=float, default=20.0,
                         help="skip a J-index size whose single call is predicted to take longer "
                              "(default 20)")
+    parser.add_argument("--json", default=None, metavar="PATH",
+                        help="also write the figures as JSON rows (benchmarks/run.py)")
     args = parser.parse_args(argv)
     if args.brute_size < 2 or args.m_grains < 2 or args.m_pairs < 1:
         parser.error("--brute-size and --m-grains must be at least 2, --m-pairs at least 1")
@@ -418,6 +436,7 @@ def main(argv: list[str] | None = None) -> int:
         say(line)
     say()
     say(f"Total wall time: {time.perf_counter() - started:.0f} s")
+    write_rows(args.json, "fabric_indices", COLLECTED)
     failures = []
     if not j_agree:
         failures.append(f"j_index and the brute-force J differ by {J_TOLERANCE:.0e} relative or more")

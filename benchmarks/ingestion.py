@@ -63,6 +63,7 @@ import sys as _sys
 from pathlib import Path as _Path
 
 _sys.path.insert(0, str(_Path(__file__).resolve().parents[1]))   # measure this checkout, not an installed copy
+_sys.path.insert(0, str(_Path(__file__).resolve().parent))       # rows.py beside this script
 
 import argparse
 import contextlib
@@ -77,6 +78,8 @@ import sys
 import tempfile
 import time
 from pathlib import Path
+
+from rows import COLLECTED, record, write_rows
 
 #: the repository root: children run here so that settings.defaults() finds config/config.yaml
 REPOSITORY_ROOT = Path(__file__).resolve().parent.parent
@@ -399,6 +402,8 @@ def parse_arguments(argv: list[str] | None) -> argparse.Namespace:
     parser.add_argument("--file", help=argparse.SUPPRESS)
     parser.add_argument("--warm-up-file", help=argparse.SUPPRESS)
     parser.add_argument("--repeats", type=int, default=1, help=argparse.SUPPRESS)
+    parser.add_argument("--json", default=None, metavar="PATH",
+                        help="also write the figures as JSON rows to PATH (for benchmarks/run.py)")
     args = parser.parse_args(argv)
     if args.child is None:
         try:
@@ -578,6 +583,22 @@ def main(argv: list[str] | None = None) -> int:
                 print(profile_result["profile"].rstrip())
                 print()
 
+        for row in rows:
+            pixels = row["made"]["pixels"]
+            record(f"ingestion (pipeline.ingest), {pixels:,} px", row["ingest_seconds"], "s",
+                   baseline=row["orix_seconds"], baseline_unit="s", baseline_label="orix.io.load",
+                   ratio=row["ratio"], ratio_label="ingestion / orix read",
+                   target=("ratio", "<=", TARGET_TIME_RATIO),
+                   note=f"best of {len(row['ingest']['seconds'])}, after a warm-up")
+            if row["memory_met"] is not None:
+                record(f"ingestion peak memory, {pixels:,} px", row["ingest"]["peak_mb"], "MB",
+                       baseline=row["orix"]["peak_mb"], baseline_unit="MB", baseline_label="orix.io.load process",
+                       ratio=row["ingest"]["peak_mb"] / row["orix"]["peak_mb"], ratio_label="ingestion / orix",
+                       target=("value", "<", TARGET_PEAK_MB) if pixels >= TARGET_PEAK_PIXELS * 0.95 else None)
+        if measured is not None:
+            record(f"ingestion time scaling exponent, {n1:,} to {n2:,} px", measured, "",
+                   target=("value", "<=", limit), note=f"n log n gives {limit:.3f} over this range")
+        write_rows(args.json, "ingestion", COLLECTED)
         print("Targets")
         for row in rows:
             print(f"  ingestion / orix read at {row['made']['pixels']:>9,} pixels: "

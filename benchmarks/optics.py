@@ -27,6 +27,7 @@ import time
 from pathlib import Path
 
 import numpy as np
+from rows import COLLECTED, record, write_rows
 from timing import best_of
 
 from fabric2seis.elastic.minerals import find_mineral
@@ -61,6 +62,11 @@ def map_part(n: int) -> bool:
     print(f"  sRGB with the 530 nm plate       {t_plate:8.3f} s")
     print(f"  per-pixel spectral sum           {t_loop / len(subset) * n:8.3f} s for the whole map "
           f"(estimated from {len(subset):,} pixels)")
+    record(f"crossed-polar colours of {n:,} pixels (sections + sRGB)", t_section + t_plain, "s",
+           baseline=t_section + t_loop / len(subset) * n, baseline_unit="s",
+           baseline_label="sections + per-pixel spectral sum (estimated)",
+           ratio=(t_section + t_loop / len(subset) * n) / (t_section + t_plain), ratio_label="baseline / tables",
+           note=f"best of 3; spectral sum timed on {len(subset):,} pixels; colours agree to {diff:.1e}")
     verdict = "ok" if diff <= 2e-3 else "FAILED"
     print(f"  largest sRGB difference          {diff:.1e} (must be <= 2e-3: {verdict})")
     return diff <= 2e-3
@@ -83,15 +89,21 @@ def command_part() -> None:
           "with and without the plate)")
     print(f"  in this process (after imports)  {inside:8.2f} s")
     print(f"  the command (imports included)   {command:8.2f} s")
+    record(f"fabric2seis optics command, {largest.name}", command, "s", baseline=inside, baseline_unit="s",
+           baseline_label="run_optics in the measuring process (after imports)", ratio=command / inside,
+           ratio_label="command / in process", note="one run each")
 
 
 def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--pixels", type=int, default=1_000_000)
+    parser.add_argument("--json", default=None, metavar="PATH",
+                        help="also write the figures as JSON rows (benchmarks/run.py)")
     args = parser.parse_args()
     print(f"machine: {os.cpu_count()} cores, load {os.getloadavg()[0]:.2f}")
     ok = map_part(args.pixels)
     command_part()
+    write_rows(args.json, "optics", COLLECTED)
     return 0 if ok else 1
 
 

@@ -58,6 +58,7 @@ from collections.abc import Callable
 import numpy as np
 from orix.quaternion import Rotation
 from pymatgen.analysis.elasticity import ElasticTensor
+from rows import COLLECTED, record, write_rows
 
 from fabric2seis.elastic import (
     crystal_to_sample,
@@ -225,6 +226,8 @@ def parse_arguments(argv: list[str] | None) -> argparse.Namespace:
                         help="orientations per einsum call, to bound memory (default 100,000)")
     parser.add_argument("--repeats", type=int, default=2,
                         help="runs of each fast method; the best time counts (default 2)")
+    parser.add_argument("--json", default=None, metavar="PATH",
+                        help="also write the figures as JSON rows (benchmarks/run.py)")
     args = parser.parse_args(argv)
     if args.n < 1:
         parser.error("--n must be at least 1")
@@ -314,6 +317,17 @@ def main(argv: list[str] | None = None) -> int:
         print(line)
     print()
 
+    for label, seconds in (("weighted_rotated_mean", kernel_seconds),
+                           ("crystal_to_sample + mean", per_grain_seconds)):
+        record(f"Voigt average of {count:,} orientations, {label}", seconds, "s", baseline=einsum_seconds,
+               baseline_unit="s", baseline_label="numpy einsum on 3x3x3x3 tensors", ratio=einsum_seconds / seconds,
+               ratio_label="einsum / project", target=("ratio", ">=", TARGET_SPEEDUP_OVER_EINSUM),
+               note=f"best of {args.repeats}")
+        record(f"Voigt average of {count:,} orientations, {label}, vs pymatgen", seconds, "s",
+               baseline=pymatgen_seconds, baseline_unit="s", baseline_label="pymatgen rotate loop (scaled)",
+               ratio=pymatgen_seconds / seconds, ratio_label="pymatgen / project",
+               target=("ratio", ">=", TARGET_SPEEDUP_OVER_PYMATGEN),
+               note=f"pymatgen timed on {subset:,} orientations, scaled")
     print("Targets")
     print(target_line("weighted_rotated_mean vs einsum", einsum_seconds / kernel_seconds,
                       TARGET_SPEEDUP_OVER_EINSUM))
@@ -325,6 +339,7 @@ def main(argv: list[str] | None = None) -> int:
                       pymatgen_seconds / per_grain_seconds, TARGET_SPEEDUP_OVER_PYMATGEN))
     print()
 
+    write_rows(args.json, "rotation_and_averaging", COLLECTED)
     if not all_agree:
         print(f"FAILED: the methods disagree by more than {AGREEMENT_TOLERANCE:.0e} relative.")
         return 1

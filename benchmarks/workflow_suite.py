@@ -25,6 +25,8 @@ import tempfile
 import time
 from pathlib import Path
 
+from rows import row, write_rows
+
 from fabric2seis.elastic.minerals import find_mineral
 from fabric2seis.ingest.io.write import write_table
 from fabric2seis.synth import fabric_orientations
@@ -50,19 +52,26 @@ def work_seconds(results: Path) -> float:
     return total
 
 
-def main() -> int:
-    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
-    parser.add_argument("--samples", type=int, default=24)
-    args = parser.parse_args()
-    folder = Path(tempfile.mkdtemp(prefix="fabric2seis-suite-"))
-    samples = folder / "samples"
-    samples.mkdir()
+def write_samples(samples: Path, count: int) -> None:
+    """``count`` grain lists of 200 olivine grains, each with a sidecar asking for 50 resamples."""
     olivine = find_mineral("olivine")
-    for k in range(args.samples):
+    for k in range(count):
         fabric = ("olivine-A", "olivine-B", "olivine-C", "random")[k % 4]
         write_table(samples / f"bench_{k:02d}.csv", fabric_orientations(olivine, fabric, 200, 20.0, seed=k),
                     ["olivine"] * 200)
         (samples / f"bench_{k:02d}.yaml").write_text("bootstrap: {n: 50}\n")
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("--samples", type=int, default=24)
+    parser.add_argument("--json", default=None, metavar="PATH",
+                        help="also write the figures as JSON rows (benchmarks/run.py)")
+    args = parser.parse_args()
+    folder = Path(tempfile.mkdtemp(prefix="fabric2seis-suite-"))
+    samples = folder / "samples"
+    samples.mkdir()
+    write_samples(samples, args.samples)
     # warm-up on one sample, so that neither timed run pays for first-use caches
     warm = folder / "warm"
     warm.mkdir()
@@ -81,6 +90,13 @@ def main() -> int:
     print(f"  workflow overhead    {(one - work) / args.samples:8.2f} s per sample (process start-up, imports, "
           "Snakemake bookkeeping)")
     shutil.rmtree(folder, ignore_errors=True)
+    write_rows(args.json, "workflow_suite", [
+        row(f"workflow, {args.samples} small samples, --cores 2", two, "s", baseline=one, baseline_unit="s",
+            baseline_label="--cores 1", ratio=ratio, ratio_label="2 cores / 1 core", target=("ratio", "<=", 0.65)),
+        row(f"workflow overhead per sample, {args.samples} small samples on 1 core", (one - work) / args.samples, "s",
+            baseline=work / args.samples, baseline_unit="s", baseline_label="per-sample work (run.log)",
+            ratio=(one - work) / work, ratio_label="overhead / work",
+            note="suite fixed costs included, spread over the samples")])
     return 0
 
 

@@ -525,7 +525,7 @@ def _colatitude_azimuth(v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return colat, np.mod(np.arctan2(v[:, 1], v[:, 0]), 2.0 * np.pi)
 
 
-@functools.lru_cache(maxsize=4)
+@functools.lru_cache(maxsize=2)   # about 90 MB each at the default 1 degree step
 def _ring_kernel(halfwidth_deg: float, bin_step_deg: float) -> tuple[np.ndarray, np.ndarray]:
     """Colatitudes (degrees, 0 to 90, half a bin apart) of the target rings, and the kernel's FFT in azimuth.
 

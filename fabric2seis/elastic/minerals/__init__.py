@@ -321,12 +321,12 @@ def crystal_direction(mineral: Mineral, label: str) -> np.ndarray:
     numpy.ndarray
         Unit vector (3,) in the crystal Cartesian frame (e1 || a, e3 || c*), dimensionless.
     """
+    from orix.vector import Miller
+
     text = label.strip()
     numbers = [int(c) for c in text[1:-1].replace(",", " ").split()] if " " in text or "," in text \
         else [int(c) for c in text[1:-1]]
     kind = "hkl" if text.startswith("(") else "uvw"
-    from orix.vector import Miller
-
     return Miller(**{kind: numbers}, phase=mineral.phase).unit.data[0]
 
 
@@ -447,6 +447,8 @@ def load_mineral_file(path: str | Path) -> Mineral:
         break the symmetry of the point group, or optical constants that fail their checks
         (``optical.read_optics``).
     """
+    from orix.quaternion import Rotation
+
     path = Path(path)
     src = str(path)
     try:
@@ -513,8 +515,6 @@ def load_mineral_file(path: str | Path) -> Mineral:
     twins = _twins(entry.get("twins"), src)
     reference = _reference_conditions(entry.get("reference_conditions"), src)
     check = _aggregate_check(entry.get("aggregate_check"), src)
-    from orix.quaternion import Rotation
-
     optics = read_optics(entry.get("optics"), lattice_base(entry["lattice"]), unique,
                          Rotation(sym.data).to_matrix(), src)
     memory = entry["from_memory"] or []

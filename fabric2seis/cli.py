@@ -49,9 +49,39 @@ def _sample(args: argparse.Namespace) -> int:
             print(f"[{args.input}] {message}", file=sys.stderr, flush=True)
 
     out = run_sample(args.input, args.settings, args.out, progress, bars=terminal_bars(),   # bars on a TTY only
-                     minerals_dir=args.minerals)
+                     minerals_dir=args.minerals, threads=thread_option(args.threads))
     print(f"wrote {out}")
     return 0
+
+
+def thread_option(text: str | None) -> int | None:
+    """The value of ``--threads``: a whole number of at least 1, or None when the option is not given.
+
+    Parameters
+    ----------
+    text : str or None
+        The option's text.
+
+    Returns
+    -------
+    int or None
+        The threads; None leaves the default (``threads.default_thread_count``).
+
+    Raises
+    ------
+    InputError
+        If the text is not a whole number of at least 1.
+    """
+    if text is None:
+        return None
+    try:
+        threads = int(text)
+    except ValueError:
+        threads = 0
+    if threads < 1:
+        raise InputError(f"'{text}' is not a number of threads; give a whole number of at least 1",
+                         None, "option --threads")
+    return threads
 
 
 def _optics(args: argparse.Namespace) -> int:
@@ -468,6 +498,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--out", metavar="DIR", help="output folder (default results/<stem>)")
     p.add_argument("--minerals", metavar="DIR", help="a folder of your own mineral files (*.yaml): they add "
                    "minerals or replace library entries of the same name (instead of the settings key minerals_dir)")
+    p.add_argument("--threads", metavar="N", help="threads the run may use (default: OMP_NUM_THREADS when set, else "
+                   "the cores this process may run on); the results are the same on any number")
     p.set_defaults(run=_sample)
 
     p = commands.add_parser("optics", help="predict the crossed-polar view of the thin section: images at "

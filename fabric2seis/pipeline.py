@@ -26,7 +26,7 @@ from fabric2seis.orientations import PhaseOrientations
 from fabric2seis.progress import BarMaker, share, stage_bar
 from fabric2seis.settings import settings_for
 from fabric2seis.stages import FabricResult, Intervals, PhaseFabricResult, Sample, SeismicResult
-from fabric2seis.threads import blas_on_one_thread
+from fabric2seis.threads import blas_on_one_thread, shared_results, thread_count, threads_given
 
 Progress = Callable[[str], None]
 
@@ -317,23 +317,38 @@ def fabric_stage(sample: Sample, progress: Progress | None = None, bars: BarMake
     say = progress or _quiet
     weighting = sample.settings.get("weighting") or "grain"
     halfwidth = float(sample.settings["odf"]["halfwidth_deg"])
+    sets = [phase for phase in orientation_sets(sample, weighting) if len(phase.quat) >= 2]
+
+    def part(task: tuple[PhaseOrientations, str]):
+        (mineral, quat, weights), what = task
+        if what == "indices":
+            return fabric.phase_fabric(mineral, quat, weights, weighting, halfwidth)
+        if what == "convergence":
+            return fabric.convergence(mineral, quat, weights, halfwidth)
+        # J, M and pfJ of random sets of as many grains (same weights, kernel, point group)
+        return fabric.random_floor(mineral, len(quat), halfwidth, weights)
+
+    # three independent parts per mineral, each with its own fixed seeds, shared among the run's
+    # threads (threads.py); the results come back in order, so the bars and run.log are a plain loop's
+    parts = shared_results(part, [(phase, what) for phase in sets for what in PHASE_FABRIC_PARTS])
     phases = {}
-    for phase in orientation_sets(sample, weighting):
-        mineral, quat, weights = phase
-        if len(quat) < 2:
-            continue
+    for phase in sets:
+        mineral, quat, _ = phase
         what = f"fabric of {mineral.name} ({len(quat):,} {'grains' if weighting == 'grain' else 'points'})"
         say(what)
         with stage_bar(bars, what) as done:
-            indices = fabric.phase_fabric(mineral, quat, weights, weighting, halfwidth)
+            indices = next(parts)
             done(1 / 3)
-            converging = fabric.convergence(mineral, quat, weights, halfwidth)
+            converging = next(parts)
             done(2 / 3)
-            # J, M and pfJ of random sets of as many grains (same weights, kernel, point group)
-            floor = fabric.random_floor(mineral, len(quat), halfwidth, weights)
+            floor = next(parts)
         phases[mineral.name] = PhaseFabricResult(indices=indices, convergence=converging, random_floor=floor,
                                                  orientations=phase)
     return FabricResult(phases=phases, weighting=weighting, halfwidth_deg=halfwidth)
+
+
+#: the parts of a mineral's fabric, in the order ``fabric_stage`` computes and reports them
+PHASE_FABRIC_PARTS = ("indices", "convergence", "random floor")
 
 
 def twin_setting(settings: dict) -> str:
@@ -467,6 +482,7 @@ def _bootstrap(sample: Sample, seis: SeismicResult, n: int, seed: int, say: Prog
         if len(q) < uncertainty.MIN_GRAINS_FOR_FABRIC:
             out[f"{m.name}.note"] = f"only {len(q)} grains: no fabric intervals"
             continue
+        say(f"bootstrap of the fabric of {m.name} ({len(q):,} grains)")
         f = uncertainty.fabric_bootstrap(m, q, np.ones(len(q)), counts[m.name], halfwidth, rng,
                                          share(done, part / parts, (part + 1) / parts))
         part += 1
@@ -599,7 +615,7 @@ def analyse_sample(sample: Sample, progress: Progress | None = None, bars: BarMa
 def run_sample(path: str | Path, settings_path: str | Path | None = None, out_dir: str | Path | None = None,
                progress: Progress | None = None, defaults: dict | None = None,
                results_root: str | Path | None = "results", bars: BarMaker | None = None,
-               minerals_dir: str | Path | None = None) -> Path:
+               minerals_dir: str | Path | None = None, threads: int | None = None) -> Path:
     """Process one EBSD export into ``out_dir``; returns the folder written.
 
     ``defaults``: settings under the sample's sidecar instead of config/config.yaml (the workflow
@@ -626,6 +642,9 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     minerals_dir : str or Path, optional
         A folder of the user's own mineral files (``--minerals DIR``), in place of the settings
         key ``minerals_dir``.
+    threads : int, optional
+        Threads the run may use, at least 1 (``--threads``, the workflow's ``threads``); by default
+        ``threads.default_thread_count()``. The results do not depend on it (threads.py).
 
     Returns
     -------
@@ -636,14 +655,25 @@ def run_sample(path: str | Path, settings_path: str | Path | None = None, out_di
     ------
     InputError
         If the input, settings or destination are refused.
+    ValueError
+        If ``threads`` is not a whole number of at least 1.
     """
+    with threads_given(threads):
+        return _run_sample(path, settings_path, out_dir, progress, defaults, results_root, bars, minerals_dir)
+
+
+def _run_sample(path: str | Path, settings_path: str | Path | None, out_dir: str | Path | None,
+                progress: Progress | None, defaults: dict | None, results_root: str | Path | None,
+                bars: BarMaker | None, minerals_dir: str | Path | None) -> Path:
+    """The work of :func:`run_sample`, within its threads."""
     from fabric2seis.sample_output import write_results
 
     path, log = Path(path), RunLog(progress)
     checked_sample_name(path)
     settings, settings_file = settings_for(path, settings_path, defaults, minerals_dir)
     budget.check_settings(settings, settings_file or "the default settings")
-    log.say(f"fabric2seis {__version__}: {path} with settings {settings_file or 'defaults'}")
+    log.say(f"fabric2seis {__version__}: {path} with settings {settings_file or 'defaults'}, "
+            f"on {thread_count()} thread{'s' if thread_count() > 1 else ''}")
     out = Path(out_dir) if out_dir is not None else default_out_dir(path)
     inputs: list[str | Path] = [path, *([settings_file] if settings_file else [])]
     check_destination(out, "sample", inputs, results_root)

@@ -24,6 +24,7 @@ import numpy as np
 
 from fabric2seis import elastic, fabric, waves
 from fabric2seis.orientations import to_matrices
+from fabric2seis.threads import shared_results, thread_count
 
 INTERVAL = (2.5, 97.5)
 #: independent random streams (and threads) of the resample counts
@@ -35,15 +36,19 @@ MIN_GRAINS_FOR_FABRIC = 10
 #: above this many grains the bootstrap leaves out the J-index interval (its cost grows as N^2:
 #: about a minute at 30,000 grains)
 MAX_J_GRAINS = 30_000
+#: grain pairs of the M-index bootstrap held in memory at a time (shared among the threads), as
+#: (B, pairs) float32 weights: 80 MB at 200 resamples
+PAIRS_IN_MEMORY = 100_000
 
 
 def resample_counts(n: int, n_resamples: int, rng: np.random.Generator) -> np.ndarray:
     """Draw bootstrap resamples of n grains, as how often each grain is drawn in each resample.
 
     One resample at a time (a count vector of n fits in cache), the resamples split into
-    COUNT_STREAMS fixed groups, each drawn from its own stream spawned from ``rng`` and filled by
-    a thread (numpy releases the GIL while drawing and counting). The split does not depend on
-    the machine, so the counts are the same everywhere for the same seed.
+    COUNT_STREAMS fixed groups, each drawn from its own stream spawned from ``rng`` and filled on
+    up to ``threads.thread_count()`` threads (numpy releases the GIL while drawing and counting).
+    The split depends neither on the machine nor on the threads, so the counts are the same
+    everywhere for the same seed.
 
     Parameters
     ----------
@@ -63,17 +68,16 @@ def resample_counts(n: int, n_resamples: int, rng: np.random.Generator) -> np.nd
     ----------
     Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, New York.
     """
-    from concurrent.futures import ThreadPoolExecutor
-
     out = np.empty((n_resamples, n), dtype=np.float32)      # small integers: exact
     groups = np.array_split(np.arange(n_resamples), COUNT_STREAMS)
 
-    def fill(stream, rows):
+    def fill(group: tuple[np.random.Generator, np.ndarray]) -> None:
+        stream, rows = group
         for r in rows:
             out[r] = np.bincount(stream.integers(0, n, size=n), minlength=n)
 
-    with ThreadPoolExecutor(max_workers=min(COUNT_STREAMS, os.cpu_count() or 1)) as pool:
-        list(pool.map(fill, rng.spawn(COUNT_STREAMS), groups))
+    for _ in shared_results(fill, zip(rng.spawn(COUNT_STREAMS), groups)):
+        pass
     return out
 
 
@@ -513,13 +517,21 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
         k = (i + rng.integers(1, n, fabric.M_INDEX_PAIRS)) % n
     angles = fabric.misorientation_angles(quat[i], quat[k], fabric.proper_symmetry_quaternions(mineral.symmetry))
     bins = np.minimum((np.degrees(angles) / fabric.M_INDEX_BIN_DEG).astype(int), len(reference) - 1)
-    hist = np.zeros((len(counts), len(reference)))
-    for start in range(0, len(i), 100_000):
-        sl = slice(start, start + 100_000)
+    # blocks of pairs shared among the threads, PAIRS_IN_MEMORY pairs in memory at a time whatever
+    # their number; the histograms are sums of whole numbers (products of draw counts), exact in
+    # float64, so neither the blocks nor the threads change a bit of them
+    block = -(-PAIRS_IN_MEMORY // thread_count())
+
+    def pair_histogram(start: int) -> np.ndarray:
+        sl = slice(start, start + block)
         weight = counts[:, i[sl]] * counts[:, k[sl]]                  # (B, pairs)
-        one_hot = _one_hot(bins[sl], len(reference))
-        hist += (one_hot.T @ weight.T).T
-        tell(j_part + (1.0 - j_part) * min(start + 100_000, len(i)) / len(i))
+        return (_one_hot(bins[sl], len(reference)).T @ weight.T).T
+
+    hist = np.zeros((len(counts), len(reference)))
+    starts = range(0, len(i), block)
+    for start, part in zip(starts, shared_results(pair_histogram, starts)):
+        hist += part
+        tell(j_part + (1.0 - j_part) * min(start + block, len(i)) / len(i))
     total = hist.sum(axis=1, keepdims=True)
     m = np.full(len(counts), np.nan)          # a resample of one distinct grain has no pairs
     ok = total[:, 0] > 0

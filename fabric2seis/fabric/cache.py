@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import json
 import os
+import threading
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -78,7 +79,8 @@ def _write(path: Path, value: Any) -> None:
     """Write through a temporary file and an atomic replace; an unwritable folder is no error."""
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
-        tmp = path.with_name(f"{path.name}.{os.getpid()}.tmp")
+        # one temporary file per process and thread: the fabric of two minerals may write at once
+        tmp = path.with_name(f"{path.name}.{os.getpid()}.{threading.get_ident()}.tmp")
         if path.suffix == ".npy":
             with open(tmp, "wb") as handle:
                 np.save(handle, value)

@@ -19,6 +19,39 @@ WORKFLOW_NAMES = ("status", "logs", "benchmarks", "report_parts", "field", "stac
                   "suite_table", "suite_long", "suite_comparison", "report", "optics", "optics_status")
 
 
+#: an input file of at least this many bytes gets LARGE_SAMPLE_THREADS threads in the workflow (a
+#: text map of about 10^5 pixels, some 2,500 grains: its fabric and bootstrap share the threads)
+LARGE_SAMPLE_BYTES = 8 * 2**20
+#: threads of a large sample's job; Snakemake gives a job at most --cores threads
+LARGE_SAMPLE_THREADS = 2
+
+
+def sample_threads(path: str | Path) -> int:
+    """Threads the workflow's ``sample`` job of a file asks for: more for a large map, 1 otherwise.
+
+    A small sample gains little from threads (its fabric and bootstrap take a few seconds, and most
+    of a job is its start and its figures), while two one-thread jobs of a suite use two cores
+    fully; a large map's job shares its fabric and bootstrap among ``LARGE_SAMPLE_THREADS``.
+    Snakemake scales the number down to ``--cores`` and ``--set-threads sample=N`` replaces it.
+
+    Parameters
+    ----------
+    path : str or Path
+        The sample's input file.
+
+    Returns
+    -------
+    int
+        ``LARGE_SAMPLE_THREADS`` for a file of ``LARGE_SAMPLE_BYTES`` or more, else 1 (also when
+        the file cannot be read: the job then reports it).
+    """
+    try:
+        size = Path(path).stat().st_size
+    except OSError:
+        return 1
+    return LARGE_SAMPLE_THREADS if size >= LARGE_SAMPLE_BYTES else 1
+
+
 def check_workflow_sample_name(name: str, path: str | Path) -> str:
     """Refuse a sample name that cannot be a folder of its own in the results folder.
 

@@ -10,7 +10,7 @@ from fabric2seis import __version__
 from fabric2seis.workflow.report_files import (discover_stacks, entry_title, field_entry_labels, sample_entry_labels,
                                                suite_labels)
 from fabric2seis.workflow.status import results_state
-from fabric2seis.workflow.suite import discover_measurements, discover_samples
+from fabric2seis.workflow.suite import discover_measurements, discover_samples, sample_threads
 
 SAMPLES_DIR = config.get("samples_dir", "demo_samples")
 RESULTS = config.get("results_dir", "results")
@@ -21,6 +21,11 @@ STACKS = discover_stacks(RESULTS)     # folders of `fabric2seis field --stack` i
 
 def sample_input(wildcards):
     return str(SAMPLES[wildcards.sample])
+
+
+def sample_job_threads(wildcards, input):
+    """Threads of a sample's job: by the size of its input file (suite.sample_threads); at most --cores."""
+    return sample_threads(input[0])
 
 
 def settings_digest(wildcards):

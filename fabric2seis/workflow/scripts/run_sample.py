@@ -16,7 +16,8 @@ sample = snakemake.wildcards.sample
 def run():
     check_workflow_sample_name(sample, snakemake.input[0])
     return run_sample(snakemake.input[0], out_dir=snakemake.params.out, progress=logging.info,
-                      defaults=dict(snakemake.config), results_root=snakemake.params.results_root)
+                      defaults=dict(snakemake.config), results_root=snakemake.params.results_root,
+                      threads=snakemake.threads)
 
 
 run_and_record(run, snakemake.output.status, sample, snakemake.params.out, "sample", "summary.json",

@@ -206,7 +206,7 @@ def shared_results(work: Callable[[Item], Result], items: Iterable[Item],
         with threads_given(share):
             return work(item)
 
-    pool = ThreadPoolExecutor(max_workers=workers, thread_name_prefix="fabric2seis")
+    pool = ThreadPoolExecutor(max_workers=workers)
     try:
         futures = [pool.submit(task, item) for item in items]
         for future in futures:

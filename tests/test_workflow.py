@@ -355,3 +355,36 @@ def test_settings_digest_ignores_the_folders_and_sees_every_setting():
     assert settings_digest(settings) == settings_digest(moved)
     assert settings_digest(settings) != settings_digest({**settings, "odf": {"halfwidth_deg": 15.0}})
     assert settings_digest(settings) != settings_digest({**settings, "averaging": "voigt"})
+
+
+def test_a_large_map_asks_for_two_threads_and_a_small_sample_for_one(tmp_path):
+    # the rule's threads, by the size of the input (workflow.suite.sample_threads), in a dry run
+    from fabric2seis.workflow.suite import LARGE_SAMPLE_BYTES, sample_threads
+
+    samples, results = _small_suite(tmp_path)
+    with open(samples / "large.ang", "wb") as handle:          # its size is all the rule looks at
+        handle.truncate(LARGE_SAMPLE_BYTES)
+    assert sample_threads(samples / "large.ang") == 2
+    assert sample_threads(samples / "s0.csv") == 1
+    assert sample_threads(samples / "absent.ang") == 1
+    dry = subprocess.run([sys.executable, "-m", "snakemake", f"{results}/status/large.json", f"{results}/status/s0.json",
+                          "--cores", "2", "-n", "--config", f"samples_dir={samples}", f"results_dir={results}"],
+                         cwd=ROOT, capture_output=True, text=True, timeout=300)
+    text = dry.stdout + dry.stderr
+    assert dry.returncode == 0, text[-2000:]
+    threads = {}                          # sample -> the threads line of its job (none: one thread)
+    for block in text.split("rule sample:")[1:]:
+        job = block.split("\n\n")[0]
+        threads[re.search(r"wildcards: sample=(\S+)", job).group(1)] = re.findall(r"threads: (\d+)", job)
+    assert threads == {"large": ["2"], "s0": []}, text[-2000:]
+
+
+def test_a_sample_job_hands_its_threads_to_the_run(tmp_path):
+    # Snakemake gives the job its threads (here --set-threads, at most --cores: Snakemake's
+    # documentation on threads); the script hands them to run_sample, whose run.log says them
+    samples, results = _small_suite(tmp_path)
+    run = subprocess.run([sys.executable, "-m", "snakemake", f"{results}/status/s0.json", "--cores", "2", "-q",
+                          "--set-threads", "sample=2", "--config", f"samples_dir={samples}", f"results_dir={results}"],
+                         cwd=ROOT, capture_output=True, text=True, timeout=900)
+    assert run.returncode == 0, run.stderr[-2000:]
+    assert (results / "s0" / "run.log").read_text().splitlines()[0].endswith("on 2 threads")

@@ -23,7 +23,12 @@ the ground (the demo's placement), and then measures, each in a fresh process:
    start; the differences between consecutive steps give each step's time, grouped into reading,
    grains, fabric, seismic, bootstrap, random aggregates, the figures and the rest; the wall time
    not covered by run.log is the process's start-up (imports) and exit;
-5. peak memory targets: under 2 GB at 10^6 pixels and within 8 GB at 10^7; and from the slope of
+5. threads (``--threads``, default 1 and 2, at 10^5 pixels only: ``THREAD_SIZES``; not in
+   ``--quick``): the same command with ``--threads 1`` and ``--threads 2``, alternating, ``--runs``
+   times each; the median wall time of each, their ratio (the speed-up of two threads), and the
+   fabric and bootstrap steps of run.log, the parts the threads share. The load average is taken
+   before and after each run: other work on the machine takes the second core from the threads;
+6. peak memory targets: under 2 GB at 10^6 pixels and within 8 GB at 10^7; and from the slope of
    the peak between the two largest maps measured, the largest map whose run stays within 16 GB.
 
 How it measures
@@ -97,6 +102,8 @@ QUICK_SIZES = [10_000, 100_000]
 SINGLE_RUN_FROM_PIXELS = 5_000_000
 #: targets: (pixels, largest ratio whole run / orix read)
 TARGET_RATIOS = {100_000: 5.0, 1_000_000: 3.0}
+#: map sizes at which the command is also timed on each of --threads (1 and 2 by default)
+THREAD_SIZES = [100_000]
 #: targets: (pixels, peak memory must stay below this, MB)
 TARGET_PEAK_MB = {1_000_000: 2048.0, 10_000_000: 8192.0}
 #: the machine size for which the largest map is stated (MB)
@@ -302,10 +309,65 @@ def measure_size(made: dict, runs: int, workdir: Path, args: argparse.Namespace)
     finished = [r for r in command_runs if r["status"] == 0 and not r["stopped"]]
     median_run = sorted(finished, key=lambda r: r["wall_s"])[(len(finished) - 1) // 2] if finished else None
     return {"made": made, "orix": orix_runs, "command": command_runs, "finished": finished,
-            "median_run": median_run,
+            "median_run": median_run, "by_threads": threads_runs(made, runs, workdir, args),
             "orix_read_s": statistics.median(r["read_s"] for r in orix_runs),
             "orix_import_s": statistics.median(r["import_s"] for r in orix_runs),
             "orix_peak_mb": max(r["peak_mb"] for r in orix_runs)}
+
+
+def threads_runs(made: dict, runs: int, workdir: Path, args: argparse.Namespace) -> dict[int, list[dict]]:
+    """The command with each of ``--threads``, alternating, ``runs`` times each (THREAD_SIZES only)."""
+    path, pixels = Path(made["path"]), made["pixels"]
+    if not args.thread_list or not any(abs(pixels / n - 1) < 0.05 for n in THREAD_SIZES):
+        return {}
+    out: dict[int, list[dict]] = {t: [] for t in args.thread_list}
+    for k in range(runs):
+        for threads in args.thread_list:
+            folder = workdir / f"results_{pixels}_{k}_threads_{threads}"
+            load = os.getloadavg()[0]
+            watched = watched_run(COMMAND + ["sample", str(path), "--out", str(folder), "--threads", str(threads)],
+                                  REPOSITORY_ROOT, args.timeout_minutes * 60, args.memory_cap_gb * 1024)
+            log = folder / "run.log"
+            watched["groups"] = time_by_group(run_log_steps(log), watched["wall_s"]) if log.is_file() else None
+            watched["load"] = (load, os.getloadavg()[0])
+            out[threads].append(watched)
+            print(f"  --threads {threads}, run {k + 1}/{runs}: {watched['wall_s']:.1f} s, "
+                  f"CPU {watched['cpu_s']:.1f} s, load {load:.2f} -> {watched['load'][1]:.2f}", flush=True)
+            shutil.rmtree(folder, ignore_errors=True)
+    return out
+
+
+def threads_rows(result: dict) -> list[dict]:
+    """Wall time of the command on each number of threads, the speed-up, and the steps the threads share."""
+    out = []
+    pixels = result["made"]["pixels"]
+    medians = {}
+    for threads, runs in result.get("by_threads", {}).items():
+        finished = [r for r in runs if r["status"] == 0 and not r["stopped"]]
+        if not finished:
+            continue
+        median = sorted(finished, key=lambda r: r["wall_s"])[(len(finished) - 1) // 2]
+        medians[threads] = median
+        loads = [x for r in finished for x in r["load"]]
+        out.append(row(f"whole sample run on {threads} thread{'s' if threads > 1 else ''}, {size_text(pixels)}",
+                       median["wall_s"], "s",
+                       note=f"median of {len(finished)} (alternating with the other thread counts); "
+                            f"load {min(loads):.2f} to {max(loads):.2f}; CPU {median['cpu_s']:.0f} s"))
+    if 1 in medians:
+        for threads, median in medians.items():
+            if threads == 1:
+                continue
+            out.append(row(f"speed-up of {threads} threads over 1, {size_text(pixels)}", median["wall_s"], "s",
+                           baseline=medians[1]["wall_s"], baseline_unit="s", baseline_label="the run on 1 thread",
+                           ratio=medians[1]["wall_s"] / median["wall_s"], ratio_label="1 thread / threads",
+                           note="the threads share the fabric and the bootstrap only"))
+    for threads, median in medians.items():
+        for label in ("fabric (all phases)", "bootstrap"):
+            seconds = (median["groups"] or {}).get(label)
+            if seconds:
+                out.append(row(f"{size_text(pixels)} on {threads} thread{'s' if threads > 1 else ''}: {label}",
+                               seconds, "s", note="from run.log of the median run", detail=True))
+    return out
 
 
 def size_text(pixels: int) -> str:
@@ -353,6 +415,8 @@ def rows_of(results: list[dict], runs: int) -> list[dict]:
                        baseline=result["orix_peak_mb"], baseline_unit="MB",
                        baseline_label="orix.io.load process peak", ratio=peak / result["orix_peak_mb"],
                        ratio_label="whole run / orix read", target=target, note=note))
+    for result in results:
+        out.extend(threads_rows(result))
     measured = [(r["made"]["pixels"], max(x["peak_mb"] for x in r["finished"]))
                 for r in results if r["finished"]]
     if len(measured) >= 2:
@@ -390,6 +454,10 @@ def parse_arguments(argv: list[str] | None) -> argparse.Namespace:
                         help="stop a run after this long and record it as stopped (default 25)")
     parser.add_argument("--memory-cap-gb", type=float, default=12.0,
                         help="stop a run whose resident memory passes this, GB (default 12)")
+    parser.add_argument("--threads", default=None,
+                        help="comma-separated thread counts the command is also timed with at "
+                             f"{', '.join(f'{n:,}' for n in THREAD_SIZES)} pixels (default 1,2; --quick: none; "
+                             "'' for none)")
     parser.add_argument("--keep", action="store_true", help="keep the generated maps")
     parser.add_argument("--workdir", default=None, help="where the temporary folder is made")
     add_options(parser, "10^4 and 10^5 pixels, one run each")
@@ -407,6 +475,13 @@ def parse_arguments(argv: list[str] | None) -> argparse.Namespace:
         if not args.size_list or min(args.size_list) < 100:
             parser.error("--sizes needs at least one size, each of at least 100 pixels")
         args.runs = args.runs or (1 if args.quick else 3)
+        text = args.threads if args.threads is not None else ("" if args.quick else "1,2")
+        try:
+            args.thread_list = sorted({int(t) for t in text.split(",") if t.strip()})
+        except ValueError:
+            parser.error(f"--threads must be whole numbers separated by commas, not '{text}'")
+        if any(t < 1 for t in args.thread_list):
+            parser.error("--threads: each count must be at least 1")
     return args
 
 

@@ -367,8 +367,9 @@ def test_a_large_map_asks_for_two_threads_and_a_small_sample_for_one(tmp_path):
     assert sample_threads(samples / "large.ang") == 2
     assert sample_threads(samples / "s0.csv") == 1
     assert sample_threads(samples / "absent.ang") == 1
-    dry = subprocess.run([sys.executable, "-m", "snakemake", f"{results}/status/large.json", f"{results}/status/s0.json",
-                          "--cores", "2", "-n", "--config", f"samples_dir={samples}", f"results_dir={results}"],
+    dry = subprocess.run([sys.executable, "-m", "snakemake", f"{results}/status/large.json",
+                          f"{results}/status/s0.json", "--cores", "2", "-n", "--config", f"samples_dir={samples}",
+                          f"results_dir={results}"],
                          cwd=ROOT, capture_output=True, text=True, timeout=300)
     text = dry.stdout + dry.stderr
     assert dry.returncode == 0, text[-2000:]

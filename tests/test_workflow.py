@@ -357,18 +357,22 @@ def test_settings_digest_ignores_the_folders_and_sees_every_setting():
     assert settings_digest(settings) != settings_digest({**settings, "averaging": "voigt"})
 
 
-def test_a_large_map_asks_for_two_threads_and_a_small_sample_for_one(tmp_path):
-    # the rule's threads, by the size of the input (workflow.suite.sample_threads), in a dry run
+def test_a_large_map_asks_for_the_idle_cores_and_a_small_sample_for_one_thread(tmp_path):
+    # the rule's threads, by the size of the input and the suite's cores per sample
+    # (workflow.suite.sample_threads), in a dry run
     from fabric2seis.workflow.suite import LARGE_SAMPLE_BYTES, sample_threads
 
     samples, results = _small_suite(tmp_path)
     with open(samples / "large.ang", "wb") as handle:          # its size is all the rule looks at
         handle.truncate(LARGE_SAMPLE_BYTES)
-    assert sample_threads(samples / "large.ang") == 2
-    assert sample_threads(samples / "s0.csv") == 1
+    assert sample_threads(samples / "large.ang", samples=1, cores=2) == 2
+    assert sample_threads(samples / "large.ang", samples=2, cores=2) == 1     # two jobs side by side instead
+    assert sample_threads(samples / "large.ang", samples=2, cores=16) == 2    # LARGE_SAMPLE_THREADS at most
+    assert sample_threads(samples / "large.ang", samples=40, cores=None) == 2   # a cluster: cores of its own
+    assert sample_threads(samples / "s0.csv", samples=1, cores=2) == 1
     assert sample_threads(samples / "absent.ang") == 1
     dry = subprocess.run([sys.executable, "-m", "snakemake", f"{results}/status/large.json",
-                          f"{results}/status/s0.json", "--cores", "2", "-n", "--config", f"samples_dir={samples}",
+                          f"{results}/status/s0.json", "--cores", "4", "-n", "--config", f"samples_dir={samples}",
                           f"results_dir={results}"],
                          cwd=ROOT, capture_output=True, text=True, timeout=300)
     text = dry.stdout + dry.stderr

@@ -26,30 +26,39 @@ LARGE_SAMPLE_BYTES = 8 * 2**20
 LARGE_SAMPLE_THREADS = 2
 
 
-def sample_threads(path: str | Path) -> int:
-    """Threads the workflow's ``sample`` job of a file asks for: more for a large map, 1 otherwise.
+def sample_threads(path: str | Path, samples: int = 1, cores: int | None = None) -> int:
+    """Threads the workflow's ``sample`` job of a file asks for: more for a large map on idle cores, else 1.
 
-    A small sample gains little from threads (its fabric and bootstrap take a few seconds, and most
-    of a job is its start and its figures), while two one-thread jobs of a suite use two cores
-    fully; a large map's job shares its fabric and bootstrap among ``LARGE_SAMPLE_THREADS``.
-    Snakemake scales the number down to ``--cores`` and ``--set-threads sample=N`` replaces it.
+    Threads share only a run's fabric and bootstrap (threads.py), a part of a large map's run, while
+    jobs side by side share everything: so a suite's cores go first to jobs, one per sample, and a
+    large map (``LARGE_SAMPLE_BYTES`` or more) gets the cores its suite leaves idle,
+    ``cores // samples``, at most ``LARGE_SAMPLE_THREADS`` (one map of 10^5 pixels on 2 cores: 2).
+    A small sample gets 1: its fabric and bootstrap take a few seconds of a job spent mostly on
+    starting and drawing. Snakemake gives a job at most ``--cores`` and ``--set-threads sample=N``
+    replaces the number.
 
     Parameters
     ----------
     path : str or Path
         The sample's input file.
+    samples : int
+        Samples of the suite.
+    cores : int, optional
+        The suite's ``--cores``; None (a cluster run: each job has its own cores) counts as enough.
 
     Returns
     -------
     int
-        ``LARGE_SAMPLE_THREADS`` for a file of ``LARGE_SAMPLE_BYTES`` or more, else 1 (also when
-        the file cannot be read: the job then reports it).
+        Threads of the job, at least 1 (1 also when the file cannot be read: the job then reports it).
     """
     try:
         size = Path(path).stat().st_size
     except OSError:
         return 1
-    return LARGE_SAMPLE_THREADS if size >= LARGE_SAMPLE_BYTES else 1
+    if size < LARGE_SAMPLE_BYTES:
+        return 1
+    idle = LARGE_SAMPLE_THREADS if cores is None else int(cores) // max(1, int(samples))
+    return max(1, min(LARGE_SAMPLE_THREADS, idle))
 
 
 def check_workflow_sample_name(name: str, path: str | Path) -> str:

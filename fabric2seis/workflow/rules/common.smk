@@ -4,6 +4,7 @@ import json
 from pathlib import Path
 
 import yaml
+from snakemake.exceptions import WorkflowError
 
 from fabric2seis.settings import sidecar_of
 from fabric2seis import __version__
@@ -24,8 +25,12 @@ def sample_input(wildcards):
 
 
 def sample_job_threads(wildcards, input):
-    """Threads of a sample's job: by the size of its input file (suite.sample_threads); at most --cores."""
-    return sample_threads(input[0])
+    """Threads of a sample's job: a large map gets the cores the suite leaves idle (suite.sample_threads)."""
+    try:
+        cores = workflow.cores
+    except WorkflowError:           # no --cores (a cluster run): each job has cores of its own
+        cores = None
+    return sample_threads(input[0], len(SAMPLES), cores)
 
 
 def settings_digest(wildcards):

@@ -6,8 +6,8 @@ rule sample:
     written by run_sample, whole or not at all, and only over a folder fabric2seis wrote (a
     declared folder would be deleted by Snakemake before the job, unchecked). Its files are
     tracked through the status file's manifest: `results_check` changes when a file is missing,
-    and Snakemake reruns the sample (fabric2seis/workflow/status.py). The job's threads (by the
-    size of the input, suite.sample_threads) are handed to the run, which uses no more.
+    and Snakemake reruns the sample (fabric2seis/workflow/status.py). The job's threads (a large map
+    gets the cores the suite leaves idle, suite.sample_threads) are handed to the run, which uses no more.
     """
     input:
         sample_input,
@@ -22,7 +22,7 @@ rule sample:
         f"{RESULTS}/logs/sample/{{sample}}.log",
     benchmark:
         f"{RESULTS}/benchmarks/sample/{{sample}}.tsv"
-    threads: sample_job_threads      # 2 for a large map, else 1; the run uses no more (threads.py)
+    threads: sample_job_threads      # 2 for a large map on idle cores, else 1; the run uses no more
     resources:
         mem_mb=3000,
     conda:

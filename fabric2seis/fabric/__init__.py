@@ -30,6 +30,7 @@ from fabric2seis.fabric.kernel import (
     Kernel,
     kernel_coefficients,
     odf_values,
+    phi_by_cos_half,
     pole_self_convolution_table,
     self_convolution,
     self_convolution_by_cos_half,
@@ -94,5 +95,6 @@ __all__ = [
     "orientation_tensor", "pf_j", "pf_j_pairs", "phase_fabric", "pole_density",
     "pole_self_convolution_table", "pole_vectors", "proper_symmetry_quaternions", "random_distribution",
     "random_floor", "random_misorientation_histogram", "random_unit_quaternions", "self_convolution",
-    "self_convolution_by_cos_half", "self_convolution_table", "to_matrices", "uncorrelated_misorientations",
+    "phi_by_cos_half", "self_convolution_by_cos_half", "self_convolution_table", "to_matrices",
+    "uncorrelated_misorientations",
 ]

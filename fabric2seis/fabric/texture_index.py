@@ -35,6 +35,7 @@ from fabric2seis.fabric.checks import check_halfwidth, check_quaternions, check_
 from fabric2seis.fabric.kernel import (
     interpolate_on_uniform_grid,
     kernel_coefficients,
+    phi_by_cos_half,
     self_convolution_by_cos_half,
     self_convolution_table,
 )
@@ -199,7 +200,8 @@ def j_index_pairs(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg
     sym = proper_symmetry_quaternions(symmetry)
     q = np.asarray(quat, dtype=float)
     w = np.asarray(weights, dtype=float) / np.sum(weights)
-    table_c, table_phi, cos_cut = self_convolution_by_cos_half(float(halfwidth_deg))
+    table = self_convolution_by_cos_half(float(halfwidth_deg))
+    cos_cut = table[0]
     total = 0.0
     moved = [multiply(t[None], q) for t in sym]
     q32 = q.astype(np.float32)
@@ -212,8 +214,8 @@ def j_index_pairs(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg
             rows, cols = np.nonzero(c > screen)
             if len(rows):
                 exact = np.abs(np.einsum("nc,nc->n", q[rows + start], m[cols]))
-                keep = exact > cos_cut
-                total += np.sum(wb[rows[keep]] * w[cols[keep]] * np.interp(exact[keep], table_c, table_phi))
+                keep = exact >= cos_cut
+                total += np.sum(wb[rows[keep]] * w[cols[keep]] * phi_by_cos_half(exact[keep], table))
     return float(total / len(sym))
 
 
@@ -275,7 +277,8 @@ def j_pair_matrix(quat: np.ndarray, symmetry, halfwidth_deg: float = 10.0, chunk
     sym = proper_symmetry_quaternions(symmetry)
     q = np.asarray(quat, dtype=float)
     n = len(q)
-    table_c, table_phi, cos_cut = self_convolution_by_cos_half(float(halfwidth_deg))
+    table = self_convolution_by_cos_half(float(halfwidth_deg))
+    cos_cut = table[0]
     q32 = q.astype(np.float32)
     screen = np.float32(cos_cut - 1e-5)
     rows_all, cols_all, vals_all = [], [], []
@@ -287,10 +290,10 @@ def j_pair_matrix(quat: np.ndarray, symmetry, halfwidth_deg: float = 10.0, chunk
             np.abs(c, out=c)
             rows, cols = np.nonzero(c > screen)
             exact = np.abs(np.einsum("nc,nc->n", q[rows + start], m[cols]))
-            keep = exact > cos_cut
+            keep = exact >= cos_cut
             rows_all.append(rows[keep] + start)
             cols_all.append(cols[keep])
-            vals_all.append(np.interp(exact[keep], table_c, table_phi) / len(sym))
+            vals_all.append(phi_by_cos_half(exact[keep], table) / len(sym))
     return coo_matrix((np.concatenate(vals_all), (np.concatenate(rows_all), np.concatenate(cols_all))),
                       shape=(n, n)).tocsr()
 
@@ -335,17 +338,22 @@ def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: 
     sym = proper_symmetry_quaternions(symmetry)
     q = np.asarray(quat, dtype=float)
     v = np.asarray(v, dtype=float)
-    table_c, table_phi, cos_cut = self_convolution_by_cos_half(float(halfwidth_deg))
-    table_phi = np.where(table_c < cos_cut, 0.0, table_phi)
-    moved = [multiply(t[None], q) for t in sym]
+    table = self_convolution_by_cos_half(float(halfwidth_deg))
+    cos_cut = table[0]
+    moved = [np.ascontiguousarray(multiply(t[None], q).T) for t in sym]
 
     def block_terms(start: int) -> tuple[np.ndarray, np.ndarray]:
         block = q[start:start + chunk]
         a = np.zeros((len(block), len(q)))
+        flat = a.reshape(-1)
+        c = np.empty_like(a)
         for m in moved:
-            c = np.abs(block @ m.T)
-            c[c < cos_cut] = 0.0               # outside Phi's support, as in j_pair_matrix
-            a += np.interp(c, table_c, table_phi)
+            np.matmul(block, m, out=c)
+            np.abs(c, out=c)
+            # only pairs within Phi's support, as in j_pair_matrix: in a weak fabric a few per
+            # cent of them, and looking Phi up costs more than the rest of the block
+            near = np.flatnonzero(c.reshape(-1) >= cos_cut)
+            flat[near] += phi_by_cos_half(c.reshape(-1)[near], table)
         a /= len(sym)
         return (np.einsum("ib,ib->b", v[start:start + chunk], a @ v),
                 a[np.arange(len(block)), np.arange(start, start + len(block))])

@@ -88,10 +88,15 @@ def j_index(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg: floa
         raise ValueError(f"unknown J-index method {method!r}; use one of {', '.join(J_METHODS)}")
     _check_grains(quat, weights, halfwidth_deg)
     if method == "auto":
-        method = "harmonics" if len(kernel_coefficients(float(halfwidth_deg))) <= HARMONIC_DEGREE_LIMIT + 1 else "pairs"
+        method = "harmonics" if harmonics_suffice(halfwidth_deg) else "pairs"
     if method == "harmonics":
         return j_index_harmonics(quat, weights, symmetry, halfwidth_deg)
     return j_index_pairs(quat, weights, symmetry, halfwidth_deg)
+
+
+def harmonics_suffice(halfwidth_deg: float) -> bool:
+    """Whether ``j_index``'s "auto" sums the Fourier series (kernel series of at most HARMONIC_DEGREE_LIMIT degrees)."""
+    return len(kernel_coefficients(float(halfwidth_deg))) <= HARMONIC_DEGREE_LIMIT + 1
 
 
 def j_index_harmonics(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg: float = 10.0) -> float:
@@ -119,13 +124,58 @@ def j_index_harmonics(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth
     Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
     """
     _check_grains(quat, weights, halfwidth_deg)
+    return j_index_nested(quat, weights, symmetry, [len(quat)], halfwidth_deg)[0]
+
+
+def j_index_nested(quat: np.ndarray, weights: np.ndarray, symmetry, sizes, halfwidth_deg: float = 10.0) -> list[float]:
+    """J (as ``j_index_harmonics``) of the first n grains, for every n in ``sizes``, in one pass.
+
+    The Fourier sums are linear in the weights, so the sums of each first-n subset are those of
+    the previous subset plus the grains added; each subset's weights are normalised on their own
+    (J of unnormalised sums divided by the square of the subset's total weight).
+
+    Parameters
+    ----------
+    quat, weights, symmetry, halfwidth_deg
+        As for ``j_index``: quaternions (N, 4), weights (N,), orix point group, degrees.
+    sizes : sequence of int
+        Increasing subset sizes, 1 <= n <= N; each subset must have a positive total weight.
+
+    Returns
+    -------
+    list of float
+        J of each subset, dimensionless.
+
+    References
+    ----------
+    Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
+    """
+    _check_grains(quat, weights, halfwidth_deg)
+    sizes = [int(n) for n in sizes]
+    if not sizes or sizes != sorted(sizes) or sizes[0] < 1 or sizes[-1] > len(quat):
+        raise ValueError(f"sizes must increase from 1 to at most {len(quat)}, got {sizes}")
     k_l = kernel_coefficients(float(halfwidth_deg))
     degree = len(k_l) - 1
-    w = np.asarray(weights, dtype=float) / np.sum(weights)
+    w = np.asarray(weights, dtype=float)
+    scale = np.sum(w)                     # sums of weights of order 1: same rounding as one subset
     turn, about_z = _symmetry_frame(symmetry)
     q = multiply(conjugate(turn)[None], np.asarray(quat, dtype=float))
     rows = np.arange(-(degree // about_z) * about_z, degree + 1, about_z)
-    sums = harmonics.fourier_sums(q, w, rows, degree)
+    sums = np.zeros((len(rows), 2 * degree + 1, degree + 1), dtype=complex)
+    out, done = [], 0
+    for n in sizes:
+        if n > done:
+            sums = sums + harmonics.fourier_sums(q[done:n], w[done:n] / scale, rows, degree)
+            done = n
+        total_weight = np.sum(w[:n]) / scale
+        if not total_weight > 0:
+            raise ValueError(f"the first {n} grains have no weight")
+        out.append(_parseval(sums, rows, degree, k_l, symmetry) / total_weight ** 2)
+    return out
+
+
+def _parseval(sums: np.ndarray, rows: np.ndarray, degree: int, k_l: np.ndarray, symmetry) -> float:
+    """sum_l (2l+1) k_l^2 |P_l C_l|^2 from the Fourier sums of ``harmonics.fourier_sums``."""
     total = 0.0
     for l in range(degree + 1):
         c, m = harmonics.degree_coefficients(sums, rows, degree, l)

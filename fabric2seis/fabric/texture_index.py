@@ -352,9 +352,10 @@ def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: 
                       chunk: int = 512, done: Callable[[float], None] | None = None) -> tuple[np.ndarray, np.ndarray]:
     """v_b^T A v_b for the columns of v, and the diagonal of A, without storing A.
 
-    A is the matrix of ``j_pair_matrix``; it is built one block of rows at a time, dense, and
-    multiplied into all columns at once, so memory stays at ``threads.MAX_WORKERS`` blocks
-    (chunk x N) whatever the fabric, and the cost is N^2 |S| like the pair sum plus one matrix
+    A is the matrix of ``j_pair_matrix``; it is built one block of rows at a time, dense, from
+    the diagonal on (A is symmetric: the pairs left of it count twice), and multiplied into all
+    columns at once, so memory stays at ``threads.MAX_WORKERS`` blocks (at most chunk x N)
+    whatever the fabric, and the cost is N^2 |S| / 2 like half the pair sum plus one matrix
     product per block. The blocks are shared among ``threads.worker_count()`` threads.
 
     Parameters
@@ -393,30 +394,35 @@ def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: 
     moved = [np.ascontiguousarray(multiply(t[None], q).T) for t in sym]
 
     def block_terms(start: int) -> tuple[np.ndarray, np.ndarray]:
+        # rows start.. of A from its diagonal on: A is symmetric, so the pairs left of the
+        # diagonal are the transposes of earlier blocks' and count twice in v^T A v
         block = q[start:start + chunk]
-        a = np.zeros((len(block), len(q)))
+        a = np.zeros((len(block), len(q) - start))
         flat = a.reshape(-1)
         c = np.empty_like(a)
         for m in moved:
-            np.matmul(block, m, out=c)
+            np.matmul(block, m[:, start:], out=c)
             np.abs(c, out=c)
             # only pairs within Phi's support, as in j_pair_matrix: in a weak fabric a few per
             # cent of them, and looking Phi up costs more than the rest of the block
             near = np.flatnonzero(c.reshape(-1) >= cos_cut)
             flat[near] += phi_by_cos_half(c.reshape(-1)[near], table)
         a /= len(sym)
-        return (np.einsum("ib,ib->b", v[start:start + chunk], a @ v),
-                a[np.arange(len(block)), np.arange(start, start + len(block))])
+        mine = v[start:start + chunk]
+        square = a[:, :len(block)]
+        return (np.einsum("ib,ib->b", mine, square @ mine + 2.0 * (a[:, len(block):] @ v[start + len(block):])),
+                square.diagonal().copy())
 
     # blocks fixed in advance, shared among threads (numpy releases the GIL) and added in their
     # order: the number of threads changes the time, not the sums (fabric2seis/threads.py)
     starts = range(0, len(q), chunk)
+    work = np.cumsum([len(q) - s for s in starts]) / sum(len(q) - s for s in starts)
     parts: list[tuple[np.ndarray, np.ndarray]] = []
     with ThreadPoolExecutor(worker_count()) as pool:
         for terms in pool.map(block_terms, starts):
             parts.append(terms)
             if done is not None:
-                done(len(parts) / len(starts))
+                done(float(work[len(parts) - 1]))
     forms = np.zeros(v.shape[1])
     for part, _ in parts:
         forms += part

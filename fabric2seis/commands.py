@@ -153,7 +153,7 @@ def run_combine(result_dirs: list[str | Path], out_dir: str | Path | None = None
     """
     from fabric2seis import pieces
     from fabric2seis.pipeline import RunLog, seismic_of_aggregate
-    from fabric2seis.sample_output import write_sweep, stiffness_record, write_json
+    from fabric2seis.sample_output import stiffness_record, write_json, write_sweep
     from fabric2seis.tables import write_tensor_texts
 
     out = Path(out_dir) if out_dir else Path("results") / "combined"

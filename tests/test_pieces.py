@@ -148,7 +148,7 @@ def test_combined_seismic_numbers_equal_the_whole_maps(runs):
 
 
 def bunge_matrices(phi1, big_phi, phi2) -> np.ndarray:
-    """Bunge's passive z-x-z matrices g (v_crystal = g v_sample), written out (Bunge 1982, eq. 2.39, from memory)."""
+    """Bunge's passive z-x-z matrices g (v_crystal = g v_sample), written out (Bunge 1982; from memory)."""
     c1, s1, c, s, c2, s2 = np.cos(phi1), np.sin(phi1), np.cos(big_phi), np.sin(big_phi), np.cos(phi2), np.sin(phi2)
     g = np.empty((len(phi1), 3, 3))
     g[:, 0, 0] = c1 * c2 - s1 * s2 * c

@@ -379,6 +379,16 @@ def _field(args: argparse.Namespace) -> int:
     return 0
 
 
+def _combine(args: argparse.Namespace) -> int:
+    from fabric2seis.commands import run_combine
+
+    out, cautions = run_combine(args.result_dirs, args.out, args.name)
+    print(f"wrote {out}")
+    for note in cautions:
+        print(f"caution: {note}")
+    return 0
+
+
 def depth_status(m) -> str:
     """'P', 'T', 'P T' (with ~ for aggregate-only rates) or '-': what a mineral can be brought to."""
     parts = [letter + ("~" if block in m.aggregate_derivatives else "")
@@ -523,6 +533,18 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--stack", metavar="FILE", help="several layers (YAML, bottom to top): apparent splitting "
                    "against back-azimuth, analytic and from synthetic waveforms, and the predicted nulls")
     p.set_defaults(run=_field)
+
+    p = commands.add_parser("combine", help="combine the results of the pieces of a map into those of the whole map",
+                            description="Add the weighted sums (weighted_sums.json) of the results folders of the "
+                                        "pieces of one map, processed with the same settings, and write the tensors, "
+                                        "velocities and splitting of the whole map. With area weighting they equal "
+                                        "those of the whole map processed at once; fabric indices, grain counts and "
+                                        "bootstrap intervals are not combined.")
+    p.add_argument("result_dirs", nargs="+", metavar="RESULT_DIR", help="results folders of 'fabric2seis sample', "
+                   "one per piece (or of an earlier combination)")
+    p.add_argument("--out", metavar="DIR", help="output folder (default results/combined)")
+    p.add_argument("--name", help="name of the combined map (default: the output folder's name)")
+    p.set_defaults(run=_combine)
 
     from fabric2seis.synth import IDEAL_FABRICS
 

@@ -115,3 +115,72 @@ def run_stack(stack_file: str | Path, measurements: str | Path | None = None,
         stack_figure(tmp / "stack_splitting", sweep)
         (tmp / "stack.json").write_text(json.dumps(sweep.record(), indent=2) + "\n")
     return out, sweep.cautions
+
+
+@blas_on_one_thread()
+def run_combine(result_dirs: list[str | Path], out_dir: str | Path | None = None, name: str | None = None,
+                results_root: str | Path | None = "results") -> tuple[Path, list[str]]:
+    """``fabric2seis combine``: the results of a map from those of its pieces, written whole or not at all.
+
+    The pieces' weighted sums (``weighted_sums.json``) are checked and added (``pieces``); the
+    averages, velocities and splitting of the whole follow from them as for a sample.
+
+    Parameters
+    ----------
+    result_dirs : list of path
+        Results folders of ``fabric2seis sample`` (or of an earlier combination), one per piece.
+    out_dir : path, optional
+        Destination (default ``results/combined``).
+    name : str, optional
+        Name of the combined map (default: the destination's name).
+    results_root : path, optional
+        The suite's results root, never replaced.
+
+    Returns
+    -------
+    out : Path
+        The folder written: ``summary.json``, ``stiffness.json``, ``stiffness_<average>.txt``,
+        ``velocities.csv``, ``weighted_sums.json`` and, with ``field`` settings, the back-azimuth
+        sweep (``splitting_vs_backazimuth``).
+    cautions : list of str
+        What is combined and what is not, and the pieces' own cautions.
+
+    Raises
+    ------
+    InputError
+        If a folder is given twice, a piece lacks its sums, or the pieces were not processed alike
+        (``pieces.combine_records``).
+    """
+    from fabric2seis import pieces
+    from fabric2seis.pipeline import RunLog, seismic_of_aggregate
+    from fabric2seis.sample_output import stiffness_record, write_json, write_sweep
+    from fabric2seis.tables import write_tensor_texts
+
+    out = Path(out_dir) if out_dir else Path("results") / "combined"
+    check_destination(out, "combined", result_dirs, results_root)
+    seen: dict[Path, str | Path] = {}
+    for folder in result_dirs:
+        if Path(folder).resolve() in seen:
+            raise InputError(f"given twice (also as {seen[Path(folder).resolve()]})", folder)
+        seen[Path(folder).resolve()] = folder
+    records = [pieces.read_sums(folder) for folder in result_dirs]
+    combined = pieces.combine_records(records, name or out.name)
+    agg = pieces.aggregate_of_record(combined)
+    log = RunLog()
+    log.say(f"combining {len(records)} results folders: {', '.join(str(f) for f in result_dirs)}")
+    seismic = seismic_of_aggregate(agg, combined["settings"], combined["weighting"], combined["twins"],
+                                   records[0]["file"], log.say)
+    summary = pieces.combined_summary(combined, seismic, [str(f) for f in result_dirs])
+    with folder_written_whole(out, "combined", result_dirs, results_root) as tmp:
+        write_json(tmp / "summary.json", summary)
+        stiffness = stiffness_record(agg)
+        write_json(tmp / "stiffness.json", stiffness)
+        write_tensor_texts(stiffness, tmp, combined["sample"])
+        seismic.grid.table().to_csv(tmp / "velocities.csv", index=False)
+        write_json(tmp / pieces.SUMS_FILE, combined)
+        log.wrote(tmp)
+        if seismic.sweep is not None and seismic.field is not None:
+            write_sweep(tmp, combined["sample"], seismic, log)
+        log.say(f"done, results in {out}")
+        (tmp / "run.log").write_text("\n".join(log.lines) + "\n")
+    return out, summary["cautions"]

@@ -1,8 +1,8 @@
 """Writing a results folder whole or not at all, and never over a user's own files.
 
 Every folder fabric2seis writes carries a marker file (``MARKER``) naming what it holds
-(``sample``, ``field``, ``stack`` or ``optics``). A destination is replaced only when it is missing, empty,
-or carries the marker of the same kind with no other results folder inside it; it must not be the
+(``sample``, ``field``, ``stack``, ``optics`` or ``combined``). A destination is replaced only when
+it is missing, empty, or carries the marker of the same kind with no other results folder inside it; it must not be the
 current folder or above it, the results root, or a folder equal to or above any input. Replacing
 is atomic: the new results are written into a temporary folder beside the destination, the old
 folder is moved aside, the new one renamed into place, and only then the old one removed. A run
@@ -33,7 +33,7 @@ from pathlib import Path
 from fabric2seis.errors import InputError
 
 MARKER = ".fabric2seis-results"
-KINDS = ("sample", "field", "stack", "optics")
+KINDS = ("sample", "field", "stack", "optics", "combined")
 STALE_AFTER_S = 24 * 3600.0
 
 
@@ -60,8 +60,8 @@ def written_kind(folder: str | Path) -> str | None:
     Returns
     -------
     str or None
-        ``"sample"``, ``"field"``, ``"stack"`` or ``"optics"``; None if the folder has no marker, an unreadable
-        one, or one naming another kind.
+        ``"sample"``, ``"field"``, ``"stack"``, ``"optics"`` or ``"combined"``; None if the folder has no
+        marker, an unreadable one, or one naming another kind.
     """
     try:
         kind = json.loads((Path(folder) / MARKER).read_text()).get("kind")
@@ -78,7 +78,7 @@ def check_destination(out: str | Path, kind: str, inputs: Iterable[str | Path] =
     ----------
     out : str or Path
         The folder the results are to go to.
-    kind : {"sample", "field", "stack", "optics"}
+    kind : {"sample", "field", "stack", "optics", "combined"}
         What is written.
     inputs : iterable of str or Path
         Files and folders the run reads; the destination may not be equal to or above any of
@@ -298,7 +298,7 @@ def remove_results(out: str | Path, kind: str) -> bool:
     ----------
     out : str or Path
         The folder to remove.
-    kind : {"sample", "field", "stack", "optics"}
+    kind : {"sample", "field", "stack", "optics", "combined"}
         The kind its marker must name.
 
     Returns

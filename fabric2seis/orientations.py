@@ -166,10 +166,13 @@ def misorientation_angles(qa: np.ndarray, qb: np.ndarray, sym: np.ndarray) -> np
     """
     qa = np.asarray(qa, dtype=float)
     qb = np.asarray(qb, dtype=float)
+    # w(s * dq) = s_w dq_w - s_v . dq_v: one product with the operations' conjugates
+    conj_ops = (np.asarray(sym, dtype=float) * np.array([1.0, -1.0, -1.0, -1.0])).T      # (4, K)
     out = np.empty(len(qa))
     for start in range(0, len(qa), _CHUNK):
         stop = start + _CHUNK
-        w = np.abs(np.einsum("nkc,nc->nk", _equivalents(qb[start:stop], sym), qa[start:stop])).max(axis=1)
+        dq = multiply(qb[start:stop], conjugate(qa[start:stop]))
+        w = np.abs(dq @ conj_ops).max(axis=1)
         out[start:stop] = 2.0 * np.arccos(np.clip(w, 0.0, 1.0))
     return out
 

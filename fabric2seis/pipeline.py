@@ -388,7 +388,6 @@ def seismic_stage(sample: Sample, progress: Progress | None = None) -> SeismicRe
     InputError
         If a mineral cannot be brought to the conditions, or the ``field`` settings are refused.
     """
-    from fabric2seis.elastic.decomposition import decomposition_summary
     from fabric2seis.waves import seismic
 
     say = progress or _quiet
@@ -399,21 +398,61 @@ def seismic_stage(sample: Sample, progress: Progress | None = None) -> SeismicRe
     cond = st["conditions"]
     agg = seismic.aggregate(sets, sample.fractions, st["averaging"], cond["pressure_gpa"], cond["temperature_c"],
                             bool(cond.get("allow_ambient_constants", False)), twin_setting(st) == "average")
+    twins = {"setting": twin_setting(st), "averaged": agg.twins or {},
+             "library": {m.name: [t["name"] for t in m.twins] for m, _, _ in sets if m.twins}}
+    return seismic_of_aggregate(agg, st, weighting, twins, sample.settings_file, say)
+
+
+def seismic_of_aggregate(agg, settings: dict, weighting: str, twins: dict, settings_file: str | None = None,
+                         progress: Progress | None = None) -> SeismicResult:
+    """Everything the seismic stage derives from an aggregate tensor: velocities, summary, splitting.
+
+    Shared by a sample's seismic stage and the combination of a map's pieces (``pieces``).
+
+    Parameters
+    ----------
+    agg : fabric2seis.waves.seismic.Aggregate
+        The aggregate: its chosen average (GPa, structural frame) and density (kg m^-3).
+    settings : dict
+        The settings: ``velocity_grid_step_deg`` and ``field``.
+    weighting : str
+        How orientations were weighted (``area`` or ``grain``), for the summary.
+    twins : dict
+        The ``twins`` block of the seismic summary.
+    settings_file : str, optional
+        Where the settings came from, for error messages.
+    progress : callable, optional
+        Called with a message at each step.
+
+    Returns
+    -------
+    SeismicResult
+        Tensors (GPa), velocities (km/s), summary, splitting along Z and, with ``field``
+        settings, in the ground.
+
+    Raises
+    ------
+    InputError
+        If the ``field`` settings are refused.
+    """
+    from fabric2seis.elastic.decomposition import decomposition_summary
+    from fabric2seis.waves import seismic
+
+    say = progress or _quiet
     say("velocities on the hemisphere grid")
-    grid = seismic.velocity_grid(agg.stiffness, agg.density_kg_m3, float(st.get("velocity_grid_step_deg", 1.0)))
+    grid = seismic.velocity_grid(agg.stiffness, agg.density_kg_m3, float(settings.get("velocity_grid_step_deg", 1.0)))
     summary = seismic.seismic_summary(grid, agg.average)
     summary["weighting"] = weighting
     summary["along_axes"] = seismic.along_axes(agg.stiffness, agg.density_kg_m3)
-    summary["twins"] = {"setting": twin_setting(st), "averaged": agg.twins or {},
-                        "library": {m.name: [t["name"] for t in m.twins] for m, _, _ in sets if m.twins}}
+    summary["twins"] = twins
     summary["decomposition"] = decomposition_summary(agg.stiffness, agg.density_kg_m3)
     along_z = seismic.splitting_along(agg.stiffness, agg.density_kg_m3)
     field, sweep = None, None
-    if st.get("field"):
+    if settings.get("field"):
         from fabric2seis.waves.splitting import field_summary
 
         say("splitting of the layer in the ground")
-        field, sweep = field_summary(agg.stiffness, agg.density_kg_m3, st["field"], sample.settings_file)
+        field, sweep = field_summary(agg.stiffness, agg.density_kg_m3, settings["field"], settings_file)
     return SeismicResult(aggregate=agg, grid=grid, summary=summary, weighting=weighting, field=field, sweep=sweep,
                          along_z={k: along_z[k] for k in ("fast_polarisation_from_x_deg", "delay_s_per_100km")})
 

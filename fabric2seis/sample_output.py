@@ -18,10 +18,12 @@ import numpy as np
 
 from fabric2seis import __version__
 from fabric2seis.folders import folder_written_whole
+from fabric2seis.pieces import SUMS_FILE, sums_record
 from fabric2seis.stages import FabricResult, Intervals, Sample, SeismicResult, plain
 
 if TYPE_CHECKING:
     from fabric2seis.pipeline import RunLog
+    from fabric2seis.waves.seismic import Aggregate
 
 
 def ingestion_summary(sample: Sample) -> dict:
@@ -283,6 +285,24 @@ def fabric_figures(folder: Path, sample_name: str, fabric: FabricResult, sample:
     wrote()
 
 
+def stiffness_record(agg: Aggregate) -> dict:
+    """The contents of ``stiffness.json``: the four averages (GPa, rounded to 1e-6) and the density.
+
+    Parameters
+    ----------
+    agg : fabric2seis.waves.seismic.Aggregate
+        The aggregate of a sample or of a combination of pieces.
+
+    Returns
+    -------
+    dict
+        Ready for JSON.
+    """
+    return {**{k: np.round(v, 6).tolist() for k, v in agg.tensors.items()},
+            "density_kg_m3": round(agg.density_kg_m3, 3), "units": "GPa, Voigt order 11 22 33 23 13 12",
+            "frame": "structural (X lineation, Z foliation normal)", "used_for_velocities": agg.average}
+
+
 def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, seismic: SeismicResult,
                   summary: dict, log: RunLog, inputs: list, results_root: str | Path | None) -> Path:
     """Write every file of a sample's results folder, whole or not at all.
@@ -326,23 +346,23 @@ def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, s
         fabric_figures(tmp, sample.name, fabric, sample, log)
         map_overview_figure(tmp / "map_overview", sample)     # maps only: a grain list has no map
         log.wrote(tmp)
-        stiffness = {
-            **{k: np.round(v, 6).tolist() for k, v in agg.tensors.items()},
-            "density_kg_m3": round(agg.density_kg_m3, 3), "units": "GPa, Voigt order 11 22 33 23 13 12",
-            "frame": "structural (X lineation, Z foliation normal)", "used_for_velocities": agg.average}
+        stiffness = stiffness_record(agg)
         write_json(tmp / "stiffness.json", stiffness)
         write_tensor_texts(stiffness, tmp, sample.name)     # the same numbers as plain 6x6 text
+        log.wrote(tmp)
+        record = provenance(path, sample)
+        write_json(tmp / SUMS_FILE, sums_record(sample, seismic, summary, record["input_sha256"]))
         log.wrote(tmp)
         seismic.grid.table().to_csv(tmp / "velocities.csv", index=False)
         log.wrote(tmp)
         if seismic.sweep is not None and seismic.field is not None:
-            _write_sweep(tmp, sample.name, seismic, log)
+            write_sweep(tmp, sample.name, seismic, log)
         from fabric2seis.figures.velocities import velocity_figure
 
         velocity_figure(tmp / "velocities", sample.name, agg.stiffness, agg.density_kg_m3, agg.average,
                         int(summary["n_grains"]), panels=velocity_panels(sample.settings), grid=seismic.grid)
         log.wrote(tmp)
-        write_json(tmp / "provenance.json", provenance(path, sample))
+        write_json(tmp / "provenance.json", record)
         log.wrote(tmp)
         if sample.grains is not None:
             grains_table(sample.grains, sample.points.minerals).to_csv(tmp / "grains.csv", index=False)
@@ -352,7 +372,7 @@ def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, s
     return out
 
 
-def _write_sweep(folder: Path, sample_name: str, seismic: SeismicResult, log: RunLog) -> None:
+def write_sweep(folder: Path, sample_name: str, seismic: SeismicResult, log: RunLog) -> None:
     """The splitting of the placed layer against back-azimuth: table and figure."""
     import pandas as pd
 

@@ -517,21 +517,8 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
         k = (i + rng.integers(1, n, fabric.M_INDEX_PAIRS)) % n
     angles = fabric.misorientation_angles(quat[i], quat[k], fabric.proper_symmetry_quaternions(mineral.symmetry))
     bins = np.minimum((np.degrees(angles) / fabric.M_INDEX_BIN_DEG).astype(int), len(reference) - 1)
-    # blocks of pairs shared among the threads, PAIRS_IN_MEMORY pairs in memory at a time whatever
-    # their number; the histograms are sums of whole numbers (products of draw counts), exact in
-    # float64, so neither the blocks nor the threads change a bit of them
-    block = -(-PAIRS_IN_MEMORY // thread_count())
-
-    def pair_histogram(start: int) -> np.ndarray:
-        sl = slice(start, start + block)
-        weight = counts[:, i[sl]] * counts[:, k[sl]]                  # (B, pairs)
-        return (_one_hot(bins[sl], len(reference)).T @ weight.T).T
-
-    hist = np.zeros((len(counts), len(reference)))
-    starts = range(0, len(i), block)
-    for start, part in zip(starts, shared_results(pair_histogram, starts)):
-        hist += part
-        tell(j_part + (1.0 - j_part) * min(start + block, len(i)) / len(i))
+    hist = _resampled_histograms(np.ascontiguousarray(np.asarray(counts).T), i, k, bins, len(reference),
+                                 lambda f: tell(j_part + (1.0 - j_part) * f))
     total = hist.sum(axis=1, keepdims=True)
     m = np.full(len(counts), np.nan)          # a resample of one distinct grain has no pairs
     ok = total[:, 0] > 0
@@ -590,7 +577,32 @@ def resampled_j(forms: np.ndarray, diagonal: np.ndarray, counts: np.ndarray, wei
     return own / total ** 2 + (1.0 - (c @ w2) / total ** 2) * u
 
 
-def _one_hot(index: np.ndarray, size: int):
-    from scipy.sparse import csr_matrix
+def _resampled_histograms(counts_by_grain: np.ndarray, i: np.ndarray, k: np.ndarray, bins: np.ndarray,
+                          n_bins: int, done: Callable[[float], None]) -> np.ndarray:
+    """hist[b, bin] = sum of c_i c_k over the pairs (i, k) in the bin, for every resample b.
 
-    return csr_matrix((np.ones(len(index)), (np.arange(len(index)), index)), shape=(len(index), size))
+    The pairs are sorted by bin once; each block of them gathers whole rows of the counts
+    (grains x resamples, contiguous), multiplies them and adds each bin's run of rows. Counts and
+    their products are small integers, so the sums are exact whatever their order: in single
+    precision while a block's whole sum stays below 2^24, else in double.
+    """
+    order = np.argsort(bins, kind="stable")
+    i, k, bins = i[order], k[order], bins[order]
+    hist = np.zeros((counts_by_grain.shape[1], n_bins))
+    # blocks shared among the run's threads, PAIRS_IN_MEMORY pairs in memory at a time whatever
+    # their number (threads.py); the sums are exact, so neither blocks nor threads change a bit
+    block = -(-PAIRS_IN_MEMORY // thread_count())
+
+    def block_sums(start: int) -> tuple[np.ndarray, np.ndarray]:
+        sl = slice(start, start + block)
+        weight = counts_by_grain[i[sl]] * counts_by_grain[k[sl]]              # (pairs, B)
+        b = bins[sl]
+        first = np.flatnonzero(np.r_[True, b[1:] != b[:-1]])
+        exact = np.float32 if float(weight.max()) * len(weight) < 2.0 ** 24 else np.float64
+        return b[first], np.add.reduceat(weight, first, axis=0, dtype=exact).T
+
+    starts = range(0, len(i), block)
+    for start, (in_bins, sums) in zip(starts, shared_results(block_sums, starts)):
+        hist[:, in_bins] += sums
+        done(min(start + block, len(i)) / len(i))
+    return hist

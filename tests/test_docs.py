@@ -155,6 +155,7 @@ def outputs(tmp_path_factory):
     assert main(["sample", str(tmp / "mix.ang"), "--out", str(tmp / "res")]) == 0
     assert main(["field", str(tmp / "res"), "--measurements", str(tmp / "m.csv"), "--out", str(tmp / "field")]) == 0
     assert main(["optics", str(tmp / "mix.ang"), "--out", str(tmp / "optics")]) == 0
+    assert main(["combine", str(tmp / "res"), "--out", str(tmp / "combined")]) == 0
     return tmp
 
 
@@ -195,9 +196,14 @@ def test_other_json_keys_are_described(outputs):
     check_keys("provenance.json", leaf_paths(json.loads((outputs / "res" / "provenance.json").read_text())))
     check_keys("field_fit.json", leaf_paths(json.loads((outputs / "field" / "field_fit.json").read_text())))
     check_keys("optics_summary.json", leaf_paths(json.loads((outputs / "optics" / "optics_summary.json").read_text())))
+    check_keys("weighted_sums.json", leaf_paths(json.loads((outputs / "res" / "weighted_sums.json").read_text())))
+    check_keys("weighted_sums.json", leaf_paths(json.loads((outputs / "combined" / "weighted_sums.json").read_text())))
+    check_keys("combined summary.json", leaf_paths(json.loads((outputs / "combined" / "summary.json").read_text())))
 
 
 def test_csv_columns_are_described(outputs):
+    combined = list(pd.read_csv(outputs / "combined" / "velocities.csv", nrows=1).columns)
+    assert combined == list(pd.read_csv(outputs / "res" / "velocities.csv", nrows=1).columns)
     for folder, file in [("res", "velocities.csv"), ("res", "splitting_vs_backazimuth.csv"), ("res", "grains.csv"),
                          ("field", "predictions.csv"), ("optics", "birefringence.csv")]:
         check_columns(file, list(pd.read_csv(outputs / folder / file, nrows=1).columns))

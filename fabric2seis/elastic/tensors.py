@@ -30,6 +30,7 @@ __all__ = [
     "kelvin_to_voigt", "compliance", "check_stiffness", "kelvin_rotation", "rotate_voigt",
     "crystal_to_sample", "rotated_kelvin", "rotated_kelvin_upper", "logm_spd", "expm_sym",
     "PhaseTensors", "crystal_kelvin_matrices", "weighted_rotated_mean", "average_tensors",
+    "WeightedSums", "phase_sums", "averages_from_sums",
     "voigt_moduli", "reuss_moduli", "hill_moduli", "isotropic_stiffness",
 ]
 
@@ -590,6 +591,11 @@ def weighted_rotated_mean(x_kelvin: np.ndarray, g: np.ndarray, weights: np.ndarr
 
 def _rotated_mean(x: np.ndarray, g: np.ndarray, w: np.ndarray, chunk: int = CHUNK) -> np.ndarray:
     """:func:`weighted_rotated_mean` on arguments already checked (the averages check a phase once)."""
+    return _rotated_sum(x, g, w, chunk) / w.sum()
+
+
+def _rotated_sum(x: np.ndarray, g: np.ndarray, w: np.ndarray, chunk: int = CHUNK) -> np.ndarray:
+    """``sum_n w_n Q_n X Q_n^T`` (6, 6), symmetric, on arguments already checked."""
     acc = np.zeros((6, 6))
     for start in range(0, len(g), chunk):
         # rc[i, k, n] = R_n[i, k] with R_n = g_n^T, i.e. g_n[k, i]
@@ -598,7 +604,6 @@ def _rotated_mean(x: np.ndarray, g: np.ndarray, w: np.ndarray, chunk: int = CHUN
         a = x @ q  # a[i, k, n] = (Q_n X)[i, k], X being symmetric
         a *= w[start:start + chunk]
         acc += a.reshape(6, -1) @ q.reshape(6, -1).T  # sum over n and k of (w Q X)_ik Q_lk
-    acc /= w.sum()
     return (acc + acc.T) / 2.0
 
 
@@ -657,21 +662,116 @@ def average_tensors(phases: Sequence[PhaseTensors]) -> dict[str, np.ndarray]:
     """
     if not phases:
         raise ValueError("an aggregate needs at least one phase")
-    fractions = np.array([p.fraction for p in phases], dtype=float)
-    if np.any(fractions < 0) or not fractions.sum() > 0:
-        raise ValueError(f"phase fractions must be non-negative with a positive sum: {fractions}")
-    fractions = fractions / fractions.sum()
+    fractions = [p.fraction for p in phases]
+    return averages_from_sums([phase_sums(p) if p.fraction != 0 else WeightedSums.empty() for p in phases],
+                              fractions)
+
+
+@dataclass(frozen=True)
+class WeightedSums:
+    """The weighted sums over a phase's orientations from which its share of every average follows.
+
+    Each sum is ``sum_n w_n Q_n X Q_n^T`` over the phase's orientations, with ``X`` the crystal's
+    Kelvin stiffness, compliance or matrix logarithm (twin variants included) and ``Q_n`` the
+    Kelvin rotation into the sample frame. They are linear in the weights: the sums of two sets of
+    orientations are the sums of the union, so a map processed in pieces adds up exactly.
+
+    Attributes
+    ----------
+    weight
+        Sum of the weights (their unit: area, volume, or grains).
+    stiffness
+        Kelvin (6, 6), GPa times the weight unit.
+    compliance
+        Kelvin (6, 6), 1/GPa times the weight unit.
+    log
+        Kelvin (6, 6), matrix logarithm of the stiffness in GPa, times the weight unit.
+    """
+
+    weight: float
+    stiffness: np.ndarray
+    compliance: np.ndarray
+    log: np.ndarray
+
+    @classmethod
+    def empty(cls) -> WeightedSums:
+        """The sums of no orientation: weight 0 and zero matrices."""
+        return cls(0.0, np.zeros((6, 6)), np.zeros((6, 6)), np.zeros((6, 6)))
+
+    def __add__(self, other: WeightedSums) -> WeightedSums:
+        return WeightedSums(self.weight + other.weight, self.stiffness + other.stiffness,
+                            self.compliance + other.compliance, self.log + other.log)
+
+
+def phase_sums(phase: PhaseTensors) -> WeightedSums:
+    """Compute the weighted sums of one phase (its ``fraction`` plays no part).
+
+    Parameters
+    ----------
+    phase : PhaseTensors
+        Crystal stiffness (GPa), orientations, weights and twin variants of the phase.
+
+    Returns
+    -------
+    WeightedSums
+        The sum of the weights and the three weighted sums (Kelvin 6x6); all zero for a phase
+        without orientations.
+
+    Raises
+    ------
+    ValueError
+        If the orientations are not (N, 3, 3) rotations, or the weights are negative or do not
+        match them.
+    """
+    if len(np.asarray(phase.g)) == 0 and len(np.asarray(phase.weights)) == 0:
+        return WeightedSums.empty()
+    x = crystal_kelvin_matrices(phase.stiffness_gpa, phase.variants)
+    g, w = _orientations_and_weights(phase.g, phase.weights)            # checked once for the three sums
+    return WeightedSums(float(w.sum()), _rotated_sum(x["stiffness"], g, w), _rotated_sum(x["compliance"], g, w),
+                        _rotated_sum(x["log"], g, w))
+
+
+def averages_from_sums(sums: Sequence[WeightedSums], fractions: Sequence[float]) -> dict[str, np.ndarray]:
+    """Compute the four averages from each phase's weighted sums and its volume fraction.
+
+    A phase's mean is its sums divided by its weight; phases are weighted by ``fractions``
+    (renormalised to sum to 1); see :func:`average_tensors` for the averages.
+
+    Parameters
+    ----------
+    sums : sequence of WeightedSums
+        One per phase (:func:`phase_sums`, or the sums of several pieces added).
+    fractions : sequence of float
+        Volume fraction of each phase, in the same order.
+
+    Returns
+    -------
+    dict of str to numpy.ndarray, each shape (6, 6)
+        Sample-frame Voigt stiffness in GPa under the names of :data:`AVERAGES`.
+
+    Raises
+    ------
+    ValueError
+        If the lengths differ, the fractions are negative or sum to zero, or a phase of positive
+        fraction has no weight.
+    """
+    if len(sums) != len(fractions) or not sums:
+        raise ValueError(f"{len(sums)} sets of sums but {len(fractions)} fractions")
+    f_all = np.array(fractions, dtype=float)
+    if np.any(f_all < 0) or not f_all.sum() > 0:
+        raise ValueError(f"phase fractions must be non-negative with a positive sum: {f_all}")
+    f_all = f_all / f_all.sum()
     stiff = np.zeros((6, 6))
     comp = np.zeros((6, 6))
     logs = np.zeros((6, 6))
-    for f, p in zip(fractions, phases):
+    for f, s in zip(f_all, sums):
         if f == 0:
             continue
-        x = crystal_kelvin_matrices(p.stiffness_gpa, p.variants)
-        g, w = _orientations_and_weights(p.g, p.weights)            # checked once for the three sums
-        stiff += f * _rotated_mean(x["stiffness"], g, w)
-        comp += f * _rotated_mean(x["compliance"], g, w)
-        logs += f * _rotated_mean(x["log"], g, w)
+        if not s.weight > 0:
+            raise ValueError("a phase of positive fraction has no orientations with weight")
+        stiff += f * (s.stiffness / s.weight)
+        comp += f * (s.compliance / s.weight)
+        logs += f * (s.log / s.weight)
     voigt = kelvin_to_voigt(stiff)
     reuss = kelvin_to_voigt(np.linalg.inv(comp))
     reuss = (reuss + reuss.T) / 2.0

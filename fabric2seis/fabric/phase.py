@@ -42,7 +42,7 @@ from fabric2seis.fabric.poles import (
     pf_j_pairs,
     pole_vectors,
 )
-from fabric2seis.fabric.texture_index import j_index, j_index_dense
+from fabric2seis.fabric.texture_index import harmonics_suffice, j_index, j_index_dense, j_index_nested
 from fabric2seis.orientations import proper_symmetry_quaternions
 
 #: random orientation sets simulated for the floor of J, M and pfJ (their 2.5 and 97.5 percentiles
@@ -198,11 +198,16 @@ def convergence(mineral, quat: np.ndarray, weights: np.ndarray, halfwidth_deg: f
     sizes = [s for s in CONVERGENCE_SIZES if s < n] + [n]
     pole = pole or default_poles(mineral)[0]
     direction = crystal_direction(mineral, pole)
+    if harmonics_suffice(halfwidth_deg):       # the subsets' Fourier sums, added up grain by grain
+        j_values = j_index_nested(quat[order], weights[order], mineral.symmetry, sizes, halfwidth_deg)
+    else:
+        j_values = [j_index(quat[order[:size]], weights[order[:size]], mineral.symmetry, halfwidth_deg)
+                    for size in sizes]
     rows = []
-    for size in sizes:
+    for size, j in zip(sizes, j_values):
         sel = order[:size]
         vectors = pole_vectors(quat[sel], direction, mineral.symmetry)
-        rows.append({"n": int(size), "J": j_index(quat[sel], weights[sel], mineral.symmetry, halfwidth_deg),
+        rows.append({"n": int(size), "J": j,
                      "M": m_index(quat[sel], mineral.symmetry, seed=seed) if size > 1 else float("nan"),
                      "max_mud": pf_j(vectors, weights[sel], halfwidth_deg)[1]})
     steps = [r for r in rows[:-1] if r["n"] in LEVELLING_SIZES]

@@ -35,6 +35,7 @@ from fabric2seis.fabric.checks import check_halfwidth, check_quaternions, check_
 from fabric2seis.fabric.kernel import (
     interpolate_on_uniform_grid,
     kernel_coefficients,
+    phi_by_cos_half,
     self_convolution_by_cos_half,
     self_convolution_table,
 )
@@ -87,10 +88,15 @@ def j_index(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg: floa
         raise ValueError(f"unknown J-index method {method!r}; use one of {', '.join(J_METHODS)}")
     _check_grains(quat, weights, halfwidth_deg)
     if method == "auto":
-        method = "harmonics" if len(kernel_coefficients(float(halfwidth_deg))) <= HARMONIC_DEGREE_LIMIT + 1 else "pairs"
+        method = "harmonics" if harmonics_suffice(halfwidth_deg) else "pairs"
     if method == "harmonics":
         return j_index_harmonics(quat, weights, symmetry, halfwidth_deg)
     return j_index_pairs(quat, weights, symmetry, halfwidth_deg)
+
+
+def harmonics_suffice(halfwidth_deg: float) -> bool:
+    """Whether ``j_index``'s "auto" sums the Fourier series (kernel series of at most HARMONIC_DEGREE_LIMIT degrees)."""
+    return len(kernel_coefficients(float(halfwidth_deg))) <= HARMONIC_DEGREE_LIMIT + 1
 
 
 def j_index_harmonics(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg: float = 10.0) -> float:
@@ -118,13 +124,58 @@ def j_index_harmonics(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth
     Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
     """
     _check_grains(quat, weights, halfwidth_deg)
+    return j_index_nested(quat, weights, symmetry, [len(quat)], halfwidth_deg)[0]
+
+
+def j_index_nested(quat: np.ndarray, weights: np.ndarray, symmetry, sizes, halfwidth_deg: float = 10.0) -> list[float]:
+    """J (as ``j_index_harmonics``) of the first n grains, for every n in ``sizes``, in one pass.
+
+    The Fourier sums are linear in the weights, so the sums of each first-n subset are those of
+    the previous subset plus the grains added; each subset's weights are normalised on their own
+    (J of unnormalised sums divided by the square of the subset's total weight).
+
+    Parameters
+    ----------
+    quat, weights, symmetry, halfwidth_deg
+        As for ``j_index``: quaternions (N, 4), weights (N,), orix point group, degrees.
+    sizes : sequence of int
+        Increasing subset sizes, 1 <= n <= N; each subset must have a positive total weight.
+
+    Returns
+    -------
+    list of float
+        J of each subset, dimensionless.
+
+    References
+    ----------
+    Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
+    """
+    _check_grains(quat, weights, halfwidth_deg)
+    sizes = [int(n) for n in sizes]
+    if not sizes or sizes != sorted(sizes) or sizes[0] < 1 or sizes[-1] > len(quat):
+        raise ValueError(f"sizes must increase from 1 to at most {len(quat)}, got {sizes}")
     k_l = kernel_coefficients(float(halfwidth_deg))
     degree = len(k_l) - 1
-    w = np.asarray(weights, dtype=float) / np.sum(weights)
+    w = np.asarray(weights, dtype=float)
+    scale = np.sum(w)                     # sums of weights of order 1: same rounding as one subset
     turn, about_z = _symmetry_frame(symmetry)
     q = multiply(conjugate(turn)[None], np.asarray(quat, dtype=float))
     rows = np.arange(-(degree // about_z) * about_z, degree + 1, about_z)
-    sums = harmonics.fourier_sums(q, w, rows, degree)
+    sums = np.zeros((len(rows), 2 * degree + 1, degree + 1), dtype=complex)
+    out, done = [], 0
+    for n in sizes:
+        if n > done:
+            sums = sums + harmonics.fourier_sums(q[done:n], w[done:n] / scale, rows, degree)
+            done = n
+        total_weight = np.sum(w[:n]) / scale
+        if not total_weight > 0:
+            raise ValueError(f"the first {n} grains have no weight")
+        out.append(_parseval(sums, rows, degree, k_l, symmetry) / total_weight ** 2)
+    return out
+
+
+def _parseval(sums: np.ndarray, rows: np.ndarray, degree: int, k_l: np.ndarray, symmetry) -> float:
+    """sum_l (2l+1) k_l^2 |P_l C_l|^2 from the Fourier sums of ``harmonics.fourier_sums``."""
     total = 0.0
     for l in range(degree + 1):
         c, m = harmonics.degree_coefficients(sums, rows, degree, l)
@@ -199,7 +250,8 @@ def j_index_pairs(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg
     sym = proper_symmetry_quaternions(symmetry)
     q = np.asarray(quat, dtype=float)
     w = np.asarray(weights, dtype=float) / np.sum(weights)
-    table_c, table_phi, cos_cut = self_convolution_by_cos_half(float(halfwidth_deg))
+    table = self_convolution_by_cos_half(float(halfwidth_deg))
+    cos_cut = table[0]
     total = 0.0
     moved = [multiply(t[None], q) for t in sym]
     q32 = q.astype(np.float32)
@@ -212,8 +264,8 @@ def j_index_pairs(quat: np.ndarray, weights: np.ndarray, symmetry, halfwidth_deg
             rows, cols = np.nonzero(c > screen)
             if len(rows):
                 exact = np.abs(np.einsum("nc,nc->n", q[rows + start], m[cols]))
-                keep = exact > cos_cut
-                total += np.sum(wb[rows[keep]] * w[cols[keep]] * np.interp(exact[keep], table_c, table_phi))
+                keep = exact >= cos_cut
+                total += np.sum(wb[rows[keep]] * w[cols[keep]] * phi_by_cos_half(exact[keep], table))
     return float(total / len(sym))
 
 
@@ -275,7 +327,8 @@ def j_pair_matrix(quat: np.ndarray, symmetry, halfwidth_deg: float = 10.0, chunk
     sym = proper_symmetry_quaternions(symmetry)
     q = np.asarray(quat, dtype=float)
     n = len(q)
-    table_c, table_phi, cos_cut = self_convolution_by_cos_half(float(halfwidth_deg))
+    table = self_convolution_by_cos_half(float(halfwidth_deg))
+    cos_cut = table[0]
     q32 = q.astype(np.float32)
     screen = np.float32(cos_cut - 1e-5)
     rows_all, cols_all, vals_all = [], [], []
@@ -287,10 +340,10 @@ def j_pair_matrix(quat: np.ndarray, symmetry, halfwidth_deg: float = 10.0, chunk
             np.abs(c, out=c)
             rows, cols = np.nonzero(c > screen)
             exact = np.abs(np.einsum("nc,nc->n", q[rows + start], m[cols]))
-            keep = exact > cos_cut
+            keep = exact >= cos_cut
             rows_all.append(rows[keep] + start)
             cols_all.append(cols[keep])
-            vals_all.append(np.interp(exact[keep], table_c, table_phi) / len(sym))
+            vals_all.append(phi_by_cos_half(exact[keep], table) / len(sym))
     return coo_matrix((np.concatenate(vals_all), (np.concatenate(rows_all), np.concatenate(cols_all))),
                       shape=(n, n)).tocsr()
 
@@ -299,9 +352,10 @@ def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: 
                       chunk: int = 512, done: Callable[[float], None] | None = None) -> tuple[np.ndarray, np.ndarray]:
     """v_b^T A v_b for the columns of v, and the diagonal of A, without storing A.
 
-    A is the matrix of ``j_pair_matrix``; it is built one block of rows at a time, dense, and
-    multiplied into all columns at once, so memory stays at ``threads.MAX_WORKERS`` blocks
-    (chunk x N) whatever the fabric, and the cost is N^2 |S| like the pair sum plus one matrix
+    A is the matrix of ``j_pair_matrix``; it is built one block of rows at a time, dense, from
+    the diagonal on (A is symmetric: the pairs left of it count twice), and multiplied into all
+    columns at once, so memory stays at ``threads.MAX_WORKERS`` blocks (at most chunk x N)
+    whatever the fabric, and the cost is N^2 |S| / 2 like half the pair sum plus one matrix
     product per block. The blocks are shared among ``threads.worker_count()`` threads.
 
     Parameters
@@ -335,30 +389,40 @@ def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: 
     sym = proper_symmetry_quaternions(symmetry)
     q = np.asarray(quat, dtype=float)
     v = np.asarray(v, dtype=float)
-    table_c, table_phi, cos_cut = self_convolution_by_cos_half(float(halfwidth_deg))
-    table_phi = np.where(table_c < cos_cut, 0.0, table_phi)
-    moved = [multiply(t[None], q) for t in sym]
+    table = self_convolution_by_cos_half(float(halfwidth_deg))
+    cos_cut = table[0]
+    moved = [np.ascontiguousarray(multiply(t[None], q).T) for t in sym]
 
     def block_terms(start: int) -> tuple[np.ndarray, np.ndarray]:
+        # rows start.. of A from its diagonal on: A is symmetric, so the pairs left of the
+        # diagonal are the transposes of earlier blocks' and count twice in v^T A v
         block = q[start:start + chunk]
-        a = np.zeros((len(block), len(q)))
+        a = np.zeros((len(block), len(q) - start))
+        flat = a.reshape(-1)
+        c = np.empty_like(a)
         for m in moved:
-            c = np.abs(block @ m.T)
-            c[c < cos_cut] = 0.0               # outside Phi's support, as in j_pair_matrix
-            a += np.interp(c, table_c, table_phi)
+            np.matmul(block, m[:, start:], out=c)
+            np.abs(c, out=c)
+            # only pairs within Phi's support, as in j_pair_matrix: in a weak fabric a few per
+            # cent of them, and looking Phi up costs more than the rest of the block
+            near = np.flatnonzero(c.reshape(-1) >= cos_cut)
+            flat[near] += phi_by_cos_half(c.reshape(-1)[near], table)
         a /= len(sym)
-        return (np.einsum("ib,ib->b", v[start:start + chunk], a @ v),
-                a[np.arange(len(block)), np.arange(start, start + len(block))])
+        mine = v[start:start + chunk]
+        square = a[:, :len(block)]
+        return (np.einsum("ib,ib->b", mine, square @ mine + 2.0 * (a[:, len(block):] @ v[start + len(block):])),
+                square.diagonal().copy())
 
     # blocks fixed in advance, shared among threads (numpy releases the GIL) and added in their
     # order: the number of threads changes the time, not the sums (fabric2seis/threads.py)
     starts = range(0, len(q), chunk)
+    work = np.cumsum([len(q) - s for s in starts]) / sum(len(q) - s for s in starts)
     parts: list[tuple[np.ndarray, np.ndarray]] = []
     with ThreadPoolExecutor(worker_count()) as pool:
         for terms in pool.map(block_terms, starts):
             parts.append(terms)
             if done is not None:
-                done(len(parts) / len(starts))
+                done(float(work[len(parts) - 1]))
     forms = np.zeros(v.shape[1])
     for part, _ in parts:
         forms += part

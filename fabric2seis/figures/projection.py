@@ -19,6 +19,7 @@ matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
 from matplotlib.axes import Axes  # noqa: E402
 from matplotlib.text import Text  # noqa: E402
+from matplotlib.transforms import Bbox  # noqa: E402
 
 #: the hemispheres a projection can show (settings key ``figures.pole_hemisphere``)
 HEMISPHERES = ("lower", "upper")
@@ -188,8 +189,16 @@ def trend_plunge_text(direction: np.ndarray) -> str:
     return f"{trend:03d}/{plunge:02d}"
 
 
+#: resolution of the PNG files (dots per inch)
+PNG_DPI = 150
+
+
 def save(fig, stem) -> list[str]:
-    """Write ``stem``.png and ``stem``.pdf and close the figure.
+    """Write ``stem``.png and ``stem``.pdf and close the figure, drawing it twice in all.
+
+    The PNG comes from one drawing on the Agg canvas (:func:`draw_png`), which also gives the
+    tight box around what was drawn; the PDF is drawn once with that box and the layout held.
+    ``savefig(bbox_inches="tight")`` per file would draw four times.
 
     Parameters
     ----------
@@ -203,12 +212,57 @@ def save(fig, stem) -> list[str]:
     list of str
         The files written.
     """
-    out = []
-    for ext in ("png", "pdf"):
-        path = f"{stem}.{ext}"
-        fig.savefig(path, dpi=150, bbox_inches="tight")
-        out.append(path)
-        if fig.get_layout_engine() is not None:
-            fig.set_layout_engine("none")     # the first file's layout holds for the second: computed once
+    out = [f"{stem}.png", f"{stem}.pdf"]
+    box = draw_png(fig, out[0])
+    if fig.get_layout_engine() is not None:
+        fig.set_layout_engine("none")       # the layout of the drawing holds for the PDF: computed once
+    fig.savefig(out[1], dpi=PNG_DPI, bbox_inches=box)
     plt.close(fig)
     return out
+
+
+def draw_png(fig, path) -> Bbox:
+    """Draw the figure once at ``PNG_DPI`` and write the tight box around it as a PNG; return the box.
+
+    The box is matplotlib's tight box of what was drawn plus its usual pad (``savefig.pad_inches``),
+    as ``savefig(bbox_inches="tight")`` takes it; the PNG is that box cut out of the drawn pixels,
+    the pad beyond the figure's edge in the figure's colour. When something was drawn beyond
+    the edge, ``savefig`` draws the file instead, widening the figure as it does.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        The figure (any layout engine runs during the drawing).
+    path : str or Path
+        The PNG file.
+
+    Returns
+    -------
+    matplotlib.transforms.Bbox
+        The box, in inches.
+    """
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from PIL import Image, PngImagePlugin
+
+    fig.set_dpi(PNG_DPI)
+    canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
+    canvas.draw()
+    tight = fig.get_tightbbox(canvas.get_renderer())
+    box = tight.padded(matplotlib.rcParams["savefig.pad_inches"])
+    pixels = np.asarray(canvas.buffer_rgba())
+    height, width = pixels.shape[:2]
+    if not (tight.x0 >= 0 and tight.y0 >= 0 and tight.x1 * PNG_DPI <= width + 0.5
+            and tight.y1 * PNG_DPI <= height + 0.5):
+        fig.savefig(path, dpi=PNG_DPI, bbox_inches=box)
+        return box
+    # the box in pixels, rows counted from the top; sized as savefig sizes its canvas (whole pixels)
+    left, bottom = int(round(box.x0 * PNG_DPI)), height - int(round(box.y0 * PNG_DPI))
+    right, top = left + int(box.width * PNG_DPI), bottom - int(box.height * PNG_DPI)
+    sheet = np.empty((bottom - top, right - left, 4), dtype=np.uint8)
+    sheet[:] = np.round(np.asarray(matplotlib.colors.to_rgba(fig.get_facecolor())) * 255).astype(np.uint8)
+    rows, cols = slice(max(top, 0), min(bottom, height)), slice(max(left, 0), min(right, width))
+    sheet[rows.start - top:rows.stop - top, cols.start - left:cols.stop - left] = pixels[rows, cols]
+    info = PngImagePlugin.PngInfo()
+    info.add_text("Software", f"matplotlib version{matplotlib.__version__}, https://matplotlib.org/")
+    Image.fromarray(sheet).save(path, format="png", pnginfo=info, dpi=(PNG_DPI, PNG_DPI))
+    return box

@@ -36,6 +36,13 @@ class Aggregate:
         (twin variants included), for the bootstrap.
     twins
         The twin laws applied, by mineral.
+    sums
+        Each mineral's weighted sums over its orientations (``elastic.phase_sums``), by mineral
+        name: what a map's pieces add up (``fabric2seis.pieces``).
+    fractions
+        The volume fraction of each mineral as the averages used it (renormalised), by name.
+    densities
+        Each mineral's density at the conditions, kg m^-3, by name.
     """
 
     tensors: dict[str, np.ndarray]
@@ -44,6 +51,9 @@ class Aggregate:
     crystal_tensors: dict[str, np.ndarray] | None = None
     crystal_matrices: dict[str, dict[str, np.ndarray]] | None = None
     twins: dict[str, list[str]] | None = None
+    sums: dict[str, elastic.WeightedSums] | None = None
+    fractions: dict[str, float] | None = None
+    densities: dict[str, float] | None = None
 
     @property
     def stiffness(self) -> np.ndarray:
@@ -147,14 +157,20 @@ def aggregate(orientation_sets, fractions: dict[str, float], average: str = "hil
         matrices[mineral.name] = elastic.crystal_kelvin_matrices(c, variants)
         f = fractions[mineral.name]
         parts.append(elastic.PhaseTensors(c, to_matrices(quat), weights, f, variants))
-        densities.append((f, rho))
-    tensors = elastic.average_tensors(parts)
+        densities.append((mineral.name, f, rho))
+    sums = [elastic.phase_sums(p) for p in parts]
+    tensors = elastic.averages_from_sums(sums, [p.fraction for p in parts])
     for name, t in tensors.items():
         elastic.check_stiffness(t, where=f"{name} average")
-    total = sum(f for f, _ in densities)
-    rho = sum(f * r for f, r in densities) / total
+    total = sum(f for _, f, _ in densities)
+    if not total > 0:
+        raise ValueError(f"phase fractions must have a positive sum: {fractions}")
+    rho = sum(f * r for _, f, r in densities) / total
     return Aggregate(tensors=tensors, density_kg_m3=float(rho), average=average, crystal_tensors=used,
-                     crystal_matrices=matrices, twins=twins)
+                     crystal_matrices=matrices, twins=twins,
+                     sums={name: one for (name, _, _), one in zip(densities, sums)},
+                     fractions={name: f / total for name, f, _ in densities},
+                     densities={name: float(r) for name, _, r in densities})
 
 
 @dataclass

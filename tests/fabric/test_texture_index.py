@@ -102,6 +102,21 @@ def test_dense_pair_sum_of_j_equals_the_harmonic_series():
             fabric.j_index(q, w, mineral.symmetry, method="harmonics"), rel=2e-5)
 
 
+def test_j_of_nested_subsets_in_one_pass_equals_the_pair_sum_of_each_subset():
+    # The convergence curve adds grains to the Fourier sums one subset after another; every
+    # subset's J must still be the integral of f^2 of that subset alone (Bunge 1982), here the
+    # independent pair sum over Phi with the subset's weights normalised on their own.
+    rng = np.random.default_rng(8)
+    q = fabric_orientations(OLIVINE, "olivine-A", 900, 35.0, seed=9)
+    w = rng.uniform(0.5, 2.0, 900)
+    sizes = [5, 40, 41, 300, 900]
+    nested = fabric.j_index_nested(q, w, OLIVINE.symmetry, sizes, 10.0)
+    for n, j in zip(sizes, nested):
+        assert j == pytest.approx(fabric.j_index(q[:n], w[:n], OLIVINE.symmetry, 10.0, method="pairs"), rel=2e-5)
+    with pytest.raises(ValueError, match="sizes must increase"):
+        fabric.j_index_nested(q, w, OLIVINE.symmetry, [10, 5], 10.0)
+
+
 # --- early errors (checked before any work) ----------------------------------------------------
 
 Q = random_quaternions(6, np.random.default_rng(4))

@@ -259,3 +259,33 @@ def test_splitting_and_stack_figures_have_no_text_on_text_and_settings_as_given(
     stack_figures.stack_figure("two", stack.sweep_stack(plan, field.read_measurements(DEMO_MEASUREMENTS)))
     assert "dominant period 8 s" in kept["two"]._suptitle.get_text()
     assert not overlapping(kept["two"])
+
+
+def test_png_cut_from_one_drawing_matches_matplotlibs_tight_savefig(tmp_path):
+    # projection.save draws a figure once for its PNG and cuts the tight box (with matplotlib's pad)
+    # out of the pixels; matplotlib's own savefig(bbox_inches="tight") is the reference: the same
+    # size in pixels, same picture (mean difference of the grey levels well below one level in 255).
+    import matplotlib.pyplot as plt
+    import numpy as np
+    from PIL import Image
+
+    from fabric2seis.figures.projection import PNG_DPI, draw_png
+
+    def sheet():
+        fig, axes = plt.subplots(1, 2, figsize=(6, 3), layout="constrained")
+        axes[0].imshow(np.arange(400.0).reshape(20, 20), cmap="viridis")
+        axes[1].plot([0, 1, 2], [2, 0, 1], color="tab:red")
+        axes[1].set_xlabel("a label at the foot")
+        fig.suptitle("a title at the top")
+        return fig
+
+    reference = sheet()
+    reference.savefig(tmp_path / "reference.png", dpi=PNG_DPI, bbox_inches="tight")
+    plt.close(reference)
+    ours = sheet()
+    draw_png(ours, tmp_path / "ours.png")
+    plt.close(ours)
+    a = np.asarray(Image.open(tmp_path / "reference.png").convert("L"), dtype=float)
+    b = np.asarray(Image.open(tmp_path / "ours.png").convert("L"), dtype=float)
+    assert a.shape == b.shape
+    assert np.mean(np.abs(a - b)) < 1.0

@@ -5,7 +5,7 @@ than 100 grains; a grain list; a quartz map with four hexagonal poles), the fiel
 of them, a two-layer stack over the grain list (as docs/examples/two_layer_stack.yaml does over
 the dunite), the predicted crossed-polar view of the quartz map, and the suite figure on the three.
 While they run, every text matplotlib draws is
-recorded with its box on the page (``Text.draw``), and each PNG written (``Figure.savefig``)
+recorded with its box on the page (``Text.draw``), and each PNG written (``projection.draw_png``, or ``Figure.savefig``)
 gets the list of pairs of boxes that overlap by more than ``TOLERANCE_PX`` in both directions.
 The check is on what is drawn, so tick labels outside the view, empty texts and hidden texts do
 not count. Every figure is its own test case, named after its file.
@@ -20,6 +20,7 @@ from matplotlib.figure import Figure
 from matplotlib.text import Text
 
 from fabric2seis import cli
+from fabric2seis.figures import projection
 from fabric2seis.figures.suite import suite_figure
 from fabric2seis.workflow.report_files import REPORT_FIGURES
 from fabric2seis.workflow.suite import suite_table
@@ -53,7 +54,7 @@ def recording_overlaps(out: Path):
     """While open, every PNG saved under ``out`` gets its list of overlapping texts (a dict by figure name)."""
     drawn: dict[int, tuple[str, tuple[float, float, float, float]]] | None = None
     results: dict[str, list[str]] = {}
-    draw_text, save_figure = Text.draw, Figure.savefig
+    draw_text = Text.draw
 
     def recording_draw(self, renderer):
         draw_text(self, renderer)
@@ -61,20 +62,24 @@ def recording_overlaps(out: Path):
             box = Text.get_window_extent(self, renderer)          # the text alone, not an arrow of an annotation
             drawn[id(self)] = (self.get_text(), (box.x0, box.y0, box.x1, box.y1))
 
-    def recording_save(self, fname, *args, **kwargs):
-        nonlocal drawn
-        if not str(fname).endswith(".png"):
-            return save_figure(self, fname, *args, **kwargs)
-        drawn = {}
-        try:
-            save_figure(self, fname, *args, **kwargs)     # the last draw of each text is the one on the page
-            results[figure_name(Path(fname).relative_to(out))] = overlapping_pairs(list(drawn.values()))
-        finally:
-            drawn = None
+    def recording(write):
+        def write_and_record(fig, fname, *args, **kwargs):
+            nonlocal drawn
+            if not str(fname).endswith(".png") or drawn is not None:      # a PDF, or savefig inside draw_png
+                return write(fig, fname, *args, **kwargs)
+            drawn = {}
+            try:
+                box = write(fig, fname, *args, **kwargs)     # the last draw of each text is the one on the page
+                results[figure_name(Path(fname).relative_to(out))] = overlapping_pairs(list(drawn.values()))
+            finally:
+                drawn = None
+            return box
+        return write_and_record
 
     with pytest.MonkeyPatch.context() as patch:
         patch.setattr(Text, "draw", recording_draw)
-        patch.setattr(Figure, "savefig", recording_save)
+        patch.setattr(Figure, "savefig", recording(Figure.savefig))
+        patch.setattr(projection, "draw_png", recording(projection.draw_png))   # PNGs of projection.save
         yield results
 
 

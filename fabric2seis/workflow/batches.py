@@ -23,6 +23,7 @@ import logging
 import os
 from collections.abc import Callable
 from dataclasses import dataclass, replace
+from functools import partial
 from pathlib import Path
 
 from fabric2seis import __version__
@@ -142,7 +143,7 @@ def run_batch(members: list[BatchMember], run: Callable[[BatchMember], object], 
         handler.setFormatter(logging.Formatter("%(asctime)s %(message)s"))
         root.addHandler(handler)
         try:
-            status = run_and_record(lambda member=member: run(member), member.status_file, member.sample, member.out,
+            status = run_and_record(partial(run, member), member.status_file, member.sample, member.out,
                                     "sample", "summary.json", member.results_check, member.log_file, inputs)
         finally:
             root.removeHandler(handler)

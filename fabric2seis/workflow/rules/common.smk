@@ -19,10 +19,10 @@ RESULTS = config.get("results_dir", "results")
 SAMPLES = discover_samples(SAMPLES_DIR)
 MEASUREMENTS = discover_measurements(SAMPLES_DIR)
 STACKS = discover_stacks(RESULTS)     # folders of `fabric2seis field --stack` in the results, for the report
-# small samples computed several to a job (config small_samples; rules/sample.smk, workflow/batches.py)
+# small samples computed several to a job (config small_samples; the batch rules of sample.smk, workflow.batches)
 BATCHES = sample_batches(SAMPLES, int((config.get("small_samples") or {}).get("per_job", 1)),
                          float((config.get("small_samples") or {}).get("max_size_kb", 256.0)))
-# a forced run computes every member of a batch again, not only those whose inputs changed (batches.py);
+# a forced run computes every member of a batch again, not only those whose inputs changed (workflow.batches);
 # an environment variable of the jobs, not a parameter, so that it is no rerun trigger of the next plan
 _dag_settings = getattr(workflow, "dag_settings", None)
 if _dag_settings is not None and (_dag_settings.forceall or _dag_settings.forcetargets or _dag_settings.forcerun):
@@ -39,7 +39,7 @@ def settings_digest(wildcards):
 
 
 def sample_settings_digest(sample):
-    """Digest of a sample's sidecar text and the defaults (settings_digest).
+    """Digest of the sidecar text of a sample and the defaults (settings_digest).
 
     The config's optics block is left out: it changes only the optics of the samples; and so is
     small_samples, which changes only how the samples are shared among jobs.

@@ -49,8 +49,8 @@ for _number, _members in enumerate(BATCHES, 1):
             results_check=lambda wildcards, members=tuple(_members): [
                 results_state(f"{RESULTS}/status/{name}.json", f"{RESULTS}/{name}") for name in members],
             outs=lambda wildcards, output: [str(Path(path).parent.parent / Path(path).stem) for path in output.status],
-            logs=lambda wildcards, output: [str(Path(path).parent.parent / "logs" / "sample" / Path(path).name)
-                                            .removesuffix(".json") + ".log" for path in output.status],
+            logs=lambda wildcards, output: [str((Path(path).parent.parent / "logs" / "sample" / Path(path).name)
+                                                .with_suffix(".log")) for path in output.status],
             results_root=lambda wildcards, output: str(Path(output.status[0]).parent.parent),
         log:
             f"{RESULTS}/logs/sample_batch/{_number}.log",

@@ -22,11 +22,14 @@ STACKS = discover_stacks(RESULTS)     # folders of `fabric2seis field --stack` i
 # small samples computed several to a job (config small_samples; the batch rules of sample.smk, workflow.batches)
 BATCHES = sample_batches(SAMPLES, int((config.get("small_samples") or {}).get("per_job", 1)),
                          float((config.get("small_samples") or {}).get("max_size_kb", 256.0)))
-# a forced run computes every member of a batch again, not only those whose inputs changed (workflow.batches);
-# an environment variable of the jobs, not a parameter, so that it is no rerun trigger of the next plan
-_dag_settings = getattr(workflow, "dag_settings", None)
-if _dag_settings is not None and (_dag_settings.forceall or _dag_settings.forcetargets or _dag_settings.forcerun):
-    os.environ[RECOMPUTE_VARIABLE] = "1"
+
+
+onstart:
+    # a forced run (--forceall, --forcerun, --force) computes every member of a batch again, not only those
+    # whose inputs changed (workflow.batches): an environment variable of the jobs, set once the plan is
+    # known, and not a parameter, which would be a rerun trigger of the next plan
+    if workflow.dag_settings.forceall or workflow.dag_settings.forcetargets or workflow.dag_settings.forcerun:
+        os.environ[RECOMPUTE_VARIABLE] = "1"
 
 
 def sample_input(wildcards):

@@ -407,3 +407,6 @@ def test_batched_small_samples_keep_their_own_outputs_failures_and_tracking(tmp_
     assert (results / "s1" / "summary.json").stat().st_mtime_ns != before[1]
     assert "Nothing to be done" in subprocess.run(cmd + ["-n"], cwd=ROOT, capture_output=True, text=True,
                                                   timeout=300).stdout
+    report = subprocess.run([sys.executable, "-m", "snakemake", "--report", str(results / "report.html"), *config],
+                            cwd=ROOT, capture_output=True, text=True, timeout=600)
+    assert report.returncode == 0 and (results / "report.html").stat().st_size > 100_000, report.stderr[-2000:]

@@ -45,6 +45,21 @@ def test_the_workflow_sample_script_imports_no_heavy_library_before_it_works():
     assert loaded_after(statements) == []
 
 
+def test_the_workflow_batch_script_imports_no_heavy_library_before_it_works():
+    # several small samples in one process (config small_samples): the same light start as a sample job
+    statements = script_imports(SCRIPTS / "run_sample_batch.py")
+    assert any("fabric2seis.workflow.batches" in s for s in statements)
+    assert loaded_after(statements) == []
+
+
+def test_the_report_job_of_a_sample_and_the_snakefile_s_helpers_import_no_heavy_library():
+    # sample_report.py copies files and writes two small tables: no pandas (the csv module writes them);
+    # the Snakefile imports the same module for the labels of the report
+    statements = script_imports(SCRIPTS / "sample_report.py")
+    assert any("fabric2seis.workflow.report_files" in s for s in statements)
+    assert loaded_after(statements) == []
+
+
 def test_the_point_group_names_known_without_orix_are_orix_s_groups_in_order():
     # POINT_GROUP_NAMES answers "is this a point group" before orix is imported; it must stay the
     # names of orix's 38 groups (orix.quaternion.symmetry, the reference library) in the same order

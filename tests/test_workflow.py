@@ -393,3 +393,58 @@ def test_a_sample_job_hands_its_threads_to_the_run(tmp_path):
                          cwd=ROOT, capture_output=True, text=True, timeout=900)
     assert run.returncode == 0, run.stderr[-2000:]
     assert (results / "s0" / "run.log").read_text().splitlines()[0].endswith("on 2 threads")
+
+
+def test_batched_small_samples_keep_their_own_outputs_failures_and_tracking(tmp_path):
+    # config small_samples: four grain lists and a bad file, three to a job -> two batch jobs in name order,
+    # [broken, s0, s1] and [s2, s3]; every sample keeps the contract's outputs of its own (CONTRACT.md)
+    samples, results = _small_suite(tmp_path, n_samples=4)
+    (samples / "broken.ctf").write_bytes(b"\x00\x01\x02 not a ctf")
+    config = ["--config", f"samples_dir={samples}", f"results_dir={results}", "small_samples={per_job: 3}"]
+    cmd = [sys.executable, "-m", "snakemake", "--cores", "2", *config]
+    run = subprocess.run(cmd + ["-q"], cwd=ROOT, capture_output=True, text=True, timeout=900)
+    assert run.returncode == 0, run.stderr[-2000:]
+    assert sorted(p.name for p in (results / "benchmarks" / "sample_batch").iterdir()) == ["1.tsv", "2.tsv"]
+    assert not (results / "benchmarks" / "sample").exists()            # no job of a single sample
+    status = pd.read_csv(results / "suite_summary.csv").set_index("sample")["status"].to_dict()
+    assert sorted(status) == ["broken", "s0", "s1", "s2", "s3"]
+    assert "broken.ctf" in status["broken"] and "not a text file" in status["broken"]
+    assert not (results / "broken").exists()
+    assert (results / "report_parts" / "samples" / "broken" / "error.csv").is_file()
+    for k in range(4):
+        assert status[f"s{k}"] == "ok"
+        assert json.loads((results / f"s{k}" / "summary.json").read_text())["sample"] == f"s{k}"
+        assert json.loads((results / "status" / f"s{k}.json").read_text())["status"] == "ok"
+        assert (results / "report_parts" / "samples" / f"s{k}" / "key_numbers.csv").is_file()
+        assert "done, results in" in (results / "logs" / "sample" / f"s{k}.log").read_text()
+    # the third sample of a process gives the bytes of a process of its own
+    direct = tmp_path / "direct"
+    subprocess.run([sys.executable, "-m", "fabric2seis", "sample", str(samples / "s1.csv"), "--out", str(direct)],
+                   cwd=ROOT, check=True, capture_output=True)
+    assert (results / "s1" / "summary.json").read_bytes() == (direct / "summary.json").read_bytes()
+
+    # a new sample joins the second batch: only that batch runs, and it computes only the new sample
+    ol = find_mineral("olivine")
+    write_table(samples / "s4.csv", fabric_orientations(ol, "olivine-C", 100, 20.0, seed=9), ["olivine"] * 100)
+    dry = subprocess.run(cmd + ["-n"], cwd=ROOT, capture_output=True, text=True, timeout=300)
+    assert re.findall(r"^rule (sample_batch_\d+|sample):", dry.stdout + dry.stderr, re.M) == ["sample_batch_2"], \
+        dry.stdout[-1500:]
+    before = {k: (results / f"s{k}" / "summary.json").stat().st_mtime_ns for k in range(4)}
+    assert subprocess.run(cmd + ["-q"], cwd=ROOT, capture_output=True, timeout=900).returncode == 0
+    assert json.loads((results / "s4" / "summary.json").read_text())["sample"] == "s4"
+    assert {k: (results / f"s{k}" / "summary.json").stat().st_mtime_ns for k in range(4)} == before
+    assert "s2: inputs and results unchanged" in (results / "logs" / "sample_batch" / "2.log").read_text()
+
+    # a deleted results file reruns its batch, which computes that sample alone; a forced run computes all
+    (results / "s0" / "velocities.csv").unlink()
+    assert subprocess.run(cmd + ["-q"], cwd=ROOT, capture_output=True, timeout=900).returncode == 0
+    assert (results / "s0" / "velocities.csv").is_file()
+    assert (results / "s1" / "summary.json").stat().st_mtime_ns == before[1]
+    assert subprocess.run(cmd + ["-q", "--forcerun", "sample_batch_1"], cwd=ROOT, capture_output=True,
+                          timeout=900).returncode == 0
+    assert (results / "s1" / "summary.json").stat().st_mtime_ns != before[1]
+    assert "Nothing to be done" in subprocess.run(cmd + ["-n"], cwd=ROOT, capture_output=True, text=True,
+                                                  timeout=300).stdout
+    report = subprocess.run([sys.executable, "-m", "snakemake", "--report", str(results / "report.html"), *config],
+                            cwd=ROOT, capture_output=True, text=True, timeout=600)
+    assert report.returncode == 0 and (results / "report.html").stat().st_size > 100_000, report.stderr[-2000:]

@@ -7,21 +7,24 @@ subcategory per station, and one for all stations) and Stacks (one subcategory p
 in the results). Every file gathered here has a stable name, so that an entry's caption and
 labels follow from its name alone.
 
-Kept apart from ``suite`` so that the workflow's gathering jobs import only pandas (a second,
-not three, per job).
+Kept apart from ``suite``. pandas is imported by the functions that build tables, not here: the
+Snakefile imports this module for the labels, and a sample's gathering job (``gather_report_files``)
+writes its two small tables with the csv module, so that it starts in a fraction of a second.
 """
 
 from __future__ import annotations
 
+import csv
 import hashlib
 import json
 import shutil
 from pathlib import Path
-from typing import Any
-
-import pandas as pd
+from typing import TYPE_CHECKING, Any
 
 from fabric2seis.workflow.status import read_status, read_statuses
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 # What of a sample's results goes into the workflow report: its figures (PNG) and small tables.
 # velocities.csv and grains.csv stay in results/<sample>/: they would make the report tens of MB.
@@ -30,7 +33,7 @@ REPORT_FIGURES = ("map_overview", "pole_figures", "inverse_pole_figures", "fabri
 REPORT_TABLES = ("splitting_vs_backazimuth",)
 
 
-def key_numbers(summary: dict) -> pd.DataFrame:
+def key_number_rows(summary: dict) -> list[dict[str, Any]]:
     """Build a short table of one sample's main numbers: quantity, value, 95 % interval, unit.
 
     Parameters
@@ -40,9 +43,9 @@ def key_numbers(summary: dict) -> pd.DataFrame:
 
     Returns
     -------
-    pandas.DataFrame
-        Columns quantity, value, low, high, unit (km/s, %, s, degrees, kg m^-3 or none); the first
-        row is the status, the last ones the cautions.
+    list of dict
+        Rows with keys quantity, value, low, high, unit (km/s, %, s, degrees, kg m^-3 or none); the
+        first row is the status, the last ones the cautions.
 
     Raises
     ------
@@ -91,7 +94,23 @@ def key_numbers(summary: dict) -> pd.DataFrame:
         else:
             low, high = interval.get(key, (None, None)) if key else (None, None)
         table.append({"quantity": quantity, "value": value, "low": low, "high": high, "unit": unit})
-    return pd.DataFrame(table)
+    return table
+
+
+def key_numbers(summary: dict) -> pd.DataFrame:
+    """The rows of :func:`key_number_rows` as a table (pandas.DataFrame)."""
+    import pandas as pd
+
+    return pd.DataFrame(key_number_rows(summary))
+
+
+def write_small_table(path: Path, rows: list[dict[str, Any]]) -> Path:
+    """Write rows (dicts of the same keys) as CSV: a header, empty cells for None (as pandas writes them)."""
+    with path.open("w", newline="", encoding="utf-8") as handle:
+        writer = csv.DictWriter(handle, fieldnames=list(rows[0]), lineterminator="\n")
+        writer.writeheader()
+        writer.writerows(rows)
+    return path
 
 
 def gather_report_files(status_file: str | Path, out_dir: str | Path) -> list[Path]:
@@ -118,11 +137,10 @@ def gather_report_files(status_file: str | Path, out_dir: str | Path) -> list[Pa
     out.mkdir(parents=True, exist_ok=True)
     if not status.ok or status.folder is None:
         error = out / "error.csv"
-        pd.DataFrame([{"sample": status.sample, "status": "failed", "error": status.status}]).to_csv(error, index=False)
-        return [error]
+        return [write_small_table(error, [{"sample": status.sample, "status": "failed", "error": status.status}])]
     results = status.folder
-    written = [out / "key_numbers.csv"]
-    key_numbers(json.loads((results / "summary.json").read_text())).to_csv(written[0], index=False)
+    written = [write_small_table(out / "key_numbers.csv", key_number_rows(json.loads((results / "summary.json")
+                                                                                     .read_text())))]
     for name in REPORT_FIGURES:
         if (results / f"{name}.png").is_file():         # the splitting figure needs field settings
             written.append(Path(shutil.copyfile(results / f"{name}.png", out / f"{name}.png")))
@@ -217,6 +235,8 @@ def suite_overview(status_files: list[str | Path], config: dict, version: str) -
         ``fabric2seis`` (version), ``settings_digest`` (of the config), ``samples``, ``ok``,
         ``failed`` (counts) and ``failed_samples`` (names).
     """
+    import pandas as pd
+
     rows = []
     for status in read_statuses(status_files):
         row: dict[str, Any] = {"sample": status.sample, "status": "ok" if status.ok else "failed",
@@ -318,6 +338,8 @@ def gather_field_report_files(field_dir: str | Path, out_dir: str | Path) -> lis
     list of Path
         The files written.
     """
+    import pandas as pd
+
     field_dir, out = Path(field_dir), Path(out_dir)
     fits = json.loads((field_dir / "field_fit.json").read_text())["fits"]
     (out / "all").mkdir(parents=True, exist_ok=True)
@@ -362,6 +384,8 @@ def fit_table(fits: dict) -> pd.DataFrame:
         its 68 % interval, foliation and its verdict, sense_verdict, reduced_chi_square, poor_fit
         and the reasons.
     """
+    import pandas as pd
+
     rows = []
     for sample, stations in fits.items():
         for station, m in stations.items():
@@ -462,6 +486,8 @@ def gather_optics_report_files(status_file: str | Path, out_dir: str | Path) -> 
     list of Path
         The files written.
     """
+    import pandas as pd
+
     status = read_status(status_file)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)

@@ -12,7 +12,10 @@ Beside it, ``results/status/manifests/<sample>.json`` (not a declared output, so
 it in place) repeats these and adds
 
 - ``manifest``: every file of the results folder, by path relative to it, with its size in bytes;
-- ``results_check``: the value of the rule's ``results_check`` parameter the job ran with.
+- ``results_check``: the value of the rule's ``results_check`` parameter the job ran with;
+- ``inputs``: a digest of what the sample's results follow from (its EBSD file, its settings digest
+  and the fabric2seis version; ``batches.inputs_digest``), written by the jobs that compute several
+  samples, empty otherwise: such a job keeps a sample whose digest and results are unchanged.
 
 :func:`results_state` gives that parameter from the manifest file and the results folder: the
 value recorded while the folder holds every file of its manifest at its recorded size (or the
@@ -52,6 +55,7 @@ class SampleStatus:
     summary: str | None = None
     manifest: dict[str, int] = field(default_factory=dict)
     results_check: str = AS_RECORDED
+    inputs: str = ""
 
     @property
     def ok(self) -> bool:
@@ -136,7 +140,8 @@ def _status_from(data, path: Path) -> SampleStatus:
         raise ValueError(f"{path} is not a workflow status file")
     return SampleStatus(sample=data["sample"], status=data["status"], summary=data.get("summary"),
                         manifest={str(k): int(v) for k, v in (data.get("manifest") or {}).items()},
-                        results_check=str(data.get("results_check", AS_RECORDED)))
+                        results_check=str(data.get("results_check", AS_RECORDED)),
+                        inputs=str(data.get("inputs", "")))
 
 
 def read_status(path: str | Path) -> SampleStatus:
@@ -224,7 +229,7 @@ def failure_line(exc: BaseException, log_file: str | Path) -> str:
 
 
 def run_and_record(run: Callable[[], object], status_file: str | Path, sample: str, out: str | Path, kind: str,
-                   summary_name: str, results_check: str, log_file: str | Path) -> SampleStatus:
+                   summary_name: str, results_check: str, log_file: str | Path, inputs: str = "") -> SampleStatus:
     """Run one sample and write its status file, whatever happens, so that one sample does not stop the suite.
 
     Bad input and program errors become the status line (a program error's traceback goes to the
@@ -249,6 +254,8 @@ def run_and_record(run: Callable[[], object], status_file: str | Path, sample: s
         The rule's ``results_check`` parameter as the job was planned (:func:`results_state`).
     log_file : str or Path
         The rule's log.
+    inputs : str
+        Digest of what the results follow from, recorded in the manifest (``batches.inputs_digest``).
 
     Returns
     -------
@@ -258,14 +265,14 @@ def run_and_record(run: Callable[[], object], status_file: str | Path, sample: s
     out = Path(out)
     try:
         run()
-        status = SampleStatus(sample, "ok", str(out / summary_name), folder_manifest(out), results_check)
+        status = SampleStatus(sample, "ok", str(out / summary_name), folder_manifest(out), results_check, inputs)
     except Exception as exc:
         if isinstance(exc, InputError):
             logging.error(exc.one_line())
         else:
             logging.exception("program error")
         remove_results(out, kind)
-        status = SampleStatus(sample, failure_line(exc, log_file), None, {}, results_check)
+        status = SampleStatus(sample, failure_line(exc, log_file), None, {}, results_check, inputs)
     write_status(status_file, status)
     return status
 

@@ -1,6 +1,7 @@
 # Discovery of samples and the per-sample settings digest (reruns a sample when its settings change).
 import hashlib
 import json
+import os
 from pathlib import Path
 
 import yaml
@@ -10,6 +11,7 @@ from fabric2seis.settings import sidecar_of
 from fabric2seis import __version__
 from fabric2seis.workflow.report_files import (discover_stacks, entry_title, field_entry_labels, sample_entry_labels,
                                                suite_labels)
+from fabric2seis.workflow.batches import RECOMPUTE_VARIABLE, sample_batches
 from fabric2seis.workflow.status import results_state
 from fabric2seis.workflow.suite import discover_measurements, discover_samples, sample_threads
 
@@ -18,6 +20,17 @@ RESULTS = config.get("results_dir", "results")
 SAMPLES = discover_samples(SAMPLES_DIR)
 MEASUREMENTS = discover_measurements(SAMPLES_DIR)
 STACKS = discover_stacks(RESULTS)     # folders of `fabric2seis field --stack` in the results, for the report
+# small samples computed several to a job (config small_samples; the batch rules of sample.smk, workflow.batches)
+BATCHES = sample_batches(SAMPLES, int((config.get("small_samples") or {}).get("per_job", 1)),
+                         float((config.get("small_samples") or {}).get("max_size_kb", 256.0)))
+
+
+onstart:
+    # a forced run (--forceall, --forcerun, --force) computes every member of a batch again, not only those
+    # whose inputs changed (workflow.batches): an environment variable of the jobs, set once the plan is
+    # known, and not a parameter, which would be a rerun trigger of the next plan
+    if workflow.dag_settings.forceall or workflow.dag_settings.forcetargets or workflow.dag_settings.forcerun:
+        os.environ[RECOMPUTE_VARIABLE] = "1"
 
 
 def sample_input(wildcards):
@@ -34,13 +47,19 @@ def sample_job_threads(wildcards, input):
 
 
 def settings_digest(wildcards):
-    """Digest of the sidecar text and the defaults: Snakemake reruns a sample when it changes.
+    """Digest of the sidecar text and the defaults: Snakemake reruns a sample when it changes."""
+    return sample_settings_digest(wildcards.sample)
 
-    The config's optics block is left out: it changes only the optics of the samples.
+
+def sample_settings_digest(sample):
+    """Digest of the sidecar text of a sample and the defaults (settings_digest).
+
+    The config's optics block is left out: it changes only the optics of the samples; and so is
+    small_samples, which changes only how the samples are shared among jobs.
     """
-    sidecar = sidecar_of(SAMPLES[wildcards.sample])
+    sidecar = sidecar_of(SAMPLES[sample])
     text = sidecar.read_bytes() if sidecar.is_file() else b""   # bytes: a sidecar in any encoding
-    sample_config = {k: v for k, v in config.items() if k != "optics"}
+    sample_config = {k: v for k, v in config.items() if k not in ("optics", "small_samples")}
     return hashlib.sha256(text + json.dumps(sample_config, sort_keys=True).encode()
                           + mineral_files_bytes(config.get("minerals_dir"), sidecar)).hexdigest()[:16]
 

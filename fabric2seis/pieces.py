@@ -36,6 +36,9 @@ SUMS_FILE = "weighted_sums.json"
 SUMS_VERSION = 1
 #: settings keys that change none of the combined numbers: pieces may differ in them
 FREE_KEYS = ("bootstrap", "figures", "odf", "samples_dir", "results_dir", "allow_outside_paths", "optics")
+#: settings of the suite's folders and jobs, not of the sample: left out of the file, so that the
+#: suite and ``fabric2seis sample`` write the same bytes wherever the folders are
+WORKFLOW_KEYS = ("samples_dir", "results_dir", "small_samples")
 #: the three sums of a mineral, by their key in the file
 SUM_KEYS = {"stiffness": "stiffness_sum", "compliance": "compliance_sum", "log": "log_stiffness_sum"}
 #: what a combination does not give, and why (summary.json of the combination, key not_combined)
@@ -125,7 +128,7 @@ def sums_record(sample: Sample, seismic: SeismicResult, summary: dict, input_sha
         "conditions": summary["conditions"],
         "twins": seismic.summary["twins"],
         "cautions": sample_cautions(p.minerals, summary["conditions"]["assumptions"], []),
-        "settings": st,
+        "settings": {k: v for k, v in st.items() if k not in WORKFLOW_KEYS},
         "phases": phases,
     }
 

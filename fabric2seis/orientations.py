@@ -150,7 +150,7 @@ def misorientation_angles(qa: np.ndarray, qb: np.ndarray, sym: np.ndarray) -> np
     Both crystals share the proper symmetry ``sym`` (K, 4). The angle of ``s_1 dq s_2`` depends
     only on ``s_2 s_1 dq`` up to conjugation, so the minimum over both crystals' operations is
     the minimum over one: the largest |w| of ``s * dq`` over s, with ``dq = qb * conj(qa)``; and
-    ``w(s * qb * conj(qa)) = (s * qb) . qa``, which needs no product with ``qa``.
+    ``w(s * dq) = s_w dq_w - s_v . dq_v``, one matrix product of dq with the operations' conjugates.
 
     Parameters
     ----------

@@ -1,3 +1,3 @@
-from fabric2seis.cli import main
+from fabric2seis.cli import console
 
-raise SystemExit(main())
+console()

@@ -580,3 +580,26 @@ def main(argv: list[str] | None = None) -> int:
     except InputError as exc:
         print(f"fabric2seis {args.command}: error: {exc.one_line()}", file=sys.stderr)
         return 2
+
+
+#: commands whose process ends without the interpreter's clean-up (``console``): they hold large
+#: arrays whose freeing one by one takes about a second at 10^6 pixels, and they leave nothing open
+FAST_EXIT_COMMANDS = ("sample", "combine")
+
+
+def console() -> None:
+    """The ``fabric2seis`` console script (also ``python -m fabric2seis``): :func:`main`, then exit.
+
+    After ``sample`` and ``combine`` the process leaves with ``os._exit`` once its output is
+    flushed: every file they write is closed and moved into place before :func:`main` returns,
+    and the interpreter's own clean-up (freeing the stages' arrays object by object) would only
+    add about a second at 10^6 pixels. Other commands exit normally.
+    """
+    code = main()
+    if len(sys.argv) > 1 and sys.argv[1] in FAST_EXIT_COMMANDS:
+        try:
+            sys.stdout.flush()
+            sys.stderr.flush()
+        finally:
+            os._exit(code)
+    raise SystemExit(code)

@@ -617,7 +617,8 @@ class RunLog:
             self.say(f"wrote {', '.join(new)} in {seconds:.2f} s")
 
 
-def analyse_sample(sample: Sample, progress: Progress | None = None, bars: BarMaker | None = None
+def analyse_sample(sample: Sample, progress: Progress | None = None, bars: BarMaker | None = None,
+                   before_bootstrap: Callable[[FabricResult, SeismicResult], None] | None = None
                    ) -> tuple[FabricResult, SeismicResult, Intervals, dict]:
     """Run the stages after ingestion: fabric, seismic, bootstrap, and assemble ``summary.json``'s contents.
 
@@ -629,6 +630,9 @@ def analyse_sample(sample: Sample, progress: Progress | None = None, bars: BarMa
         Called with a message at each step.
     bars : callable, optional
         Draws progress bars of the long stages (``progress.terminal_bars``).
+    before_bootstrap : callable, optional
+        Called with the fabric and seismic results before the bootstrap starts (``fabric2seis
+        sample`` starts drawing its figures there: ``sample_output.SampleFigures``).
 
     Returns
     -------
@@ -646,6 +650,8 @@ def analyse_sample(sample: Sample, progress: Progress | None = None, bars: BarMa
     budget.check_bootstrap(sample.settings, [len(s.quat) for s in orientation_sets(sample, "grain_area")], source)
     fabric = fabric_stage(sample, progress, bars)
     seismic = seismic_stage(sample, progress)
+    if before_bootstrap is not None:
+        before_bootstrap(fabric, seismic)
     intervals = uncertainty_stage(sample, seismic, progress, bars)
     return fabric, seismic, intervals, sample_summary(sample, fabric, seismic, intervals)
 
@@ -705,7 +711,7 @@ def _run_sample(path: str | Path, settings_path: str | Path | None, out_dir: str
                 progress: Progress | None, defaults: dict | None, results_root: str | Path | None,
                 bars: BarMaker | None, minerals_dir: str | Path | None) -> Path:
     """The work of :func:`run_sample`, within its threads."""
-    from fabric2seis.sample_output import write_results
+    from fabric2seis.sample_output import SampleFigures, write_results
 
     path, log = Path(path), RunLog(progress)
     checked_sample_name(path)
@@ -717,7 +723,8 @@ def _run_sample(path: str | Path, settings_path: str | Path | None, out_dir: str
     inputs: list[str | Path] = [path, *([settings_file] if settings_file else [])]
     check_destination(out, "sample", inputs, results_root)
     sample = ingest(path, settings, settings_file, log.say)
-    fabric, seismic, intervals, summary = analyse_sample(sample, log.say, bars)
-    for note in summary["cautions"]:
-        log.say(f"caution: {note}")
-    return write_results(out, path, sample, fabric, seismic, summary, log, inputs, results_root)
+    with SampleFigures(sample, log) as figures:     # drawn alongside the bootstrap when the run has 2 threads
+        fabric, seismic, intervals, summary = analyse_sample(sample, log.say, bars, before_bootstrap=figures.start)
+        for note in summary["cautions"]:
+            log.say(f"caution: {note}")
+        return write_results(out, path, sample, fabric, seismic, summary, log, inputs, results_root, figures)

@@ -11,6 +11,7 @@ from __future__ import annotations
 import hashlib
 import json
 import sys
+import time
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -23,6 +24,7 @@ from fabric2seis.stages import FabricResult, Intervals, Sample, SeismicResult, p
 
 if TYPE_CHECKING:
     from fabric2seis.pipeline import RunLog
+    from fabric2seis.second_process import SecondProcess
     from fabric2seis.waves.seismic import Aggregate
 
 
@@ -304,8 +306,9 @@ def stiffness_record(agg: Aggregate) -> dict:
 
 
 def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, seismic: SeismicResult,
-                  summary: dict, log: RunLog, inputs: list, results_root: str | Path | None) -> Path:
-    """Write every file of a sample's results folder, whole or not at all.
+                  summary: dict, log: RunLog, inputs: list, results_root: str | Path | None,
+                  figures: SampleFigures | None = None) -> Path:
+    """Write every file of a sample's results folder, whole or not at all: the tables, then the figures.
 
     Parameters
     ----------
@@ -323,6 +326,9 @@ def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, s
         Files the run read (the destination may not hold them).
     results_root : str or Path or None
         The suite's results folder, never replaced.
+    figures : SampleFigures, optional
+        The figures, perhaps already being drawn in a second process; drawn here, after the
+        tables, when not given.
 
     Returns
     -------
@@ -332,20 +338,16 @@ def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, s
     Raises
     ------
     InputError
-        If the destination is refused (:func:`folders.check_destination`).
+        If the destination is refused (:func:`folders.folder_written_whole`).
     """
-    from fabric2seis.figures.map_overview import map_overview_figure
     from fabric2seis.ingest.grains import grains_table
     from fabric2seis.tables import write_tensor_texts
 
     agg = seismic.aggregate
     with folder_written_whole(out, "sample", inputs, results_root) as tmp:
-        log.say("writing tables and figures")
+        log.say("writing tables")
         write_json(tmp / "summary.json", summary)
         log.wrote(tmp)              # run.log: each file written, with the seconds it took
-        fabric_figures(tmp, sample.name, fabric, sample, log)
-        map_overview_figure(tmp / "map_overview", sample)     # maps only: a grain list has no map
-        log.wrote(tmp)
         stiffness = stiffness_record(agg)
         write_json(tmp / "stiffness.json", stiffness)
         write_tensor_texts(stiffness, tmp, sample.name)     # the same numbers as plain 6x6 text
@@ -356,33 +358,179 @@ def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, s
         seismic.grid.table().to_csv(tmp / "velocities.csv", index=False)
         log.wrote(tmp)
         if seismic.sweep is not None and seismic.field is not None:
-            write_sweep(tmp, sample.name, seismic, log)
-        from fabric2seis.figures.velocities import velocity_figure
-
-        velocity_figure(tmp / "velocities", sample.name, agg.stiffness, agg.density_kg_m3, agg.average,
-                        int(summary["n_grains"]), panels=velocity_panels(sample.settings), grid=seismic.grid)
-        log.wrote(tmp)
+            write_sweep_table(tmp, seismic)
+            log.wrote(tmp)
         write_json(tmp / "provenance.json", record)
         log.wrote(tmp)
         if sample.grains is not None:
             grains_table(sample.grains, sample.points.minerals).to_csv(tmp / "grains.csv", index=False)
             log.wrote(tmp)
+        (figures or SampleFigures(sample, log)).write_into(tmp, fabric, seismic)
         log.say(f"done, results in {out}")
         (tmp / "run.log").write_text("\n".join(log.lines) + "\n")
     return out
 
 
-def write_sweep(folder: Path, sample_name: str, seismic: SeismicResult, log: RunLog) -> None:
-    """The splitting of the placed layer against back-azimuth: table and figure."""
-    import pandas as pd
+def draw_sample_figures(folder: Path, sample: Sample, fabric: FabricResult, seismic: SeismicResult,
+                        log: RunLog) -> None:
+    """Draw every figure of a sample's results folder into ``folder``, logging each file written.
 
-    from fabric2seis.figures.splitting import splitting_figure
+    Parameters
+    ----------
+    folder : Path
+        Where the figures go.
+    sample, fabric, seismic
+        The stages' results (the bootstrap is not needed).
+    log : RunLog
+        Logs each figure with the seconds it took.
+    """
+    from fabric2seis.figures.map_overview import map_overview_figure
+    from fabric2seis.figures.velocities import velocity_figure
+
+    log.say("drawing figures")
+    fabric_figures(folder, sample.name, fabric, sample, log)
+    map_overview_figure(folder / "map_overview", sample)     # maps only: a grain list has no map
+    log.wrote(folder)
+    if seismic.sweep is not None and seismic.field is not None:
+        from fabric2seis.figures.splitting import splitting_figure
+
+        splitting_figure(folder / "splitting_vs_backazimuth", sample.name, seismic.sweep, seismic.field)
+        log.wrote(folder)
+    agg = seismic.aggregate
+    n_grains = int(sample.grains.n_grains) if sample.grains is not None else int(len(sample.points.quat))
+    velocity_figure(folder / "velocities", sample.name, agg.stiffness, agg.density_kg_m3, agg.average,
+                    n_grains, panels=velocity_panels(sample.settings), grid=seismic.grid)
+    log.wrote(folder)
+
+
+class SampleFigures:
+    """A sample's figures: drawn in a second process while the bootstrap runs, or at the end.
+
+    :meth:`start` (called once the seismic stage is done) forks when the run may use two threads
+    (``second_process.can_fork``); the second process draws into a scratch folder in the system's
+    temporary space and returns its log lines. :meth:`write_into` then waits for it and moves
+    the figures into the results folder, or, when nothing was started, draws them there. Either
+    way the same code draws the same figures. The second process counts as one of the run's
+    threads: until it is done this process may use one thread fewer (``threads.threads_given``). Use as a context manager: leaving it stops a second
+    process still drawing and removes the scratch folder.
+
+    Parameters
+    ----------
+    sample : Sample
+        The ingested sample.
+    log : RunLog
+        The run's log; the second process's lines join it in time order, marked ``figures:``.
+    """
+
+    def __init__(self, sample: Sample, log: RunLog) -> None:
+        import contextlib
+
+        self.sample, self.log = sample, log
+        self._job: SecondProcess[list[str]] | None = None
+        self._scratch: Path | None = None
+        self._fewer_threads = contextlib.ExitStack()     # this process's share while the second one draws
+
+    def start(self, fabric: FabricResult, seismic: SeismicResult) -> None:
+        """Begin drawing in a second process if the run may use one (else do nothing yet).
+
+        Parameters
+        ----------
+        fabric, seismic
+            The stages' results.
+        """
+        import tempfile
+
+        from fabric2seis.second_process import SecondProcess, can_fork
+        from fabric2seis.threads import thread_count, threads_given
+
+        if self._job is not None or not can_fork():
+            return
+        scratch = self._scratch = Path(tempfile.mkdtemp(prefix="fabric2seis-figures-"))
+        log = self.log
+
+        def draw() -> list[str]:
+            child = type(log)()
+            child.started = log.started
+            with threads_given(1):              # the second process is one of the run's threads
+                draw_sample_figures(scratch, self.sample, fabric, seismic, child)
+            return child.lines
+
+        threads = thread_count()
+        self.log.say(f"drawing figures in a second process, alongside the bootstrap on "
+                     f"{threads - 1} thread{'s' if threads > 2 else ''}")
+        self._job = SecondProcess(draw, fork=True)
+        self._fewer_threads.enter_context(threads_given(threads - 1))
+
+    def write_into(self, folder: Path, fabric: FabricResult, seismic: SeismicResult) -> None:
+        """Put every figure into ``folder``: those of the second process, or drawn now.
+
+        Parameters
+        ----------
+        folder : Path
+            The results folder being written.
+        fabric, seismic
+            The stages' results.
+
+        Raises
+        ------
+        Exception
+            What drawing raised, in either process.
+        """
+        if self._job is None:
+            draw_sample_figures(folder, self.sample, fabric, seismic, self.log)
+            return
+        import shutil
+
+        assert self._scratch is not None
+        waited = time.perf_counter()
+        lines = self._job.result()
+        self._job = None
+        self._fewer_threads.close()
+        moved = sorted(p.name for p in self._scratch.iterdir())
+        for name in moved:
+            shutil.move(str(self._scratch / name), str(folder / name))
+        self.log.written.update(moved)
+        marked = [f"{line[:12]}figures: {line[12:]}" for line in lines]
+        self.log.lines = sorted(self.log.lines + marked, key=lambda line: float(line.split()[0]))
+        self.log.say(f"figures of the second process in place ({len(moved)} files; "
+                     f"waited {time.perf_counter() - waited:.2f} s for them)")
+
+    def close(self) -> None:
+        """Stop a second process still drawing and remove its scratch folder."""
+        import shutil
+
+        if self._job is not None:
+            self._job.stop()
+            self._job = None
+        self._fewer_threads.close()
+        if self._scratch is not None:
+            shutil.rmtree(self._scratch, ignore_errors=True)
+            self._scratch = None
+
+    def __enter__(self) -> SampleFigures:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+
+def write_sweep_table(folder: Path, seismic: SeismicResult) -> None:
+    """The splitting of the placed layer against back-azimuth, as ``splitting_vs_backazimuth.csv``."""
+    import pandas as pd
 
     sweep, field = seismic.sweep, seismic.field
     assert sweep is not None and field is not None
     pd.DataFrame({"back_azimuth_deg": sweep["back_azimuth_deg"], "fast_azimuth_deg": sweep["fast_azimuth_deg"].round(3),
                   "delay_s": sweep["delay_s"].round(5), "incidence_deg": field["sweep_incidence_deg"]}
                  ).to_csv(folder / "splitting_vs_backazimuth.csv", index=False)
+
+
+def write_sweep(folder: Path, sample_name: str, seismic: SeismicResult, log: RunLog) -> None:
+    """The splitting of the placed layer against back-azimuth: table and figure (``fabric2seis combine``)."""
+    from fabric2seis.figures.splitting import splitting_figure
+
+    assert seismic.sweep is not None and seismic.field is not None
+    write_sweep_table(folder, seismic)
     log.wrote(folder)
-    splitting_figure(folder / "splitting_vs_backazimuth", sample_name, sweep, field)
+    splitting_figure(folder / "splitting_vs_backazimuth", sample_name, seismic.sweep, seismic.field)
     log.wrote(folder)

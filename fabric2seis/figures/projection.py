@@ -198,7 +198,8 @@ def save(fig, stem) -> list[str]:
 
     The PNG comes from one drawing on the Agg canvas (:func:`draw_png`), which also gives the
     tight box around what was drawn; the PDF is drawn once with that box and the layout held.
-    ``savefig(bbox_inches="tight")`` per file would draw four times.
+    ``savefig(bbox_inches="tight")`` per file would draw four times. The PDF carries no creation
+    date, so that the same figure is the same bytes on every run.
 
     Parameters
     ----------
@@ -216,7 +217,7 @@ def save(fig, stem) -> list[str]:
     box = draw_png(fig, out[0])
     if fig.get_layout_engine() is not None:
         fig.set_layout_engine("none")       # the layout of the drawing holds for the PDF: computed once
-    fig.savefig(out[1], dpi=PNG_DPI, bbox_inches=box)
+    fig.savefig(out[1], dpi=PNG_DPI, bbox_inches=box, metadata={"CreationDate": None})   # no date: rerun, same bytes
     plt.close(fig)
     return out
 

@@ -228,7 +228,8 @@ def test_settings_choose_poles_hemisphere_and_levels_and_leave_summary_numbers_a
     # eigenvalues of summary.json stay those of the fixed poles, equal to a run with defaults
     source = _grain_list_with(tmp_path, 'figures:\n  poles:\n    forsterite: ["(010)", "c [001]"]\n'
                                         '  pole_hemisphere: upper\n  pole_levels: [0.5, 1, 2, 4, 8]\n')
-    assert cli.main(["sample", str(source), "--out", str(tmp_path / "chosen")]) == 0
+    # --threads 1: figures drawn in this process, where the hooks see them (not in a second one)
+    assert cli.main(["sample", str(source), "--out", str(tmp_path / "chosen"), "--threads", "1"]) == 0
     pf = next(f for f in drawn if f.get_suptitle().split("\n")[0].endswith("pole figures"))
     titles = [ax.get_title() for ax in pf.findobj(lambda a: hasattr(a, "get_title")) if ax.get_title()]
     assert "(010)" in titles and "c [001]" in titles and "[100]" not in titles

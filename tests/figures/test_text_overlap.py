@@ -89,7 +89,8 @@ def overlaps(tmp_path_factory) -> dict[str, list[str]]:
     out = tmp_path_factory.mktemp("overlap")
     with recording_overlaps(out) as results:
         for name in SAMPLES:
-            assert cli.main(["sample", str(DEMO / name), "--out", str(out / Path(name).stem)]) == 0
+            # --threads 1: figures drawn in this process, where the hooks see them (not in a second one)
+            assert cli.main(["sample", str(DEMO / name), "--out", str(out / Path(name).stem), "--threads", "1"]) == 0
         assert cli.main(["field", str(out / "VM04_grain_list"), "--measurements", str(DEMO / "field_measurements.csv"),
                          "--out", str(out / "field")]) == 0
         stack = out / "two_layers.yaml"        # paths in a stack file are relative to it

@@ -182,7 +182,8 @@ def test_panels_setting_reaches_the_figure_through_the_command(tmp_path, monkeyp
 
     monkeypatch.setattr(vel, "velocity_sheet", recording_sheet)
     f = grain_list(tmp_path, "figures: {velocities: {panels: [vs2, vp_vs1]}}\nbootstrap: {n: 0}\n")
-    assert main(["sample", str(f), "--out", str(tmp_path / "res")]) == 0
+    # --threads 1: figures drawn in this process, where the hooks see them (not in a second one)
+    assert main(["sample", str(f), "--out", str(tmp_path / "res"), "--threads", "1"]) == 0
     assert drawn == [["vs2", "vp_vs1"]] and (tmp_path / "res" / "velocities.pdf").exists()
 
 

@@ -13,7 +13,7 @@ import json
 import sys
 import time
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Callable, Iterator
 
 import numpy as np
 
@@ -255,38 +255,6 @@ def velocity_panels(settings: dict) -> tuple[str, ...]:
     return tuple((settings.get("figures") or {}).get("velocities", {}).get("panels", DEFAULT_PANELS))
 
 
-def fabric_figures(folder: Path, sample_name: str, fabric: FabricResult, sample: Sample | None = None,
-                   log: RunLog | None = None) -> None:
-    """Draw pole figures, inverse pole figures and the convergence of the fabric indices.
-
-    Parameters
-    ----------
-    folder : Path
-        Folder the figures are written into.
-    sample_name : str
-        Name shown on the figures.
-    fabric : FabricResult
-        The fabric stage; nothing is drawn when it has no phase.
-    sample : Sample, optional
-        The ingested sample (:func:`fabric_figure_options`).
-    log : RunLog, optional
-        Logs each figure written, with the seconds it took.
-    """
-    from fabric2seis.figures.poles import convergence_figure, inverse_pole_figures, pole_figures
-
-    if not fabric.phases:
-        return
-    wrote = (lambda: log.wrote(folder)) if log is not None else (lambda: None)
-    phases, options, hemisphere = fabric_figure_options(fabric, sample)
-    pole_figures(folder / "pole_figures", sample_name, phases, hemisphere=hemisphere, **options)
-    wrote()
-    inverse_pole_figures(folder / "inverse_pole_figures", sample_name, phases, **options)
-    wrote()
-    convergence_figure(folder / "fabric_convergence", sample_name,
-                       {name: p.convergence for name, p in fabric.phases.items()})
-    wrote()
-
-
 def stiffness_record(agg: Aggregate) -> dict:
     """The contents of ``stiffness.json``: the four averages (GPa, rounded to 1e-6) and the density.
 
@@ -371,6 +339,50 @@ def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, s
     return out
 
 
+def figure_tasks(sample: Sample, fabric: FabricResult, seismic: SeismicResult) -> list[tuple[str, Callable]]:
+    """Every figure of a sample's results folder, as (name, draw) with ``draw(folder)`` writing its files.
+
+    The longest first (measured at 10^5 and 10^6 pixels: pole figures, inverse pole figures, map
+    overview, velocity sheet, convergence, splitting), so that two processes taking them in this
+    order (:class:`SampleFigures`) finish close together.
+
+    Parameters
+    ----------
+    sample, fabric, seismic
+        The stages' results (the bootstrap is not needed).
+
+    Returns
+    -------
+    list of (str, callable)
+        Each figure's file stem and the function that draws it into a folder.
+    """
+    from fabric2seis.figures.map_overview import map_overview_figure
+    from fabric2seis.figures.poles import convergence_figure, inverse_pole_figures, pole_figures
+    from fabric2seis.figures.splitting import splitting_figure
+    from fabric2seis.figures.velocities import velocity_figure
+
+    name, agg = sample.name, seismic.aggregate
+    tasks: list[tuple[str, Callable]] = []
+    if fabric.phases:
+        phases, options, hemisphere = fabric_figure_options(fabric, sample)
+        tasks += [("pole_figures", lambda folder: pole_figures(folder / "pole_figures", name, phases,
+                                                                hemisphere=hemisphere, **options)),
+                  ("inverse_pole_figures", lambda folder: inverse_pole_figures(folder / "inverse_pole_figures",
+                                                                               name, phases, **options))]
+    tasks.append(("map_overview", lambda folder: map_overview_figure(folder / "map_overview", sample)))  # maps only
+    n_grains = int(sample.grains.n_grains) if sample.grains is not None else int(len(sample.points.quat))
+    tasks.append(("velocities", lambda folder: velocity_figure(
+        folder / "velocities", name, agg.stiffness, agg.density_kg_m3, agg.average, n_grains,
+        panels=velocity_panels(sample.settings), grid=seismic.grid)))
+    if fabric.phases:
+        tasks.append(("fabric_convergence", lambda folder: convergence_figure(
+            folder / "fabric_convergence", name, {m: p.convergence for m, p in fabric.phases.items()})))
+    if seismic.sweep is not None and seismic.field is not None:
+        tasks.append(("splitting_vs_backazimuth", lambda folder: splitting_figure(
+            folder / "splitting_vs_backazimuth", name, seismic.sweep, seismic.field)))
+    return tasks
+
+
 def draw_sample_figures(folder: Path, sample: Sample, fabric: FabricResult, seismic: SeismicResult,
                         log: RunLog) -> None:
     """Draw every figure of a sample's results folder into ``folder``, logging each file written.
@@ -384,35 +396,26 @@ def draw_sample_figures(folder: Path, sample: Sample, fabric: FabricResult, seis
     log : RunLog
         Logs each figure with the seconds it took.
     """
-    from fabric2seis.figures.map_overview import map_overview_figure
-    from fabric2seis.figures.velocities import velocity_figure
-
     log.say("drawing figures")
-    fabric_figures(folder, sample.name, fabric, sample, log)
-    map_overview_figure(folder / "map_overview", sample)     # maps only: a grain list has no map
-    log.wrote(folder)
-    if seismic.sweep is not None and seismic.field is not None:
-        from fabric2seis.figures.splitting import splitting_figure
-
-        splitting_figure(folder / "splitting_vs_backazimuth", sample.name, seismic.sweep, seismic.field)
+    for _, draw in figure_tasks(sample, fabric, seismic):
+        draw(folder)
         log.wrote(folder)
-    agg = seismic.aggregate
-    n_grains = int(sample.grains.n_grains) if sample.grains is not None else int(len(sample.points.quat))
-    velocity_figure(folder / "velocities", sample.name, agg.stiffness, agg.density_kg_m3, agg.average,
-                    n_grains, panels=velocity_panels(sample.settings), grid=seismic.grid)
-    log.wrote(folder)
 
 
 class SampleFigures:
-    """A sample's figures: drawn in a second process while the bootstrap runs, or at the end.
+    """A sample's figures: drawn by a second process while the bootstrap runs and by this one after it.
 
     :meth:`start` (called once the seismic stage is done) forks when the run may use two threads
-    (``second_process.can_fork``); the second process draws into a scratch folder in the system's
-    temporary space and returns its log lines. :meth:`write_into` then waits for it and moves
-    the figures into the results folder, or, when nothing was started, draws them there. Either
-    way the same code draws the same figures. The second process counts as one of the run's
-    threads: until it is done this process may use one thread fewer (``threads.threads_given``). Use as a context manager: leaving it stops a second
-    process still drawing and removes the scratch folder.
+    (``second_process.can_fork``). Both processes then take figures from one queue
+    (:func:`figure_tasks`, longest first, one byte per figure in a pipe, so that each is taken
+    once): the second process from the start, drawing into a scratch folder in the system's
+    temporary space; this one once its own work is done (:meth:`write_into`), drawing straight into
+    the results folder. :meth:`write_into` then waits for the second process and moves its figures
+    in. When nothing was started, :meth:`write_into` draws every figure here. Either way the same
+    code draws the same figures, the same bytes. The second process counts as one of the run's
+    threads: until it is done this process may use one thread fewer (``threads.threads_given``).
+    Use as a context manager: leaving it stops a second process still drawing and removes the
+    scratch folder.
 
     Parameters
     ----------
@@ -427,6 +430,7 @@ class SampleFigures:
 
         self.sample, self.log = sample, log
         self._job: SecondProcess[list[str]] | None = None
+        self._queue: int | None = None                   # read end of the pipe of figure numbers
         self._scratch: Path | None = None
         self._fewer_threads = contextlib.ExitStack()     # this process's share while the second one draws
 
@@ -438,21 +442,28 @@ class SampleFigures:
         fabric, seismic
             The stages' results.
         """
+        import os
         import tempfile
 
         from fabric2seis.second_process import SecondProcess, can_fork
         from fabric2seis.threads import thread_count, threads_given
 
-        if self._job is not None or not can_fork():
+        tasks = figure_tasks(self.sample, fabric, seismic)
+        if self._job is not None or not can_fork() or len(tasks) > 255:
             return
         scratch = self._scratch = Path(tempfile.mkdtemp(prefix="fabric2seis-figures-"))
-        log = self.log
+        self._queue, writer = os.pipe()
+        os.write(writer, bytes(range(len(tasks))))      # a few bytes: never more than the pipe holds
+        os.close(writer)                                 # an empty queue then reads as the end
+        queue, log = self._queue, self.log
 
         def draw() -> list[str]:
             child = type(log)()
             child.started = log.started
             with threads_given(1):              # the second process is one of the run's threads
-                draw_sample_figures(scratch, self.sample, fabric, seismic, child)
+                for k in _taken(queue):
+                    tasks[k][1](scratch)
+                    child.wrote(scratch)
             return child.lines
 
         threads = thread_count()
@@ -462,7 +473,7 @@ class SampleFigures:
         self._fewer_threads.enter_context(threads_given(threads - 1))
 
     def write_into(self, folder: Path, fabric: FabricResult, seismic: SeismicResult) -> None:
-        """Put every figure into ``folder``: those of the second process, or drawn now.
+        """Put every figure into ``folder``: draw those still in the queue, then move in the others.
 
         Parameters
         ----------
@@ -476,12 +487,16 @@ class SampleFigures:
         Exception
             What drawing raised, in either process.
         """
+        import shutil
+
         if self._job is None:
             draw_sample_figures(folder, self.sample, fabric, seismic, self.log)
             return
-        import shutil
-
-        assert self._scratch is not None
+        assert self._scratch is not None and self._queue is not None
+        tasks = figure_tasks(self.sample, fabric, seismic)
+        for k in _taken(self._queue):
+            tasks[k][1](folder)
+            self.log.wrote(folder)
         waited = time.perf_counter()
         lines = self._job.result()
         self._job = None
@@ -497,12 +512,16 @@ class SampleFigures:
 
     def close(self) -> None:
         """Stop a second process still drawing and remove its scratch folder."""
+        import os
         import shutil
 
         if self._job is not None:
             self._job.stop()
             self._job = None
         self._fewer_threads.close()
+        if self._queue is not None:
+            os.close(self._queue)
+            self._queue = None
         if self._scratch is not None:
             shutil.rmtree(self._scratch, ignore_errors=True)
             self._scratch = None
@@ -512,6 +531,17 @@ class SampleFigures:
 
     def __exit__(self, *exc) -> None:
         self.close()
+
+
+def _taken(queue: int) -> Iterator[int]:
+    """Figure numbers taken one at a time from the pipe ``queue`` until it is empty (a one-byte read is atomic)."""
+    import os
+
+    while True:
+        taken = os.read(queue, 1)
+        if not taken:
+            return
+        yield taken[0]
 
 
 def write_sweep_table(folder: Path, seismic: SeismicResult) -> None:

@@ -389,25 +389,18 @@ def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: 
     sym = proper_symmetry_quaternions(symmetry)
     q = np.asarray(quat, dtype=float)
     v = np.asarray(v, dtype=float)
-    table = self_convolution_by_cos_half(float(halfwidth_deg))
-    cos_cut = table[0]
-    moved = [np.ascontiguousarray(multiply(t[None], q).T) for t in sym]
+    from fabric2seis.fabric.pair_kernel import fill_pair_block     # numba: compiled on first use
+
+    edge, step, values = self_convolution_by_cos_half(float(halfwidth_deg))
+    moved = np.ascontiguousarray(np.stack([multiply(t[None], q).T for t in sym]))     # (S, 4, N)
 
     def block_terms(start: int) -> tuple[np.ndarray, np.ndarray]:
         # rows start.. of A from its diagonal on: A is symmetric, so the pairs left of the
-        # diagonal are the transposes of earlier blocks' and count twice in v^T A v
-        block = q[start:start + chunk]
-        a = np.zeros((len(block), len(q) - start))
-        flat = a.reshape(-1)
-        c = np.empty_like(a)
-        for m in moved:
-            np.matmul(block, m[:, start:], out=c)
-            np.abs(c, out=c)
-            # only pairs within Phi's support, as in j_pair_matrix: in a weak fabric a few per
-            # cent of them, and looking Phi up costs more than the rest of the block
-            near = np.flatnonzero(c.reshape(-1) >= cos_cut)
-            flat[near] += phi_by_cos_half(c.reshape(-1)[near], table)
-        a /= len(sym)
+        # diagonal are the transposes of earlier blocks' and count twice in v^T A v. Phi is
+        # looked up only within its support, as in j_pair_matrix, in one compiled pass
+        block = np.ascontiguousarray(q[start:start + chunk])
+        a = np.empty((len(block), len(q) - start))
+        fill_pair_block(block, moved, start, edge, edge, 1.0 / step, values, a)
         mine = v[start:start + chunk]
         square = a[:, :len(block)]
         return (np.einsum("ib,ib->b", mine, square @ mine + 2.0 * (a[:, len(block):] @ v[start + len(block):])),

@@ -102,6 +102,25 @@ def test_dense_pair_sum_of_j_equals_the_harmonic_series():
             fabric.j_index(q, w, mineral.symmetry, method="harmonics"), rel=2e-5)
 
 
+def test_quadratic_forms_of_the_bootstrap_equal_the_harmonic_series_for_each_weight_vector():
+    # The bootstrap's J of weights v_b is v_b^T A v_b / (sum v_b)^2 (fabric/pair_kernel.py fills A's
+    # blocks in compiled code); each must be the J of the harmonic series (Bunge 1982) with those
+    # weights, independent of the pair table. Blocks of 64 rows, so the diagonal blocks and the
+    # rows to their right are both exercised; cubic (12 proper operations), trigonal, monoclinic.
+    rng = np.random.default_rng(21)
+    for name in ("pyrope", "quartz", "diopside"):
+        mineral = find_mineral(name)
+        q = fabric_orientations(OLIVINE, "olivine-A", 300, 30.0, seed=4)
+        v = rng.multinomial(300, np.full(300, 1 / 300), size=4).T * rng.uniform(0.5, 2.0, (300, 1))
+        forms, diagonal = fabric.j_quadratic_forms(q, v, mineral.symmetry, 10.0, chunk=64)
+        for b in range(v.shape[1]):
+            series = fabric.j_index(q, v[:, b], mineral.symmetry, 10.0, method="harmonics")
+            assert forms[b] / v[:, b].sum() ** 2 == pytest.approx(series, rel=2e-5), name
+        assert diagonal == pytest.approx(np.full(300, diagonal[0]), rel=1e-9)    # one grain's J, any grain
+        assert diagonal[0] == pytest.approx(fabric.j_index(q[:1], np.ones(1), mineral.symmetry, 10.0,
+                                                           method="harmonics"), rel=2e-5)
+
+
 def test_j_of_nested_subsets_in_one_pass_equals_the_pair_sum_of_each_subset():
     # The convergence curve adds grains to the Fourier sums one subset after another; every
     # subset's J must still be the integral of f^2 of that subset alone (Bunge 1982), here the

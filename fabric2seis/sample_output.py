@@ -377,9 +377,10 @@ def figure_tasks(sample: Sample, fabric: FabricResult, seismic: SeismicResult) -
     if fabric.phases:
         tasks.append(("fabric_convergence", lambda folder: convergence_figure(
             folder / "fabric_convergence", name, {m: p.convergence for m, p in fabric.phases.items()})))
-    if seismic.sweep is not None and seismic.field is not None:
+    sweep, field = seismic.sweep, seismic.field
+    if sweep is not None and field is not None:
         tasks.append(("splitting_vs_backazimuth", lambda folder: splitting_figure(
-            folder / "splitting_vs_backazimuth", name, seismic.sweep, seismic.field)))
+            folder / "splitting_vs_backazimuth", name, sweep, field)))
     return tasks
 
 

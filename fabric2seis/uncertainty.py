@@ -24,7 +24,7 @@ import numpy as np
 
 from fabric2seis import elastic, fabric, waves
 from fabric2seis.orientations import to_matrices
-from fabric2seis.threads import shared_results, thread_count
+from fabric2seis.threads import shared_results
 
 INTERVAL = (2.5, 97.5)
 #: independent random streams (and threads) of the resample counts
@@ -34,10 +34,9 @@ RESAMPLE_GRID_STEP_DEG = 3.0
 #: phases with fewer grains get no fabric intervals (a resample would hold too few distinct grains)
 MIN_GRAINS_FOR_FABRIC = 10
 #: above this many grains the bootstrap leaves out the J-index interval (its cost grows as N^2:
-#: about a minute at 30,000 grains)
+#: 2.5 s at 17,000 grains on one thread of the benchmark machine, so about 8 s at 30,000)
 MAX_J_GRAINS = 30_000
-#: grain pairs of the M-index bootstrap held in memory at a time (shared among the threads), as
-#: (B, pairs) float32 weights: 80 MB at 200 resamples
+#: grain pairs of the M-index bootstrap per block (the blocks shared among the threads)
 PAIRS_IN_MEMORY = 100_000
 
 
@@ -581,28 +580,27 @@ def _resampled_histograms(counts_by_grain: np.ndarray, i: np.ndarray, k: np.ndar
                           n_bins: int, done: Callable[[float], None]) -> np.ndarray:
     """hist[b, bin] = sum of c_i c_k over the pairs (i, k) in the bin, for every resample b.
 
-    The pairs are sorted by bin once; each block of them gathers whole rows of the counts
-    (grains x resamples, contiguous), multiplies them and adds each bin's run of rows. Counts and
-    their products are small integers, so the sums are exact whatever their order: in single
-    precision while a block's whole sum stays below 2^24, else in double.
+    One compiled pass over the pairs (``fabric.pair_kernel.add_pair_counts``), in blocks of
+    PAIRS_IN_MEMORY pairs shared among the run's threads, each block into its own histogram, added
+    in the blocks' order. Counts and their products are small whole numbers, so every sum is exact:
+    neither the blocks nor the threads change a bit.
     """
-    order = np.argsort(bins, kind="stable")
-    i, k, bins = i[order], k[order], bins[order]
-    hist = np.zeros((counts_by_grain.shape[1], n_bins))
-    # blocks shared among the run's threads, PAIRS_IN_MEMORY pairs in memory at a time whatever
-    # their number (threads.py); the sums are exact, so neither blocks nor threads change a bit
-    block = -(-PAIRS_IN_MEMORY // thread_count())
+    from fabric2seis.fabric.pair_kernel import add_pair_counts  # numba: compiled on first use
 
-    def block_sums(start: int) -> tuple[np.ndarray, np.ndarray]:
+    counts_by_grain = np.ascontiguousarray(counts_by_grain, dtype=float)
+    i, k = np.ascontiguousarray(i, dtype=np.int64), np.ascontiguousarray(k, dtype=np.int64)
+    bins = np.ascontiguousarray(bins, dtype=np.int64)
+    hist = np.zeros((counts_by_grain.shape[1], n_bins))
+    block = PAIRS_IN_MEMORY
+
+    def block_sums(start: int) -> np.ndarray:
+        part = np.zeros_like(hist)
         sl = slice(start, start + block)
-        weight = counts_by_grain[i[sl]] * counts_by_grain[k[sl]]              # (pairs, B)
-        b = bins[sl]
-        first = np.flatnonzero(np.r_[True, b[1:] != b[:-1]])
-        exact = np.float32 if float(weight.max()) * len(weight) < 2.0 ** 24 else np.float64
-        return b[first], np.add.reduceat(weight, first, axis=0, dtype=exact).T
+        add_pair_counts(counts_by_grain, i[sl], k[sl], bins[sl], part)
+        return part
 
     starts = range(0, len(i), block)
-    for start, (in_bins, sums) in zip(starts, shared_results(block_sums, starts)):
-        hist[:, in_bins] += sums
+    for start, part in zip(starts, shared_results(block_sums, starts)):
+        hist += part
         done(min(start + block, len(i)) / len(i))
     return hist

@@ -54,3 +54,32 @@ def fill_pair_block(block: np.ndarray, moved: np.ndarray, start: int, cos_cut: f
                     row[j - start] += values[m] + x * (values[m + 1] - values[m])
         for j in range(n - start):
             row[j] /= ops
+
+
+@numba.njit(nogil=True, cache=True)
+def add_pair_counts(counts_by_grain: np.ndarray, i: np.ndarray, k: np.ndarray, bins: np.ndarray,
+                    hist: np.ndarray) -> None:
+    """hist[b, bins[p]] += counts_by_grain[i[p], b] * counts_by_grain[k[p], b] for every pair p and resample b.
+
+    For the M-index bootstrap (``uncertainty._resampled_histograms``): the counts are small whole
+    numbers, so every product and sum is exact in double precision (below 2^53) and the result does
+    not depend on the order of the pairs.
+
+    Parameters
+    ----------
+    counts_by_grain : numpy.ndarray
+        (N, B) draw counts, grains by resamples, C-contiguous.
+    i, k : numpy.ndarray
+        The pairs' grains (P,).
+    bins : numpy.ndarray
+        The pairs' misorientation bins (P,).
+    hist : numpy.ndarray
+        (B, number of bins), added to.
+    """
+    resamples = counts_by_grain.shape[1]
+    for p in range(i.shape[0]):
+        a = counts_by_grain[i[p]]
+        c = counts_by_grain[k[p]]
+        column = bins[p]
+        for b in range(resamples):
+            hist[b, column] += a[b] * c[b]

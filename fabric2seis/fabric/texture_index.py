@@ -389,7 +389,7 @@ def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: 
     sym = proper_symmetry_quaternions(symmetry)
     q = np.asarray(quat, dtype=float)
     v = np.asarray(v, dtype=float)
-    from fabric2seis.fabric.pair_kernel import fill_pair_block     # numba: compiled on first use
+    from fabric2seis.fabric.pair_kernel import fill_pair_block  # numba: compiled on first use
 
     edge, step, values = self_convolution_by_cos_half(float(halfwidth_deg))
     moved = np.ascontiguousarray(np.stack([multiply(t[None], q).T for t in sym]))     # (S, 4, N)

@@ -22,7 +22,9 @@ the ground (the demo's placement), and then measures, each in a fresh process:
 4. where the time goes: the run's own ``run.log`` logs each step with its seconds since the
    start; the differences between consecutive steps give each step's time, grouped into reading,
    grains, fabric, seismic, bootstrap, random aggregates, the figures and the rest; the wall time
-   not covered by run.log is the process's start-up (imports) and exit;
+   not covered by run.log is the process's start-up (imports) and exit. With two threads a second
+   process draws figures alongside the bootstrap (its run.log lines start ``figures:``): its time
+   from its first line to its last is shown on a row of its own, overlapping the others;
 5. threads (``--threads``, default 1 and 2, at 10^5 pixels only: ``THREAD_SIZES``; not in
    ``--quick``): the same command with ``--threads 1`` and ``--threads 2``, alternating, ``--runs``
    times each; the median wall time of each, their ratio (the speed-up of two threads), and the
@@ -253,6 +255,10 @@ STEP_GROUPS = [
     ("other files and figures", ("wrote",)),
 ]
 LOG_LINE = re.compile(r"^\s*([\d.]+) s  (.*)$")
+#: run.log marks the lines of the second process that draws figures alongside the bootstrap
+#: (``sample_output.SampleFigures``) with this; the figures this process drew are in the groups above
+SECOND_PROCESS = "figures: "
+SECOND_PROCESS_LABEL = "figures drawn by the second process (alongside the steps above, not added)"
 
 
 def run_log_steps(path: Path) -> list[tuple[float, str]]:
@@ -273,12 +279,16 @@ def time_by_group(steps: list[tuple[float, str]], wall_s: float) -> dict[str, fl
     """
     groups: dict[str, float] = {label: 0.0 for label, _ in STEP_GROUPS}
     groups["other steps"] = 0.0
+    alongside = [(t, m[len(SECOND_PROCESS):]) for t, m in steps if m.startswith(SECOND_PROCESS)]
+    steps = [(t, m) for t, m in steps if not m.startswith(SECOND_PROCESS)]
     for (t0, first), (t1, second) in zip(steps, steps[1:]):
         message = second if second.startswith("wrote ") else first
         label = next((name for name, starts in STEP_GROUPS if message.startswith(starts)), "other steps")
         groups[label] += t1 - t0
     logged = steps[-1][0] if steps else 0.0
     groups["start-up, imports and exit (outside run.log)"] = max(wall_s - logged, 0.0)
+    if alongside:       # its own clock: these overlap the steps above and are not part of the sum
+        groups[SECOND_PROCESS_LABEL] = alongside[-1][0] - alongside[0][0]
     return groups
 
 

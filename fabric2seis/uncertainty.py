@@ -590,7 +590,7 @@ def _resampled_histograms(counts_by_grain: np.ndarray, i: np.ndarray, k: np.ndar
     counts_by_grain = np.ascontiguousarray(counts_by_grain, dtype=float)
     i, k = np.ascontiguousarray(i, dtype=np.int64), np.ascontiguousarray(k, dtype=np.int64)
     bins = np.ascontiguousarray(bins, dtype=np.int64)
-    hist = np.zeros((counts_by_grain.shape[1], n_bins))
+    hist = np.zeros((n_bins, counts_by_grain.shape[1]))
     block = PAIRS_IN_MEMORY
 
     def block_sums(start: int) -> np.ndarray:
@@ -603,4 +603,4 @@ def _resampled_histograms(counts_by_grain: np.ndarray, i: np.ndarray, k: np.ndar
     for start, part in zip(starts, shared_results(block_sums, starts)):
         hist += part
         done(min(start + block, len(i)) / len(i))
-    return hist
+    return np.ascontiguousarray(hist.T)

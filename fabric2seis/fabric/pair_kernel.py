@@ -59,7 +59,7 @@ def fill_pair_block(block: np.ndarray, moved: np.ndarray, start: int, cos_cut: f
 @numba.njit(nogil=True, cache=True)
 def add_pair_counts(counts_by_grain: np.ndarray, i: np.ndarray, k: np.ndarray, bins: np.ndarray,
                     hist: np.ndarray) -> None:
-    """hist[b, bins[p]] += counts_by_grain[i[p], b] * counts_by_grain[k[p], b] for every pair p and resample b.
+    """hist[bins[p], b] += counts_by_grain[i[p], b] * counts_by_grain[k[p], b] for every pair p and resample b.
 
     For the M-index bootstrap (``uncertainty._resampled_histograms``): the counts are small whole
     numbers, so every product and sum is exact in double precision (below 2^53) and the result does
@@ -74,12 +74,12 @@ def add_pair_counts(counts_by_grain: np.ndarray, i: np.ndarray, k: np.ndarray, b
     bins : numpy.ndarray
         The pairs' misorientation bins (P,).
     hist : numpy.ndarray
-        (B, number of bins), added to.
+        (number of bins, B), added to (bins by resamples: the inner loop runs along a row).
     """
     resamples = counts_by_grain.shape[1]
     for p in range(i.shape[0]):
         a = counts_by_grain[i[p]]
         c = counts_by_grain[k[p]]
-        column = bins[p]
+        row = hist[bins[p]]
         for b in range(resamples):
-            hist[b, column] += a[b] * c[b]
+            row[b] += a[b] * c[b]

@@ -23,6 +23,7 @@ import pickle
 import signal
 import sys
 import traceback
+import warnings
 from typing import Callable, Generic, TypeVar
 
 from fabric2seis.threads import thread_count
@@ -74,7 +75,12 @@ class SecondProcess(Generic[Result]):
         sys.stdout.flush()
         sys.stderr.flush()
         reader, writer = os.pipe()
-        pid = os.fork()
+        with warnings.catch_warnings():
+            # Python 3.12+ warns at any fork of a process with other threads. Ours are idle here:
+            # the run's thread pools are shut down between stages (threads.shared_results), and
+            # BLAS (OpenBLAS re-creates its pool in a forked child) is held to one thread
+            warnings.filterwarnings("ignore", "This process .* is multi-threaded", DeprecationWarning)
+            pid = os.fork()
         if pid == 0:                                       # the child: never returns
             os.close(reader)
             status = 0

@@ -167,6 +167,9 @@ def validate(settings: dict, source: str | Path | None = None, minerals_dir: str
         from fabric2seis.fabric.poles import check_pole_setting
 
         folder = minerals_dir or settings.get("minerals_dir")
+        if folder and not Path(folder).is_dir():     # the poles name minerals: their folder first
+            raise InputError(f"no such folder of mineral files: {folder}", source or "the settings",
+                             "key minerals_dir")
         check_pole_setting(poles, source, load_library([folder] if folder else []))
     return settings
 

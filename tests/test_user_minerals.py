@@ -171,6 +171,16 @@ def test_a_missing_minerals_folder_is_refused(project):
                      "nowhere, option --minerals: no such folder of mineral files")
 
 
+def test_a_missing_minerals_folder_in_a_settings_file_with_poles_is_refused_naming_the_file(project):
+    # figures.poles names minerals, so the settings are checked against the library before the
+    # run: a minerals_dir that is not a folder is the settings file's error, at its key (found by
+    # tests/test_fuzzing.py with hypothesis 6.170)
+    settings = project / "poles.yaml"
+    settings.write_text('minerals_dir: "0"\nfigures: {poles: {olivine: ["[100]"]}}\n')
+    one_line_refusal(run("sample", "mix.csv", "--settings", settings, cwd=project),
+                     "poles.yaml, key minerals_dir: no such folder of mineral files: 0")
+
+
 def test_minerals_dir_in_a_sidecar_keeps_to_the_project_unless_allowed(project, tmp_path):
     # the path rule of the workflow's config (tests/test_safety.py): a path written in a settings file
     # stays in the project folder (here the folder the command runs in) unless allow_outside_paths is true

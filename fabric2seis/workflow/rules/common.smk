@@ -26,8 +26,8 @@ BATCHES = sample_batches(SAMPLES, int((config.get("small_samples") or {}).get("p
 
 
 onstart:
-    # numba's caches of orix and fabric2seis filled once, by one process, before jobs run side by side
-    # (fabric2seis/warm_up.py: processes filling them at once can leave them damaged)
+    # the numba caches of orix and fabric2seis filled once, by one process, before jobs run side by side
+    # (fabric2seis.warm_up: processes filling them at once can leave them damaged)
     from fabric2seis.warm_up import warm_compiled_caches
     warm_compiled_caches()
     # a forced run (--forceall, --forcerun, --force) computes every member of a batch again, not only those

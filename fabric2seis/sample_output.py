@@ -432,6 +432,7 @@ class SampleFigures:
         self.sample, self.log = sample, log
         self._job: SecondProcess[list[str]] | None = None
         self._queue: int | None = None                   # read end of the pipe of figure numbers
+        self._tasks: list[tuple[str, Callable]] = []     # figure_tasks, made once for both processes
         self._scratch: Path | None = None
         self._fewer_threads = contextlib.ExitStack()     # this process's share while the second one draws
 
@@ -449,8 +450,10 @@ class SampleFigures:
         from fabric2seis.second_process import SecondProcess, can_fork
         from fabric2seis.threads import thread_count, threads_given
 
-        tasks = figure_tasks(self.sample, fabric, seismic)
-        if self._job is not None or not can_fork() or len(tasks) > 255:
+        if self._job is not None or not can_fork():
+            return
+        tasks = self._tasks = figure_tasks(self.sample, fabric, seismic)
+        if len(tasks) > 255:
             return
         scratch = self._scratch = Path(tempfile.mkdtemp(prefix="fabric2seis-figures-"))
         self._queue, writer = os.pipe()
@@ -494,9 +497,8 @@ class SampleFigures:
             draw_sample_figures(folder, self.sample, fabric, seismic, self.log)
             return
         assert self._scratch is not None and self._queue is not None
-        tasks = figure_tasks(self.sample, fabric, seismic)
         for k in _taken(self._queue):
-            tasks[k][1](folder)
+            self._tasks[k][1](folder)
             self.log.wrote(folder)
         waited = time.perf_counter()
         lines = self._job.result()

@@ -17,9 +17,9 @@ import numpy as np
 
 
 @numba.njit(nogil=True, cache=True)
-def fill_pair_block(block: np.ndarray, moved: np.ndarray, start: int, cos_cut: float, edge: float,
+def fill_pair_block(block: np.ndarray, moved: np.ndarray, start: int, edge: float,
                     inverse_step: float, values: np.ndarray, out: np.ndarray) -> None:
-    """out[i, j - start] = mean over k of Phi(|block_i . moved[k, :, j]|), Phi 0 below ``cos_cut``.
+    """out[i, j - start] = mean over k of Phi(|block_i . moved[k, :, j]|), Phi 0 below ``edge``.
 
     Parameters
     ----------
@@ -29,9 +29,9 @@ def fill_pair_block(block: np.ndarray, moved: np.ndarray, start: int, cos_cut: f
         (S, 4, N): the grains' quaternions moved by each of the S proper symmetry operations.
     start : int
         First column of N in the block.
-    cos_cut, edge, inverse_step, values
-        Phi's support edge in cos(angle/2) and its table (``kernel.self_convolution_by_cos_half``:
-        the edge, 1 / step and the values).
+    edge, inverse_step, values
+        Phi's table (``kernel.self_convolution_by_cos_half``): the edge of its support in
+        cos(angle/2), where the table starts, 1 / step and the values.
     out : numpy.ndarray
         (R, N - start), written.
     """
@@ -47,7 +47,7 @@ def fill_pair_block(block: np.ndarray, moved: np.ndarray, start: int, cos_cut: f
             m0, m1, m2, m3 = moved[k, 0], moved[k, 1], moved[k, 2], moved[k, 3]
             for j in range(start, n):
                 c = abs(a0 * m0[j] + a1 * m1[j] + a2 * m2[j] + a3 * m3[j])
-                if c >= cos_cut:
+                if c >= edge:
                     x = (c - edge) * inverse_step
                     m = min(max(int(x), 0), last)
                     x -= m

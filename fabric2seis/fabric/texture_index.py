@@ -400,7 +400,7 @@ def j_quadratic_forms(quat: np.ndarray, v: np.ndarray, symmetry, halfwidth_deg: 
         # looked up only within its support, as in j_pair_matrix, in one compiled pass
         block = np.ascontiguousarray(q[start:start + chunk])
         a = np.empty((len(block), len(q) - start))
-        fill_pair_block(block, moved, start, edge, edge, 1.0 / step, values, a)
+        fill_pair_block(block, moved, start, edge, 1.0 / step, values, a)
         mine = v[start:start + chunk]
         square = a[:, :len(block)]
         return (np.einsum("ib,ib->b", mine, square @ mine + 2.0 * (a[:, len(block):] @ v[start + len(block):])),

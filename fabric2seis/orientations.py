@@ -164,16 +164,16 @@ def misorientation_angles(qa: np.ndarray, qb: np.ndarray, sym: np.ndarray) -> np
     numpy.ndarray, shape (N,)
         Misorientation angles, radians, in [0, pi].
     """
-    qa = np.asarray(qa, dtype=float)
-    qb = np.asarray(qb, dtype=float)
-    # w(s * dq) = s_w dq_w - s_v . dq_v: one product with the operations' conjugates
-    conj_ops = (np.asarray(sym, dtype=float) * np.array([1.0, -1.0, -1.0, -1.0])).T      # (4, K)
+    from fabric2seis.angle_kernel import smallest_angles  # numba: compiled on first use, cached on disk
+
+    qa = np.ascontiguousarray(qa, dtype=float)
+    qb = np.ascontiguousarray(qb, dtype=float)
+    if qa.shape != qb.shape or qa.ndim != 2 or qa.shape[1] != 4:
+        raise ValueError(f"qa and qb must be arrays (N, 4) of the same shape, got {qa.shape} and {qb.shape}")
+    # w(s * dq) = s_w dq_w - s_v . dq_v: a dot product with each operation's conjugate
+    conj_ops = np.ascontiguousarray((np.asarray(sym, dtype=float) * np.array([1.0, -1.0, -1.0, -1.0])).T)  # (4, K)
     out = np.empty(len(qa))
-    for start in range(0, len(qa), _CHUNK):
-        stop = start + _CHUNK
-        dq = multiply(qb[start:stop], conjugate(qa[start:stop]))
-        w = np.abs(dq @ conj_ops).max(axis=1)
-        out[start:stop] = 2.0 * np.arccos(np.clip(w, 0.0, 1.0))
+    smallest_angles(qa, qb, conj_ops, out)
     return out
 
 

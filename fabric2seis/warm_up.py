@@ -1,6 +1,6 @@
 """Compile orix's and fabric2seis's numba functions once per installation, before jobs run side by side.
 
-orix (its quaternion and vector arithmetic) and fabric2seis (``fabric/pair_kernel.py``) compile
+orix (its quaternion and vector arithmetic) and fabric2seis (``COMPILED_MODULES``) compile
 functions with numba on first use and keep them in numba's cache on disk. That cache is not safe
 for processes filling it at the same time: measured on this project's machine with a fresh
 installation, three processes importing orix at once left its cache damaged in 5 of 6 trials, and
@@ -10,7 +10,8 @@ quick start, two sample jobs at once, hit it). So the workflow (``onstart`` in
 synthetic map through the whole pipeline in one process (``python -m fabric2seis.warm_up``):
 reading, grains, fabric, bootstrap and every figure, so that every compiled function the jobs use
 is in the cache before they start. It runs once per installation (a marker in
-``fabric.cache.cache_folder()`` keyed by the versions and the place of orix, numba and fabric2seis),
+``fabric.cache.cache_folder()`` keyed by the versions and the place of orix, numba and fabric2seis,
+and by the source of fabric2seis's compiled modules, which numba recompiles when they change),
 under a file lock, so that two suites starting together do not both warm up; it takes about 10 to
 20 s on a cold cache.
 
@@ -27,16 +28,23 @@ import sys
 import tempfile
 from pathlib import Path
 
+#: fabric2seis's modules of numba functions (cached on disk), relative to the package
+COMPILED_MODULES = ("fabric/pair_kernel.py", "angle_kernel.py")
+
 
 def marker_file() -> Path:
-    """The marker of a warmed installation: named by the versions and places of orix, numba and fabric2seis."""
+    """The marker of a warmed installation: named by the versions and places of orix, numba and fabric2seis,
+    and the source of fabric2seis's compiled modules."""
     from importlib import metadata
     from importlib.util import find_spec
 
     from fabric2seis import __version__
     from fabric2seis.fabric.cache import cache_folder
 
-    parts = [__version__, str(Path(__file__).resolve().parent)]
+    here = Path(__file__).resolve().parent
+    parts = [__version__, str(here)]
+    # numba recompiles a module's functions when its source changes: so does the warm-up
+    parts += [hashlib.sha256((here / name).read_bytes()).hexdigest() for name in COMPILED_MODULES]
     for name in ("orix", "numba"):
         spec = find_spec(name)
         parts += [metadata.version(name), str(spec.origin if spec else "")]

@@ -26,6 +26,24 @@ def test_misorientation_angles_match_orix_for_several_symmetries():
         assert np.allclose(ours, ref, atol=1e-9), name
 
 
+def test_compiled_angles_equal_the_plain_numpy_formula_of_the_pairs():
+    # the compiled loop (angle_kernel.py) against the textbook form written out here in numpy: the
+    # misorientation angle is 2 arccos of the largest |scalar part| of s_k * qb * conj(qa) over the
+    # proper operations (common practice; Mackenzie 1958 for the reduction to one crystal's operations)
+    rng = np.random.default_rng(5)
+    sym = proper_symmetry_quaternions(find_mineral("quartz").symmetry)
+    a, b = random_quaternions(5000, rng), random_quaternions(5000, rng)
+    b[:10] = a[:10]                                        # same orientation: 0
+    b[10:20] = -a[10:20]                                   # the other quaternion of it: 0
+    dq = multiply(b, a * np.array([1.0, -1.0, -1.0, -1.0]))
+    every = multiply(sym[None, :, :], dq[:, None, :])[..., 0]          # (N, K) scalar parts
+    plain = 2.0 * np.arccos(np.clip(np.abs(every).max(axis=1), 0.0, 1.0))
+    ours = misorientation_angles(a, b, sym)
+    assert np.allclose(ours, plain, rtol=0, atol=1e-12)
+    assert np.allclose(ours[:20], 0.0, atol=1e-6)
+    assert misorientation_angles(a[:0], b[:0], sym).shape == (0,)
+
+
 def test_cubic_misorientations_never_exceed_mackenzie_limit():
     # Mackenzie (1958): the largest misorientation angle between cubic (m-3m) crystals is 62.8 degrees.
     rng = np.random.default_rng(2)

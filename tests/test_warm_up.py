@@ -45,3 +45,13 @@ def test_the_workflow_warms_up_before_its_jobs():
     common = (ROOT / "fabric2seis" / "workflow" / "rules" / "common.smk").read_text()
     onstart = common.split("onstart:", 1)[1].split("\n\n", 1)[0]
     assert "warm_compiled_caches()" in onstart
+
+
+def test_every_module_of_cached_compiled_functions_keys_the_warm_up():
+    # numba recompiles a module's cached functions when its source changes (numba documentation,
+    # "cache=True"): a module of such functions missing from COMPILED_MODULES would be compiled by
+    # the suite's jobs side by side after a change, the race the warm-up exists to avoid
+    package = Path(warm_up.__file__).resolve().parent
+    compiled = sorted(str(path.relative_to(package)) for path in package.rglob("*.py")
+                      if "cache=True" in path.read_text() and path.name != "warm_up.py")
+    assert compiled == sorted(warm_up.COMPILED_MODULES)

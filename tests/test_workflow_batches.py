@@ -24,9 +24,23 @@ def _files(folder, sizes):
 def test_small_samples_go_in_name_order_per_job_to_a_batch_and_large_ones_alone(tmp_path):
     samples = _files(tmp_path, {"c": 100, "a": 100, "big": 3000, "b": 2048, "d": 10})
     assert sample_batches(samples, per_job=2, max_size_kb=2) == [["a", "b"], ["c", "d"]]   # 2048 bytes: 2 kB, small
-    assert sample_batches(samples, per_job=3, max_size_kb=2) == [["a", "b", "c"], ["d"]]
+    assert sample_batches(samples, per_job=3, max_size_kb=2) == [["a", "b"], ["c", "d"]]   # sizes differ by <= 1
     assert sample_batches(samples, per_job=1, max_size_kb=2) == []      # 1: every sample a job of its own
     assert sample_batches(samples, per_job=8, max_size_kb=0.001) == []
+
+
+def test_small_samples_are_shared_in_jobs_of_nearly_equal_size_and_a_batch_holds_two_or_more(tmp_path):
+    # common practice (batching many short jobs): as few processes as per_job allows, of equal
+    # load, so that the last job is not a straggler of one sample; a batch of one would be a job
+    # of its own under another name
+    samples = _files(tmp_path, {name: 100 for name in "abcdefghij"})
+    assert sample_batches(samples, per_job=8, max_size_kb=1) == [list("abcde"), list("fghij")]   # not 8 + 2
+    assert sample_batches(samples, per_job=4, max_size_kb=1) == [list("abcd"), list("efg"), list("hij")]
+    assert sample_batches(samples, per_job=10, max_size_kb=1) == [list("abcdefghij")]
+    one_each = _files(tmp_path / "two", {"a": 100, "b": 100, "c": 100})
+    assert sample_batches(one_each, per_job=2, max_size_kb=1) == [["a", "b"]]        # c alone, no batch of one
+    every = [name for batch in sample_batches(samples, per_job=3, max_size_kb=1) for name in batch]
+    assert every == list("abcdefghij")                                          # each once, in name order
 
 
 def test_the_inputs_digest_follows_the_file_and_the_settings(tmp_path):

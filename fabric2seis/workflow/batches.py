@@ -24,6 +24,7 @@ import os
 from collections.abc import Callable
 from dataclasses import dataclass, replace
 from functools import partial
+from itertools import accumulate
 from pathlib import Path
 
 from fabric2seis import __version__
@@ -36,25 +37,36 @@ RECOMPUTE_VARIABLE = "FABRIC2SEIS_RECOMPUTE_BATCHED"
 def sample_batches(samples: dict[str, Path], per_job: int, max_size_kb: float) -> list[list[str]]:
     """Share the small samples of a suite among batch jobs.
 
+    The small samples, in name order, go to as few jobs as hold at most ``per_job`` each, the jobs'
+    sizes differing by at most one (nine samples at eight to a job: five and four, which two cores
+    run side by side). A batch of one sample is no batch: it runs as a job of its own. The shares
+    depend on the samples and the settings only, not on ``--cores``, so that a complete suite has
+    nothing to do whatever cores the next run is given.
+
     Parameters
     ----------
     samples : dict of str to Path
         The suite's samples by name (``suite.discover_samples``).
     per_job : int
-        Samples per job; 1 or less: no batches (every sample a job of its own).
+        At most this many samples to a job; 1 or less: no batches (every sample a job of its own).
     max_size_kb : float
         A sample is small when its file holds at most this many kilobytes (1024 bytes).
 
     Returns
     -------
     list of list of str
-        The batches, each a list of names; the small samples in name order, ``per_job`` to a batch
-        (the last one may hold fewer). Samples in none of them run alone.
+        The batches, each a list of two names or more, in name order. Samples in none of them
+        run alone.
     """
     if per_job <= 1:
         return []
     small = sorted(name for name, path in samples.items() if Path(path).stat().st_size <= max_size_kb * 1024)
-    return [small[k:k + per_job] for k in range(0, len(small), per_job)]
+    jobs = -(-len(small) // per_job)
+    if jobs == 0:
+        return []
+    size, extra = divmod(len(small), jobs)
+    bounds = list(accumulate((size + (k < extra) for k in range(jobs)), initial=0))
+    return [small[a:b] for a, b in zip(bounds[:-1], bounds[1:]) if b - a >= 2]
 
 
 def inputs_digest(input_file: str | Path, settings_digest: str) -> str:

@@ -20,8 +20,19 @@ RESULTS = config.get("results_dir", "results")
 SAMPLES = discover_samples(SAMPLES_DIR)
 MEASUREMENTS = discover_measurements(SAMPLES_DIR)
 STACKS = discover_stacks(RESULTS)     # folders of `fabric2seis field --stack` in the results, for the report
-# small samples computed several to a job (config small_samples; the batch rules of sample.smk, workflow.batches)
-BATCHES = sample_batches(SAMPLES, int((config.get("small_samples") or {}).get("per_job", 1)),
+
+
+def suite_cores():
+    """The suite's --cores, or None in a cluster run (each job has cores of its own)."""
+    try:
+        return workflow.cores
+    except WorkflowError:
+        return None
+
+
+# small samples computed several to a job (config small_samples; the batch rules of sample.smk,
+# workflow.batches): shared out by the samples and the config alone, never by --cores
+BATCHES = sample_batches(SAMPLES, int((config.get("small_samples") or {}).get("per_job", 8)),
                          float((config.get("small_samples") or {}).get("max_size_kb", 256.0)))
 
 
@@ -43,11 +54,7 @@ def sample_input(wildcards):
 
 def sample_job_threads(wildcards, input):
     """Threads of a sample's job: a large map gets the cores the suite leaves idle (suite.sample_threads)."""
-    try:
-        cores = workflow.cores
-    except WorkflowError:           # no --cores (a cluster run): each job has cores of its own
-        cores = None
-    return sample_threads(input[0], len(SAMPLES), cores)
+    return sample_threads(input[0], len(SAMPLES), suite_cores())
 
 
 def settings_digest(wildcards):

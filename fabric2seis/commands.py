@@ -140,8 +140,8 @@ def run_combine(result_dirs: list[str | Path], out_dir: str | Path | None = None
     -------
     out : Path
         The folder written: ``summary.json``, ``stiffness.json``, ``stiffness_<average>.txt``,
-        ``velocities.csv``, ``weighted_sums.json`` and, with ``field`` settings, the back-azimuth
-        sweep (``splitting_vs_backazimuth``).
+        ``velocities.csv``, ``weighted_sums.json``, the velocity sheet (``velocities`` .png and .pdf)
+        and, with ``field`` settings, the back-azimuth sweep (``splitting_vs_backazimuth``).
     cautions : list of str
         What is combined and what is not, and the pieces' own cautions.
 
@@ -152,8 +152,9 @@ def run_combine(result_dirs: list[str | Path], out_dir: str | Path | None = None
         (``pieces.combine_records``).
     """
     from fabric2seis import pieces
+    from fabric2seis.figures.velocities import velocity_figure
     from fabric2seis.pipeline import RunLog, seismic_of_aggregate
-    from fabric2seis.sample_output import stiffness_record, write_json, write_sweep
+    from fabric2seis.sample_output import stiffness_record, velocity_panels, write_json, write_sweep
     from fabric2seis.tables import write_tensor_texts
 
     out = Path(out_dir) if out_dir else Path("results") / "combined"
@@ -181,6 +182,10 @@ def run_combine(result_dirs: list[str | Path], out_dir: str | Path | None = None
         log.wrote(tmp)
         if seismic.sweep is not None and seismic.field is not None:
             write_sweep(tmp, combined["sample"], seismic, log)
+        # the velocity sheet of the whole, without a grain count (grains cut by the pieces' edges)
+        velocity_figure(tmp / "velocities", combined["sample"], agg.stiffness, agg.density_kg_m3, agg.average,
+                        None, panels=velocity_panels(combined["settings"]), grid=seismic.grid)
+        log.wrote(tmp)
         log.say(f"done, results in {out}")
         (tmp / "run.log").write_text("\n".join(log.lines) + "\n")
     return out, summary["cautions"]

@@ -203,6 +203,21 @@ def test_combined_voigt_average_matches_a_plain_numpy_average(runs):
     assert combined["density_kg_m3"] == pytest.approx(density / len(phase), abs=1e-3)
 
 
+def test_combined_velocity_sheet_is_the_whole_maps_but_for_the_grain_count(runs):
+    # the sheet is drawn from the stiffness, equal to the whole map's to 1e-9 (above); only the header's
+    # grain count, which pieces cannot combine (grains cut at their edges), is left out
+    from PIL import Image
+
+    tmp, _, _ = runs
+    whole = np.asarray(Image.open(tmp / "whole" / "velocities.png").convert("L"), dtype=float)
+    combined = np.asarray(Image.open(tmp / "combined" / "velocities.png").convert("L"), dtype=float)
+    assert (tmp / "combined" / "velocities.pdf").stat().st_size > 0
+    assert "velocities.png" in (tmp / "combined" / "run.log").read_text()
+    assert combined.shape == whole.shape
+    rows = np.flatnonzero(np.abs(combined - whole).max(axis=1) > 0)
+    assert rows.size > 0 and rows.max() < 0.12 * whole.shape[0], rows    # the header line, at the top
+
+
 def test_combine_refuses_pieces_processed_differently(runs):
     tmp, folders, _ = runs
     other = tmp / "other_settings"

@@ -323,7 +323,7 @@ def velocity_sheet(c: np.ndarray, density_kg_m3: float, *, sample_name: str = ""
 
 
 def velocity_figure(stem, sample_name: str, c: np.ndarray, density_kg_m3: float, average: str,
-                    n_grains: int, panels: Sequence[str] = DEFAULT_PANELS, grid=None) -> list[str]:
+                    n_grains: int | None, panels: Sequence[str] = DEFAULT_PANELS, grid=None) -> list[str]:
     """Draw the velocity sheet (:func:`velocity_sheet`) and write it as PNG and PDF.
 
     Parameters
@@ -338,8 +338,8 @@ def velocity_figure(stem, sample_name: str, c: np.ndarray, density_kg_m3: float,
         Density, kg m^-3.
     average : str
         Name of the average ``c`` is, shown in the header.
-    n_grains : int
-        Number of grains, shown in the header.
+    n_grains : int or None
+        Number of grains, shown in the header; None leaves it out (a map combined from pieces).
     panels : sequence of str
         Names from :data:`PANELS` (settings key ``figures.velocities.panels``).
     grid : fabric2seis.waves.seismic.VelocityGrid, optional

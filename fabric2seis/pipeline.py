@@ -526,15 +526,17 @@ def _bootstrap(sample: Sample, seis: SeismicResult, n: int, seed: int, say: Prog
                                          share(done, part / parts, (part + 1) / parts))
         part += 1
         for key, v in f.items():
-            if v is None:
-                out[f"{m.name}.{key}"] = None
-                out[f"{m.name}.note"] = (f"{len(q)} grains: the J-index interval is not computed above "
-                                         f"{uncertainty.MAX_J_GRAINS:,} grains")
-            else:
-                out[f"{m.name}.{key}"] = uncertainty.interval(v)
-                if m.name == main:
-                    out[key] = out[f"{m.name}.{key}"]
+            out[f"{m.name}.{key}"] = uncertainty.interval(v)
+            if m.name == main:
+                out[key] = out[f"{m.name}.{key}"]
+        if len(q) > uncertainty.MAX_J_GRAINS:
+            sizes = " and ".join(f"{int(s * uncertainty.MAX_J_GRAINS):,}" for s in uncertainty.J_SUBSET_SHARES)
+            out[f"{m.name}.note"] = (f"{len(q):,} grains: the J-index interval is carried from the bootstraps of "
+                                     f"random subsets of {sizes} grains to all of them (uncertainty.j_by_subsets)")
     out["interval_method"].update({k: "percentile" for k in out if k.endswith((".J", ".M")) or k in ("J", "M")})
+    out["interval_method"].update({k: "percentile_of_subsets" for m, q, _ in sets
+                                   if len(q) > uncertainty.MAX_J_GRAINS
+                                   for k in [f"{m.name}.J"] + (["J"] if m.name == main else [])})
     out["resamples"] = n
     out["seed"] = seed
     out["main_phase"] = main

@@ -24,6 +24,7 @@ import numpy as np
 
 from fabric2seis import elastic, fabric, waves
 from fabric2seis.orientations import to_matrices
+from fabric2seis.progress import share
 from fabric2seis.threads import shared_results
 
 INTERVAL = (2.5, 97.5)
@@ -33,8 +34,9 @@ COUNT_STREAMS = 4
 RESAMPLE_GRID_STEP_DEG = 3.0
 #: phases with fewer grains get no fabric intervals (a resample would hold too few distinct grains)
 MIN_GRAINS_FOR_FABRIC = 10
-#: above this many grains the bootstrap leaves out the J-index interval (its cost grows as N^2:
-#: 2.5 s at 17,000 grains on one thread of the benchmark machine, so about 8 s at 30,000)
+#: above this many grains the J-index is not resampled whole (its cost grows as N^2: 2.5 s at
+#: 17,000 grains on one thread of the benchmark machine, so about 8 s at 30,000): two random subsets
+#: of a quarter and half as many are, and their spread is carried to N (:func:`j_by_subsets`)
 MAX_J_GRAINS = 30_000
 #: grain pairs of the M-index bootstrap per block (the blocks shared among the threads)
 PAIRS_IN_MEMORY = 100_000
@@ -464,7 +466,7 @@ _AGGREGATE_FLOORS: dict = {}
 
 def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.ndarray,
                      halfwidth_deg: float, rng: np.random.Generator,
-                     done: Callable[[float], None] | None = None) -> dict[str, np.ndarray | None]:
+                     done: Callable[[float], None] | None = None) -> dict[str, np.ndarray]:
     """Compute J (quadratic form over the pair matrix) and M (weighted pairs of distinct grains) of every resample.
 
     Parameters
@@ -488,7 +490,8 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
     Returns
     -------
     dict
-        ``"J"``: J-index of every resample, shape (B,), or None above MAX_J_GRAINS grains;
+        ``"J"``: J-index of every resample, shape (B,); above MAX_J_GRAINS grains the values of
+        :func:`j_by_subsets`, whose percentiles are the interval;
         ``"M"``: bias-shifted M-index of every resample, shape (B,), NaN where a resample has no pair.
 
     References
@@ -497,14 +500,15 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
     Skemer, P., Katayama, I., Jiang, Z. & Karato, S. (2005). Tectonophysics 411, 157-167.
     Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, New York.
     """
-    j = None
     tell = done or (lambda _fraction: None)
-    j_part = 0.5 if len(quat) <= MAX_J_GRAINS else 0.0          # shares of the bar: J, then M
+    j_part = 0.5                                                 # shares of the bar: J, then M
     if len(quat) <= MAX_J_GRAINS:
         v = (counts * weights[None, :]).T                            # (N, B), unnormalised
         forms, diagonal = fabric.j_quadratic_forms(quat, v, mineral.symmetry, halfwidth_deg,
                                                    done=lambda f: tell(j_part * f))
         j = resampled_j(forms, diagonal, counts, weights)
+    else:
+        j = j_by_subsets(mineral, quat, len(counts), halfwidth_deg, rng, lambda f: tell(j_part * f))
     # M: the uncorrelated pairs of the original grains are found and measured once; a resample
     # weights pair (i, j) by how often both grains were drawn, c_i c_j (pairs of distinct grains)
     reference = fabric.random_distribution(mineral.symmetry)
@@ -531,6 +535,71 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
     if np.any(ok):
         m = np.maximum(m - (np.nanmean(m) - m_sample), 0.0)
     return {"J": j, "M": m}
+
+
+#: subsets of j_by_subsets, as shares of MAX_J_GRAINS
+J_SUBSET_SHARES = (0.25, 0.5)
+
+
+def j_by_subsets(mineral, quat: np.ndarray, n_resamples: int, halfwidth_deg: float, rng: np.random.Generator,
+                 done: Callable[[float], None] | None = None) -> np.ndarray:
+    """Resampled J-index values of many grains, from the bootstraps of two random subsets.
+
+    J is a V-statistic of the grains (its pair terms are a U-statistic), whose variance over
+    samples of m grains is a / m + b / m^2 (Hoeffding 1948: the first term from each grain's own
+    share, the second from the pairs; b dominates a fabric close to random, where a vanishes).
+    The bootstrap of the whole would cost N^2; so two random subsets of m1 and m2 grains
+    (``J_SUBSET_SHARES`` of ``MAX_J_GRAINS``, drawn without replacement) are resampled as a
+    sample is (``resampled_j``), their variances v1, v2 give a and b (both kept >= 0), and the
+    deviations of the larger subset's resamples from its own J, scaled by
+    sqrt(var_N / v2) with var_N = a / N + b / N^2, are added to the J of all N grains. Their
+    percentiles are the interval, as for fewer grains: the shape of the spread comes from m2
+    grains, its width from the two sizes. tests/test_coverage.py measures how often it holds.
+
+    Parameters
+    ----------
+    mineral : fabric2seis.elastic.minerals.Mineral
+        Library entry of the phase.
+    quat : numpy.ndarray, shape (N, 4)
+        Grain mean orientations (equal weights, as the bootstrap of fewer grains).
+    n_resamples : int
+        Resamples B of each subset, and values returned.
+    halfwidth_deg : float
+        Kernel halfwidth, degrees.
+    rng : numpy.random.Generator
+        Draws the subsets and their resamples.
+    done : callable, optional
+        Told the share finished (0 to 1).
+
+    Returns
+    -------
+    numpy.ndarray, shape (B,)
+        J-index values whose percentiles give the interval of the J of all N grains.
+
+    References
+    ----------
+    Hoeffding, W. (1948). A class of statistics with asymptotically normal distribution. Ann. Math.
+    Statist. 19, 293-325.
+    Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, New York.
+    """
+    n = len(quat)
+    tell = done or (lambda _fraction: None)
+    sizes = [max(int(share * MAX_J_GRAINS), 2) for share in J_SUBSET_SHARES]
+    spreads = []
+    for k, m in enumerate(sizes):
+        sub = quat[rng.choice(n, m, replace=False)]
+        counts = resample_counts(m, n_resamples, rng)
+        v = np.concatenate([np.ones((m, 1)), counts.T.astype(float)], axis=1)     # the subset itself first
+        forms, diagonal = fabric.j_quadratic_forms(sub, v, mineral.symmetry, halfwidth_deg,
+                                                   done=share(tell, k / len(sizes), (k + 1) / len(sizes)))
+        every = resampled_j(forms, diagonal, np.concatenate([np.ones((1, m)), counts]), np.ones(m))
+        spreads.append((every[1:] - every[0], float(np.var(every[1:], ddof=1))))
+    (m1, m2), ((_, v1), (deviations, v2)) = sizes, spreads
+    a = max((m1 ** 2 * v1 - m2 ** 2 * v2) / (m1 - m2), 0.0)
+    b = max(m2 ** 2 * v2 - a * m2, 0.0)
+    var_n = a / n + b / n ** 2
+    j_all = fabric.j_index(quat, np.ones(n), mineral.symmetry, halfwidth_deg)
+    return j_all + deviations * (np.sqrt(var_n / v2) if v2 > 0 else 0.0)
 
 
 def resampled_j(forms: np.ndarray, diagonal: np.ndarray, counts: np.ndarray, weights: np.ndarray) -> np.ndarray:

@@ -5,7 +5,7 @@ degrees of scatter, and a weak one, 60 degrees) stands in for the rock. Samples 
 drawn from it; each gets its bootstrap interval (200 resamples, fewer than the default 1000 to keep
 each test near a minute) and the test counts how often the interval holds the parent's value.
 Coverage of a nominal 95 % interval over n data sets has a binomial spread of sqrt(0.95 0.05 / n)
-(0.018 for 150 sets, common practice). The measured numbers are listed in DEVELOPERS.md.
+(0.018 for 150 sets, common practice). The measured numbers are listed in docs/methods.md.
 """
 
 import numpy as np
@@ -117,6 +117,37 @@ def test_coverage_of_j_and_m_intervals(scatter_deg):
         floor = fabric.random_floor(OLIVINE, N_SAMPLE)
         assert m_hits / n_sets < 0.1
         assert np.mean(m_values) == pytest.approx(floor["M"], rel=0.15)
+
+
+@pytest.mark.parametrize("scatter_deg", [25.0, 60.0])
+def test_coverage_of_the_j_interval_carried_from_subsets(scatter_deg, monkeypatch):
+    # Above MAX_J_GRAINS the J interval comes from the bootstraps of two random subsets, their spread
+    # carried to N by Var(J_m) = a/m + b/m^2 (Hoeffding 1948). Here MAX_J_GRAINS is lowered to 2,000, so
+    # samples of 4,000 grains use subsets of 500 and 1,000; the interval must hold E[J_N] (as in the test
+    # above) in about 95 % of the samples (150 sets), and be about as wide as the bootstrap of all 4,000
+    # grains, which is still affordable here (Efron & Tibshirani 1993: the bootstrap is the reference)
+    monkeypatch.setattr(uncertainty, "MAX_J_GRAINS", 2000)
+    n = 4000
+    q_parent = parent(scatter_deg)
+    j1 = fabric.j_index(q_parent[:1], np.ones(1), OLIVINE.symmetry)
+    j_parent = fabric.j_index(q_parent, np.ones(N_PARENT), OLIVINE.symmetry)
+    j_inf = (j_parent - j1 / N_PARENT) / (1 - 1 / N_PARENT)
+    j_n = j1 / n + (1 - 1 / n) * j_inf
+    n_sets, hits, widths = 150, 0, []
+    for k in range(n_sets):
+        rng = np.random.default_rng(7000 + k)
+        q = q_parent[rng.choice(N_PARENT, n, replace=False)]
+        lo, hi = uncertainty.interval(uncertainty.j_by_subsets(OLIVINE, q, N_RESAMPLES, 10.0, rng))
+        hits += lo <= j_n <= hi
+        if k < 15:
+            counts = uncertainty.resample_counts(n, N_RESAMPLES, rng)
+            forms, diagonal = fabric.j_quadratic_forms(q, counts.T.astype(float), OLIVINE.symmetry, 10.0)
+            whole = uncertainty.interval(uncertainty.resampled_j(forms, diagonal, counts, np.ones(n)))
+            widths.append((hi - lo) / (whole[1] - whole[0]))
+    print(f"scatter {scatter_deg} deg: the subsets' J interval holds E[J_N] {hits / n_sets:.3f}; width / the "
+          f"whole bootstrap's {np.mean(widths):.2f} (15 sets)")
+    assert 0.88 <= hits / n_sets <= 1.0
+    assert 0.8 <= np.mean(widths) <= 1.25
 
 
 def fresh_random_anisotropy(phases, n_sets, seed):

@@ -102,3 +102,25 @@ def test_bootstrap_intervals_of_a_weak_fabric_hold_their_estimates():
     low, high = uncertainty.interval(boot["M"])
     assert low <= m <= high
 
+
+
+def test_sample_command_gives_a_j_interval_carried_from_subsets_above_the_grain_limit(tmp_path, monkeypatch):
+    # through the command (cli.main, as the console script runs it): a grain list with more grains than
+    # MAX_J_GRAINS (lowered to 400 here: 1,000 grains) gets a J interval around its J, marked as carried
+    # from subsets, with a note; the interval's coverage is measured in tests/test_coverage.py
+    import json
+
+    from fabric2seis.cli import main
+    from fabric2seis.ingest.io.write import write_table
+
+    monkeypatch.setattr(uncertainty, "MAX_J_GRAINS", 400)
+    q = fabric_orientations(OLIVINE, "olivine-A", 1000, 30.0, seed=11)
+    write_table(tmp_path / "big.csv", q, ["olivine"] * len(q))
+    (tmp_path / "big.yaml").write_text("bootstrap: {n: 100}\n")
+    assert main(["sample", str(tmp_path / "big.csv"), "--out", str(tmp_path / "out"), "--threads", "1"]) == 0
+    summary = json.loads((tmp_path / "out" / "summary.json").read_text())
+    low, high = summary["uncertainty"]["olivine.J"]
+    j = summary["phases"]["olivine"]["J"]
+    assert low < j < high and high - low < 0.5 * j
+    assert summary["uncertainty"]["interval_method"]["olivine.J"] == "percentile_of_subsets"
+    assert "subsets of 100 and 200 grains" in summary["uncertainty"]["olivine.note"]

@@ -516,6 +516,7 @@ def _bootstrap(sample: Sample, seis: SeismicResult, n: int, seed: int, say: Prog
     done(2 / parts)
     part = 2
     main = max(sets, key=lambda s: sample.fractions[s.mineral.name]).mineral.name
+    from_subsets: list[str] = []              # J intervals of j_by_subsets (more than MAX_J_GRAINS grains)
     halfwidth = float(sample.settings["odf"]["halfwidth_deg"])
     for m, q, _w in sets:
         if len(q) < uncertainty.MIN_GRAINS_FOR_FABRIC:
@@ -530,13 +531,12 @@ def _bootstrap(sample: Sample, seis: SeismicResult, n: int, seed: int, say: Prog
             if m.name == main:
                 out[key] = out[f"{m.name}.{key}"]
         if len(q) > uncertainty.MAX_J_GRAINS:
-            sizes = " and ".join(f"{int(s * uncertainty.MAX_J_GRAINS):,}" for s in uncertainty.J_SUBSET_SHARES)
+            sizes = " and ".join(f"{size:,}" for size in uncertainty.j_subset_sizes())
             out[f"{m.name}.note"] = (f"{len(q):,} grains: the J-index interval is carried from the bootstraps of "
                                      f"random subsets of {sizes} grains to all of them (uncertainty.j_by_subsets)")
+            from_subsets += [f"{m.name}.J"] + (["J"] if m.name == main else [])
     out["interval_method"].update({k: "percentile" for k in out if k.endswith((".J", ".M")) or k in ("J", "M")})
-    out["interval_method"].update({k: "percentile_of_subsets" for m, q, _ in sets
-                                   if len(q) > uncertainty.MAX_J_GRAINS
-                                   for k in [f"{m.name}.J"] + (["J"] if m.name == main else [])})
+    out["interval_method"].update({k: "percentile_of_subsets" for k in from_subsets})
     out["resamples"] = n
     out["seed"] = seed
     out["main_phase"] = main

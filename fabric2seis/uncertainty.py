@@ -541,6 +541,11 @@ def fabric_bootstrap(mineral, quat: np.ndarray, weights: np.ndarray, counts: np.
 J_SUBSET_SHARES = (0.25, 0.5)
 
 
+def j_subset_sizes() -> list[int]:
+    """Grains of the two subsets of :func:`j_by_subsets` (``J_SUBSET_SHARES`` of ``MAX_J_GRAINS``)."""
+    return [max(int(share * MAX_J_GRAINS), 2) for share in J_SUBSET_SHARES]
+
+
 def j_by_subsets(mineral, quat: np.ndarray, n_resamples: int, halfwidth_deg: float, rng: np.random.Generator,
                  done: Callable[[float], None] | None = None) -> np.ndarray:
     """Resampled J-index values of many grains, from the bootstraps of two random subsets.
@@ -584,7 +589,7 @@ def j_by_subsets(mineral, quat: np.ndarray, n_resamples: int, halfwidth_deg: flo
     """
     n = len(quat)
     tell = done or (lambda _fraction: None)
-    sizes = [max(int(share * MAX_J_GRAINS), 2) for share in J_SUBSET_SHARES]
+    sizes = j_subset_sizes()
     spreads = []
     for k, m in enumerate(sizes):
         sub = quat[rng.choice(n, m, replace=False)]

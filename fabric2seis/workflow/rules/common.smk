@@ -20,16 +20,6 @@ RESULTS = config.get("results_dir", "results")
 SAMPLES = discover_samples(SAMPLES_DIR)
 MEASUREMENTS = discover_measurements(SAMPLES_DIR)
 STACKS = discover_stacks(RESULTS)     # folders of `fabric2seis field --stack` in the results, for the report
-
-
-def suite_cores():
-    """The suite's --cores, or None in a cluster run (each job has cores of its own)."""
-    try:
-        return workflow.cores
-    except WorkflowError:
-        return None
-
-
 # small samples computed several to a job (config small_samples; the batch rules of sample.smk,
 # workflow.batches): shared out by the samples and the config alone, never by --cores
 BATCHES = sample_batches(SAMPLES, int((config.get("small_samples") or {}).get("per_job", 8)),
@@ -54,7 +44,11 @@ def sample_input(wildcards):
 
 def sample_job_threads(wildcards, input):
     """Threads of a sample's job: a large map gets the cores the suite leaves idle (suite.sample_threads)."""
-    return sample_threads(input[0], len(SAMPLES), suite_cores())
+    try:
+        cores = workflow.cores
+    except WorkflowError:           # no --cores (a cluster run): each job has cores of its own
+        cores = None
+    return sample_threads(input[0], len(SAMPLES), cores)
 
 
 def settings_digest(wildcards):

@@ -193,7 +193,7 @@ SET_DESCRIPTIONS = {
 
 def part_one(args, olivine) -> tuple[list[str], bool]:
     """Time j_index over the sizes and against brute force; return target lines and agreement."""
-    symmetry = olivine.symmetry
+    symmetry = olivine.orix_symmetry
     n_ops = len(proper_symmetry_quaternions(symmetry))
     limit_seconds = args.max_call_minutes * 60.0
     j_index(random_quaternions(10, np.random.default_rng(0)), np.ones(10), symmetry,
@@ -296,7 +296,7 @@ def orix_misorientation_angles(qa: np.ndarray, qb: np.ndarray, proper_group,
 
 
 def part_two(args, olivine) -> tuple[list[str], bool]:
-    symmetry = olivine.symmetry
+    symmetry = olivine.orix_symmetry
     sym = proper_symmetry_quaternions(symmetry)
     proper_group = symmetry.proper_subgroup
     rng = np.random.default_rng(args.seed)

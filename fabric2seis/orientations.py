@@ -114,11 +114,11 @@ def conjugate(q: np.ndarray) -> np.ndarray:
 
 
 def proper_symmetry_quaternions(symmetry) -> np.ndarray:
-    """Return the quaternions of the proper rotations of an orix point group (cached).
+    """Return the quaternions of the proper rotations of a point group (cached for orix's).
 
     Parameters
     ----------
-    symmetry : orix.quaternion.Symmetry
+    symmetry : fabric2seis.point_groups.PointGroup or orix.quaternion.Symmetry
         Point group of the crystal.
 
     Returns
@@ -126,6 +126,9 @@ def proper_symmetry_quaternions(symmetry) -> np.ndarray:
     numpy.ndarray, shape (K, 4)
         The K rotations of its proper subgroup, (w, x, y, z).
     """
+    proper = getattr(symmetry, "proper", None)        # a PointGroup (orix's Symmetry has no .proper)
+    if isinstance(proper, np.ndarray):
+        return proper
     key = (symmetry.name, np.asarray(symmetry.data).round(12).tobytes())
     if key not in _PROPER_CACHE:
         _PROPER_CACHE[key] = np.asarray(symmetry.proper_subgroup.data, dtype=float).reshape(-1, 4)
@@ -291,8 +294,16 @@ def to_matrices(q: np.ndarray) -> np.ndarray:
     return out
 
 
+def _unit(q: np.ndarray) -> np.ndarray:
+    """Divide quaternions by their norms, as orix does (so that the bits agree with orix's)."""
+    return q / np.sqrt(np.sum(q ** 2, axis=-1))[..., None]
+
+
 def from_matrices(g: np.ndarray) -> np.ndarray:
     """Convert orientation matrices to orix quaternions; the inverse of :func:`to_matrices`.
+
+    Rowenhorst et al. (2015), Eq. A.11, as orix computes it (the same bits, checked in
+    tests/test_orientations.py).
 
     Parameters
     ----------
@@ -303,7 +314,104 @@ def from_matrices(g: np.ndarray) -> np.ndarray:
     -------
     numpy.ndarray, shape (N, 4)
         Unit quaternions (w, x, y, z).
-    """
-    from orix.quaternion import Rotation  # imported here: orix takes seconds to import
 
-    return np.asarray(Rotation.from_matrix(np.asarray(g, dtype=float)).data, dtype=float).reshape(-1, 4)
+    References
+    ----------
+    Rowenhorst, D. et al. (2015). Consistent representations of and conversions between 3D
+    rotations. Modelling Simul. Mater. Sci. Eng. 23, 083501.
+    """
+    g = np.asarray(g, dtype=float).reshape(-1, 3, 3)
+    d0, d1, d2 = g[:, 0, 0], g[:, 1, 1], g[:, 2, 2]
+    almost = np.stack([1 + d0 + d1 + d2, 1 + d0 - d1 - d2, 1 - d0 + d1 - d2, 1 - d0 - d1 + d2], axis=1)
+    size = np.where(almost < 1e-9, 0.0, 0.5 * np.sqrt(np.maximum(almost, 0.0)))
+    size[:, 1] *= np.where(g[:, 2, 1] < g[:, 1, 2], -1.0, 1.0)
+    size[:, 2] *= np.where(g[:, 0, 2] < g[:, 2, 0], -1.0, 1.0)
+    size[:, 3] *= np.where(g[:, 1, 0] < g[:, 0, 1], -1.0, 1.0)
+    return _unit(_unit(size))
+
+
+def from_bunge_euler(euler: np.ndarray) -> np.ndarray:
+    """Convert Bunge Euler angles (phi1, Phi, phi2; radians) to orix quaternions with w >= 0.
+
+    Rowenhorst et al. (2015), Eqs. A.5-A.6, as orix's ``Rotation.from_euler`` computes it (the
+    same bits, checked in tests/test_orientations.py).
+
+    Parameters
+    ----------
+    euler : array_like, shape (N, 3)
+        Bunge angles (passive Z-X-Z), rad.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 4)
+        Unit quaternions (w, x, y, z).
+
+    References
+    ----------
+    Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
+    Rowenhorst, D. et al. (2015). Modelling Simul. Mater. Sci. Eng. 23, 083501.
+    """
+    e = np.asarray(euler, dtype=float).reshape(-1, 3)
+    sigma, delta = 0.5 * (e[:, 0] + e[:, 2]), 0.5 * (e[:, 0] - e[:, 2])
+    c, s = np.cos(e[:, 1] / 2), np.sin(e[:, 1] / 2)
+    q = np.stack([c * np.cos(sigma), -s * np.cos(delta), -s * np.sin(delta), -c * np.sin(sigma)], axis=1)
+    return _unit(np.where(q[:, :1] < 0, -q, q))
+
+
+def to_bunge_euler(q: np.ndarray) -> np.ndarray:
+    """Convert orix quaternions to Bunge Euler angles (phi1, Phi, phi2), rad, each in [0, 2 pi).
+
+    Rowenhorst et al. (2015), Eq. A.14, as orix's ``to_euler`` computes it (checked in
+    tests/test_orientations.py).
+
+    Parameters
+    ----------
+    q : array_like, shape (N, 4)
+        Quaternions (w, x, y, z); normalised here.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, 3)
+        Bunge angles, rad.
+
+    References
+    ----------
+    Rowenhorst, D. et al. (2015). Modelling Simul. Mater. Sci. Eng. 23, 083501.
+    """
+    w, x, y, z = _unit(np.asarray(q, dtype=float).reshape(-1, 4)).T
+    q_ad, q_bc = w * w + z * z, x * x + y * y
+    chi = np.sqrt(q_ad * q_bc)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        out = np.stack([np.arctan2((x * z - w * y) / chi, (-w * x - y * z) / chi),
+                        np.arctan2(2 * chi, q_ad - q_bc),
+                        np.arctan2((w * y + x * z) / chi, (y * z - w * x) / chi)], axis=1)
+    out[np.abs(out) < 1e-9] = 0.0
+    flat = chi < 1e-9                   # Phi = 0 or pi: only phi1 + phi2 (or phi1 - phi2) is defined
+    if flat.any():
+        top = q_bc[flat] < 1e-9
+        wf, xf, yf, zf = w[flat], x[flat], y[flat], z[flat]
+        out[flat, 0] = np.where(top, np.arctan2(-2 * wf * zf, wf * wf - zf * zf),
+                                np.arctan2(-2 * xf * yf, xf * xf - yf * yf))
+        out[flat, 1] = np.where(top, 0.0, np.pi)
+        out[flat, 2] = 0.0
+    return np.mod(out, 2 * np.pi)
+
+
+def from_axis_angle(axis: np.ndarray, angle: float) -> np.ndarray:
+    """Quaternion (1, 4) of a rotation by ``angle`` (rad) about ``axis``, as orix's ``from_axes_angles``.
+
+    Parameters
+    ----------
+    axis : array_like, shape (3,)
+        Rotation axis (normalised here).
+    angle : float
+        Rotation angle, rad.
+
+    Returns
+    -------
+    numpy.ndarray, shape (1, 4)
+        Unit quaternion (w, x, y, z).
+    """
+    a = np.asarray(axis, dtype=float)
+    a = a / np.linalg.norm(a)
+    return _unit(np.concatenate([[np.cos(angle / 2)], np.sin(angle / 2) * a])[None])

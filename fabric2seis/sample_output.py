@@ -12,6 +12,7 @@ import hashlib
 import json
 import sys
 import time
+from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Callable, Iterator
 
@@ -169,7 +170,8 @@ def provenance(path: Path, sample: Sample) -> dict:
     dict
         The contents of ``provenance.json``.
     """
-    import orix
+    from importlib.metadata import version
+
     import pandas
     import scipy
 
@@ -180,7 +182,7 @@ def provenance(path: Path, sample: Sample) -> dict:
         "mineral_library": mineral_library_record(sample),
         "minerals": {m.name: {"source": m.source, "from_memory": list(m.from_memory), "file": m.file}
                      for m in sample.points.minerals},
-        "versions": {"fabric2seis": __version__, "orix": orix.__version__, "numpy": np.__version__,
+        "versions": {"fabric2seis": __version__, "orix": version("orix"), "numpy": np.__version__,
                      "scipy": scipy.__version__, "pandas": pandas.__version__,
                      "python": sys.version.split()[0]},
     }
@@ -339,12 +341,24 @@ def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, s
     return out
 
 
-def figure_tasks(sample: Sample, fabric: FabricResult, seismic: SeismicResult) -> list[tuple[str, Callable]]:
-    """Every figure of a sample's results folder, as (name, draw) with ``draw(folder)`` writing its files.
+@dataclass(frozen=True)
+class FigureTask:
+    """One figure of a sample's results folder: its file stem, ``draw(folder)`` writing its files,
+    and whether drawing it needs orix (its plotting and colour keys: seconds to import)."""
+
+    name: str
+    draw: Callable[[Path], object]
+    needs_orix: bool = False
+
+
+def figure_tasks(sample: Sample, fabric: FabricResult, seismic: SeismicResult) -> list[FigureTask]:
+    """Every figure of a sample's results folder.
 
     The longest first (measured at 10^5 and 10^6 pixels: pole figures, inverse pole figures, map
     overview, velocity sheet, convergence, splitting), so that two processes taking them in this
-    order (:class:`SampleFigures`) finish close together.
+    order (:class:`SampleFigures`) finish close together. The figure modules are imported when a
+    figure is drawn, not here: with a second process, its imports (matplotlib, orix) then overlap
+    this process's bootstrap.
 
     Parameters
     ----------
@@ -353,34 +367,52 @@ def figure_tasks(sample: Sample, fabric: FabricResult, seismic: SeismicResult) -
 
     Returns
     -------
-    list of (str, callable)
-        Each figure's file stem and the function that draws it into a folder.
+    list of FigureTask
+        Each figure's file stem, the function that draws it into a folder, and whether it needs orix.
     """
-    from fabric2seis.figures.map_overview import map_overview_figure
-    from fabric2seis.figures.poles import convergence_figure, inverse_pole_figures, pole_figures
-    from fabric2seis.figures.splitting import splitting_figure
-    from fabric2seis.figures.velocities import velocity_figure
-
     name, agg = sample.name, seismic.aggregate
-    tasks: list[tuple[str, Callable]] = []
+    tasks: list[FigureTask] = []
     if fabric.phases:
         phases, options, hemisphere = fabric_figure_options(fabric, sample)
-        tasks += [("pole_figures", lambda folder: pole_figures(folder / "pole_figures", name, phases,
-                                                                hemisphere=hemisphere, **options)),
-                  ("inverse_pole_figures", lambda folder: inverse_pole_figures(folder / "inverse_pole_figures",
-                                                                               name, phases, **options))]
-    tasks.append(("map_overview", lambda folder: map_overview_figure(folder / "map_overview", sample)))  # maps only
+
+        def pole_figures(folder: Path) -> None:
+            from fabric2seis.figures.poles import pole_figures
+            pole_figures(folder / "pole_figures", name, phases, hemisphere=hemisphere, **options)
+
+        def inverse_pole_figures(folder: Path) -> None:
+            from fabric2seis.figures.poles import inverse_pole_figures
+            inverse_pole_figures(folder / "inverse_pole_figures", name, phases, **options)
+
+        tasks += [FigureTask("pole_figures", pole_figures, True),
+                  FigureTask("inverse_pole_figures", inverse_pole_figures, True)]
+
+    def overview(folder: Path) -> None:
+        from fabric2seis.figures.map_overview import map_overview_figure
+        map_overview_figure(folder / "map_overview", sample)        # maps only
+
+    tasks.append(FigureTask("map_overview", overview, True))
     n_grains = int(sample.grains.n_grains) if sample.grains is not None else int(len(sample.points.quat))
-    tasks.append(("velocities", lambda folder: velocity_figure(
-        folder / "velocities", name, agg.stiffness, agg.density_kg_m3, agg.average, n_grains,
-        panels=velocity_panels(sample.settings), grid=seismic.grid)))
+
+    def velocities(folder: Path) -> None:
+        from fabric2seis.figures.velocities import velocity_figure
+        velocity_figure(folder / "velocities", name, agg.stiffness, agg.density_kg_m3, agg.average, n_grains,
+                        panels=velocity_panels(sample.settings), grid=seismic.grid)
+
+    tasks.append(FigureTask("velocities", velocities))
     if fabric.phases:
-        tasks.append(("fabric_convergence", lambda folder: convergence_figure(
-            folder / "fabric_convergence", name, {m: p.convergence for m, p in fabric.phases.items()})))
+        def convergence(folder: Path) -> None:
+            from fabric2seis.figures.poles import convergence_figure
+            convergence_figure(folder / "fabric_convergence", name,
+                               {m: p.convergence for m, p in fabric.phases.items()})
+
+        tasks.append(FigureTask("fabric_convergence", convergence))
     sweep, field = seismic.sweep, seismic.field
     if sweep is not None and field is not None:
-        tasks.append(("splitting_vs_backazimuth", lambda folder: splitting_figure(
-            folder / "splitting_vs_backazimuth", name, sweep, field)))
+        def splitting(folder: Path) -> None:
+            from fabric2seis.figures.splitting import splitting_figure
+            splitting_figure(folder / "splitting_vs_backazimuth", name, sweep, field)
+
+        tasks.append(FigureTask("splitting_vs_backazimuth", splitting))
     return tasks
 
 
@@ -398,8 +430,8 @@ def draw_sample_figures(folder: Path, sample: Sample, fabric: FabricResult, seis
         Logs each figure with the seconds it took.
     """
     log.say("drawing figures")
-    for _, draw in figure_tasks(sample, fabric, seismic):
-        draw(folder)
+    for task in figure_tasks(sample, fabric, seismic):
+        task.draw(folder)
         log.wrote(folder)
 
 
@@ -407,12 +439,14 @@ class SampleFigures:
     """A sample's figures: drawn by a second process while the bootstrap runs and by this one after it.
 
     :meth:`start` (called once the seismic stage is done) forks when the run may use two threads
-    (``second_process.can_fork``). Both processes then take figures from one queue
-    (:func:`figure_tasks`, longest first, one byte per figure in a pipe, so that each is taken
-    once): the second process from the start, drawing into a scratch folder in the system's
-    temporary space; this one once its own work is done (:meth:`write_into`), drawing straight into
-    the results folder. :meth:`write_into` then waits for the second process and moves its figures
-    in. When nothing was started, :meth:`write_into` draws every figure here. Either way the same
+    (``second_process.can_fork``). Both processes then take figures from queues (:func:`figure_tasks`,
+    longest first, one byte per figure in a pipe, so that each is taken once): the second process
+    from the start, drawing into a scratch folder in the system's temporary space, first the
+    figures that need orix (a queue of their own), then the others; this one once its own work is
+    done (:meth:`write_into`), drawing straight into the results folder, only figures without orix,
+    so that this process never imports it. :meth:`write_into` then waits for the second process
+    and moves its figures in. When nothing was started, :meth:`write_into` draws every figure
+    here. Either way the same
     code draws the same figures, the same bytes. The second process counts as one of the run's
     threads: until it is done this process may use one thread fewer (``threads.threads_given``).
     Use as a context manager: leaving it stops a second process still drawing and removes the
@@ -431,8 +465,8 @@ class SampleFigures:
 
         self.sample, self.log = sample, log
         self._job: SecondProcess[list[str]] | None = None
-        self._queue: int | None = None                   # read end of the pipe of figure numbers
-        self._tasks: list[tuple[str, Callable]] = []     # figure_tasks, made once for both processes
+        self._queues: list[int] = []                     # read ends of the pipes of figure numbers (orix, other)
+        self._tasks: list[FigureTask] = []               # figure_tasks, made once for both processes
         self._scratch: Path | None = None
         self._fewer_threads = contextlib.ExitStack()     # this process's share while the second one draws
 
@@ -456,18 +490,22 @@ class SampleFigures:
         if len(tasks) > 255:
             return
         scratch = self._scratch = Path(tempfile.mkdtemp(prefix="fabric2seis-figures-"))
-        self._queue, writer = os.pipe()
-        os.write(writer, bytes(range(len(tasks))))      # a few bytes: never more than the pipe holds
-        os.close(writer)                                 # an empty queue then reads as the end
-        queue, log = self._queue, self.log
+        for with_orix in (True, False):
+            reader, writer = os.pipe()
+            # a few bytes: never more than the pipe holds; closed, an empty queue then reads as the end
+            os.write(writer, bytes(k for k, task in enumerate(tasks) if task.needs_orix == with_orix))
+            os.close(writer)
+            self._queues.append(reader)
+        queues, log = list(self._queues), self.log
 
         def draw() -> list[str]:
             child = type(log)()
             child.started = log.started
             with threads_given(1):              # the second process is one of the run's threads
-                for k in _taken(queue):
-                    tasks[k][1](scratch)
-                    child.wrote(scratch)
+                for queue in queues:
+                    for k in _taken(queue):
+                        tasks[k].draw(scratch)
+                        child.wrote(scratch)
             return child.lines
 
         threads = thread_count()
@@ -496,9 +534,9 @@ class SampleFigures:
         if self._job is None:
             draw_sample_figures(folder, self.sample, fabric, seismic, self.log)
             return
-        assert self._scratch is not None and self._queue is not None
-        for k in _taken(self._queue):
-            self._tasks[k][1](folder)
+        assert self._scratch is not None and self._queues
+        for k in _taken(self._queues[1]):                # the figures without orix
+            self._tasks[k].draw(folder)
             self.log.wrote(folder)
         waited = time.perf_counter()
         lines = self._job.result()
@@ -522,9 +560,9 @@ class SampleFigures:
             self._job.stop()
             self._job = None
         self._fewer_threads.close()
-        if self._queue is not None:
-            os.close(self._queue)
-            self._queue = None
+        for queue in self._queues:
+            os.close(queue)
+        self._queues = []
         if self._scratch is not None:
             shutil.rmtree(self._scratch, ignore_errors=True)
             self._scratch = None

@@ -4,7 +4,17 @@ import numpy as np
 from orix.quaternion import Misorientation, Orientation, Rotation
 
 from fabric2seis.elastic.minerals import find_mineral
-from fabric2seis.orientations import misorientation_angles, multiply, nearest_equivalent, proper_symmetry_quaternions
+from fabric2seis.orientations import (
+    from_axis_angle,
+    from_bunge_euler,
+    from_matrices,
+    misorientation_angles,
+    multiply,
+    nearest_equivalent,
+    proper_symmetry_quaternions,
+    to_bunge_euler,
+    to_matrices,
+)
 from fabric2seis.synth import random_quaternions
 
 
@@ -18,7 +28,7 @@ def test_product_matches_orix_and_matrix_product():
 def test_misorientation_angles_match_orix_for_several_symmetries():
     rng = np.random.default_rng(1)
     for name in ("olivine", "pyrope", "quartz", "muscovite", "albite"):
-        sym = find_mineral(name).symmetry
+        sym = find_mineral(name).orix_symmetry
         a, b = random_quaternions(300, rng), random_quaternions(300, rng)
         ours = misorientation_angles(a, b, proper_symmetry_quaternions(sym))
         oa, ob = Orientation(a, sym.proper_subgroup), Orientation(b, sym.proper_subgroup)
@@ -88,3 +98,44 @@ def test_matrices_of_quaternions_are_orix_matrices():
     q = np.random.default_rng(12).normal(size=(500, 4))
     q /= np.linalg.norm(q, axis=1, keepdims=True)
     assert np.allclose(to_matrices(q), Rotation(q).to_matrix().reshape(-1, 3, 3), atol=1e-14)
+
+
+def random_euler(n, rng):
+    angles = rng.uniform([0, 0, 0], [2 * np.pi, np.pi, 2 * np.pi], (n, 3))
+    angles[:20, 1] = 0.0            # Phi = 0 and pi: the two ends where only phi1 +- phi2 is defined
+    angles[20:40, 1] = np.pi
+    angles[40:60] = np.round(angles[40:60] / (np.pi / 2)) * (np.pi / 2)     # quarter turns: exact zeros
+    return angles
+
+
+def test_euler_angles_to_quaternions_are_orix_s_to_the_last_bit():
+    # reference library: orix's Rotation.from_euler (Bunge, passive ZXZ; Rowenhorst et al. 2015,
+    # Eqs. A.5-A.6); the readers use ours so that a run needs no orix; same bits, so results are unchanged
+    euler = random_euler(20000, np.random.default_rng(3))
+    assert np.array_equal(from_bunge_euler(euler), Rotation.from_euler(euler).data)
+
+
+def test_quaternions_to_euler_angles_and_matrices_back_agree_with_orix():
+    # reference library: orix's to_euler and from_matrix (Rowenhorst et al. 2015, Eqs. A.14, A.11);
+    # orix compiles them with fast math, so the last bits may differ: 1e-12 rad
+    rng = np.random.default_rng(4)
+    q = np.vstack([Rotation.from_euler(random_euler(5000, rng)).data, rng.normal(size=(500, 4))])
+    theirs = Rotation(q).to_euler()
+    ours = to_bunge_euler(q)
+    turn = np.abs((ours - theirs + np.pi) % (2 * np.pi) - np.pi)    # 0 and 2 pi are the same angle
+    assert turn.max() < 1e-12
+    assert np.all((ours >= 0) & (ours <= 2 * np.pi))
+    unit = q / np.linalg.norm(q, axis=1)[:, None]
+    assert np.allclose(from_matrices(to_matrices(q)), Rotation.from_matrix(Rotation(q).to_matrix()).data, atol=1e-11)
+    same = np.abs(np.einsum("ij,ij->i", from_matrices(to_matrices(q)), unit))    # q and -q: one rotation
+    assert np.allclose(same, 1.0, atol=1e-12)
+
+
+def test_axis_angle_rotation_is_orix_s():
+    # reference library: orix's Rotation.from_axes_angles; and the matrix of a quarter turn about z
+    # takes x to y (right-hand rule, common practice)
+    rng = np.random.default_rng(5)
+    for axis, angle in zip(rng.normal(size=(50, 3)), rng.uniform(-np.pi, np.pi, 50)):
+        assert np.allclose(from_axis_angle(axis, angle), Rotation.from_axes_angles(axis, angle).data, atol=1e-15)
+    g = to_matrices(from_axis_angle([0, 0, 1], np.pi / 2))[0]
+    assert np.allclose(g @ [1, 0, 0], [0, 1, 0])

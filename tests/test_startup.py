@@ -9,8 +9,6 @@ import subprocess
 import sys
 from pathlib import Path
 
-from fabric2seis.elastic.minerals import POINT_GROUP_NAMES, point_groups
-
 ROOT = Path(__file__).resolve().parents[1]
 ENV = {**os.environ, "PYTHONPATH": str(ROOT)}
 SCRIPTS = ROOT / "fabric2seis" / "workflow" / "scripts"
@@ -60,8 +58,29 @@ def test_the_report_job_of_a_sample_and_the_snakefile_s_helpers_import_no_heavy_
     assert loaded_after(statements) == []
 
 
-def test_the_point_group_names_known_without_orix_are_orix_s_groups_in_order():
-    # POINT_GROUP_NAMES answers "is this a point group" before orix is imported; it must stay the
-    # names of orix's 38 groups (orix.quaternion.symmetry, the reference library) in the same order
-    assert tuple(point_groups()) == POINT_GROUP_NAMES
-    assert len(POINT_GROUP_NAMES) == 38
+def imported_by_a_whole_run(source: Path, out: Path, threads: int) -> list[str]:
+    """The heavy libraries the run's own process holds after ``fabric2seis sample`` (cli.main) returns."""
+    code = "\n".join(["import sys, json", "from fabric2seis.cli import main",
+                      f"code = main(['sample', {str(source)!r}, '--out', {str(out)!r}, '--threads', '{threads}'])",
+                      "assert code == 0, code",
+                      f"print(json.dumps([m for m in {HEAVY!r} if m in sys.modules]))"])
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=ENV, cwd=ROOT)
+    assert done.returncode == 0, done.stderr[-2000:]
+    return json.loads(done.stdout.strip().splitlines()[-1])
+
+
+def test_a_whole_sample_run_on_two_threads_never_imports_orix_in_its_own_process(tmp_path):
+    # orix takes seconds to import (dask, matplotlib, numba caches): the readers of .ang, .ctf and the
+    # CSV table, the point groups, the Euler angles and the lattice need none (fabric2seis.point_groups,
+    # ingest.io.headers, orientations), and with a second process the figures that use orix are drawn
+    # there (sample_output.SampleFigures); the results folder is complete all the same
+    demo = ROOT / "demo_samples"
+    for name in ("VM01_dunite.ang", "VM02_harzburgite.ctf", "VM04_grain_list.csv"):
+        out = tmp_path / name
+        held = imported_by_a_whole_run(demo / name, out, threads=2)
+        assert "orix" not in held and "dask" not in held, (name, held)
+        drawn_with_orix = {"pole_figures.png", "inverse_pole_figures.png"} | (
+            set() if name.endswith(".csv") else {"map_overview.png"})      # a grain list has no map
+        assert drawn_with_orix <= {p.name for p in out.iterdir()}
+    # on one thread every figure is drawn here, orix included (the check above can fail)
+    assert "orix" in imported_by_a_whole_run(demo / "VM04_grain_list.csv", tmp_path / "one", threads=1)

@@ -35,8 +35,8 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
-from orix.vector import Miller
 
+from fabric2seis.elastic.minerals import lattice_vector
 from fabric2seis.errors import InputError
 from fabric2seis.fabric.checks import check_halfwidth, check_poles, check_quaternions, check_weights
 from fabric2seis.fabric.kernel import Kernel, interpolate_on_uniform_grid, pole_self_convolution_table
@@ -56,7 +56,7 @@ def default_poles(mineral) -> list[str]:
     list of str
         Three labels such as ``"[100]"`` or ``"(001)"`` (``minerals.crystal_direction`` reads them).
     """
-    laue = mineral.symmetry.laue.name
+    laue = mineral.symmetry.laue_name
     if laue == "mmm":
         return ["[100]", "[010]", "[001]"]
     if laue == "2/m":
@@ -198,16 +198,13 @@ def pole_direction(mineral, label: str | Pole) -> np.ndarray:
     if not any(idx):
         raise ValueError(f"'{pole.text}' has only zero indices")
     if len(idx) == 4:
-        if mineral.symmetry.laue.name not in _HEXAGONAL_LAUE:
+        if mineral.symmetry.laue_name not in _HEXAGONAL_LAUE:
             raise ValueError(f"'{pole.text}' has four indices, which only hexagonal and trigonal minerals take; "
-                             f"{mineral.name} is {mineral.symmetry.laue.name}: write three")
+                             f"{mineral.name} is {mineral.symmetry.laue_name}: write three")
         if idx[2] != -(idx[0] + idx[1]):
             raise ValueError(f"'{pole.text}': the third of four indices must be minus the sum of the first two "
                              f"({-(idx[0] + idx[1])})")
-        kind = "hkil" if pole.plane else "UVTW"
-    else:
-        kind = "hkl" if pole.plane else "uvw"
-    return Miller(**{kind: list(idx)}, phase=mineral.phase).unit.data[0]
+    return lattice_vector(mineral.lattice, idx, plane=pole.plane)
 
 
 def _entry_for(mineral, chosen: Mapping[str, list[str]] | None) -> list[str] | None:

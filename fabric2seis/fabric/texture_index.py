@@ -186,7 +186,7 @@ def _parseval(sums: np.ndarray, rows: np.ndarray, degree: int, k_l: np.ndarray, 
 
 
 def _symmetry_key(symmetry):
-    return symmetry.name, np.asarray(symmetry.data).round(12).tobytes()
+    return symmetry.name, proper_symmetry_quaternions(symmetry).round(12).tobytes()
 
 
 _FRAMES: dict = {}

@@ -172,8 +172,8 @@ def ipf_colours(quat: np.ndarray, mineral, direction: np.ndarray) -> np.ndarray:
     from orix.quaternion import Orientation
     from orix.vector import Vector3d
 
-    key = IPFColorKeyTSL(mineral.symmetry, Vector3d(np.asarray(direction, dtype=float)))
-    return np.asarray(key.orientation2color(Orientation(quat, mineral.symmetry))).reshape(-1, 3)
+    key = IPFColorKeyTSL(mineral.orix_symmetry, Vector3d(np.asarray(direction, dtype=float)))
+    return np.asarray(key.orientation2color(Orientation(quat, mineral.orix_symmetry))).reshape(-1, 3)
 
 
 def map_overview(sample: Sample, mineral: str | None = None, direction: str = "+z",
@@ -252,7 +252,7 @@ def map_overview(sample: Sample, mineral: str | None = None, direction: str = "+
                handlelength=1.4)
     kax = fig.add_axes(lay.key)
     _colour_key(kax, pts.minerals[main])
-    kax.set_title(f"colour key: {mineral}\n(Laue group {pts.minerals[main].symmetry.laue.name})",
+    kax.set_title(f"colour key: {mineral}\n(Laue group {pts.minerals[main].symmetry.laue_name})",
                   fontsize=7, loc="left", pad=3)
     grid_text = "square" if sample.grid == "square" else "hexagonal"
     x_left = lay.caption[0]
@@ -379,7 +379,7 @@ def _colour_key(ax, mineral) -> None:
     from orix.projections import InverseStereographicProjection, StereographicProjection
     from orix.vector import Vector3d
 
-    laue = mineral.symmetry.laue
+    laue = mineral.orix_symmetry.laue
     sector = laue.fundamental_sector
     n = 241
     u = np.linspace(-1.0, 1.0, n)
@@ -389,7 +389,7 @@ def _colour_key(ax, mineral) -> None:
     inside = np.zeros(disk.shape, dtype=bool)
     inside[disk] = np.all(np.abs(v.in_fundamental_sector(laue).data - v.unit.data) < 1e-9, axis=1)
     image = np.zeros(disk.shape + (4,))
-    key = IPFColorKeyTSL(mineral.symmetry).direction_color_key
+    key = IPFColorKeyTSL(mineral.orix_symmetry).direction_color_key
     image[inside, :3] = key.direction2color(Vector3d(v.unit.data[inside[disk]]))
     image[inside, 3] = 1.0
     ax.imshow(image, extent=(-1 - 1 / (n - 1), 1 + 1 / (n - 1)) * 2, origin="upper", interpolation="antialiased")
@@ -420,7 +420,7 @@ def _corner_labels(mineral, sector) -> list[tuple[str, np.ndarray]]:
     points = [c for c in sector.vertices.unit.data] if sector.vertices.size else []
     if len(points) < 3:
         for axis in np.eye(3):
-            on = np.allclose(Vector3d(axis).in_fundamental_sector(mineral.symmetry.laue).data, axis, atol=1e-9)
+            on = np.allclose(Vector3d(axis).in_fundamental_sector(mineral.orix_symmetry.laue).data, axis, atol=1e-9)
             if on and all(np.degrees(np.arccos(np.clip(axis @ p, -1, 1))) > 5 for p in points):
                 points.append(axis)
     out = []

@@ -27,7 +27,6 @@ from matplotlib.figure import Figure
 from matplotlib.patches import PathPatch
 from matplotlib.path import Path as DrawnPath
 from matplotlib.ticker import FixedLocator, MaxNLocator, NullFormatter, NullLocator, ScalarFormatter
-from orix.vector import Vector3d
 
 from fabric2seis import fabric
 from fabric2seis.fabric.phase import LEVELLING_SIZES
@@ -355,7 +354,7 @@ def sector_outline(mineral) -> np.ndarray:
     Parameters
     ----------
     mineral : fabric2seis.elastic.minerals.Mineral
-        The mineral (its ``symmetry.laue``).
+        The mineral (its ``orix_symmetry.laue``).
 
     Returns
     -------
@@ -363,7 +362,7 @@ def sector_outline(mineral) -> np.ndarray:
         Screen coordinates of orix's ordered edge (``FundamentalSector.edges``), equal area, c* at
         the centre, a to the right, the unit circle being the plane normal to c*.
     """
-    return _sector_screen(mineral.symmetry.laue.fundamental_sector.edges.unit.data)
+    return _sector_screen(mineral.orix_symmetry.laue.fundamental_sector.edges.unit.data)
 
 
 def axis_density_grid(mineral, quat: np.ndarray, weights: np.ndarray, axis, halfwidth_deg: float, n: int = 121):
@@ -398,7 +397,7 @@ def axis_density_grid(mineral, quat: np.ndarray, weights: np.ndarray, axis, half
     inside : numpy.ndarray of bool, shape (n, n)
         Which grid points lie in the sector (orix's bounding normals).
     """
-    sector = mineral.symmetry.laue.fundamental_sector
+    sector = mineral.orix_symmetry.laue.fundamental_sector
     edge = sector_outline(mineral)
     lo, hi = edge.min(axis=0), edge.max(axis=0)
     span = float(np.max(hi - lo))
@@ -460,8 +459,10 @@ def inverse_pole_figure_sheet(sample_name: str, phases: list[tuple], halfwidth_d
     grains, points = dict(grain_counts or {}), dict(point_counts or {})
     n_cols = len(sample_directions)
     fig, bands, grids = _bands(len(phases), n_cols, 2.9)
+    from orix.vector import Vector3d  # here, not at the top: the convergence figure needs no orix
+
     for band, axes, (mineral, quat, weights, labels) in zip(bands, grids, phases):
-        laue = mineral.symmetry.laue
+        laue = mineral.orix_symmetry.laue
         edge = sector_outline(mineral)
         ops = to_matrices(proper_symmetry_quaternions(mineral.symmetry))
         poles = [parse_pole(label) for label in labels]

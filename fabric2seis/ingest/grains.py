@@ -14,7 +14,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from fabric2seis.orientations import nearest_equivalent, proper_symmetry_quaternions, within_angle
+from fabric2seis.orientations import nearest_equivalent, proper_symmetry_quaternions, to_bunge_euler, within_angle
 
 if TYPE_CHECKING:       # pandas and scipy are imported where they are used, to keep start-up short
     import pandas as pd
@@ -305,9 +305,8 @@ def grains_table(grains: Grains, minerals: list[Mineral]) -> pd.DataFrame:
     Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
     """
     import pandas as pd
-    from orix.quaternion import Rotation
 
-    euler = np.degrees(Rotation(grains.quat).to_euler()) % 360.0
+    euler = np.degrees(to_bunge_euler(grains.quat)) % 360.0
     return pd.DataFrame({
         "grain": np.arange(grains.n_grains) + 1,
         "mineral": [minerals[k].name for k in grains.mineral_index],

@@ -8,9 +8,10 @@ from pathlib import Path
 
 import numpy as np
 
-from fabric2seis.elastic.minerals import POINT_GROUP_NAMES, Mineral, find_mineral, load_library, point_groups
+from fabric2seis.elastic.minerals import POINT_GROUP_NAMES, Mineral, find_mineral, load_library
 from fabric2seis.errors import InputError, nearest
 from fabric2seis.ingest.io.record import EBSDData
+from fabric2seis.point_groups import point_group
 
 #: quality measure used by ``clean.quality_min`` / ``quality_max`` when ``clean.quality_field`` is not set
 DEFAULT_QUALITY = ("ci", "bc", "quality")
@@ -156,11 +157,11 @@ def map_phases(data: EBSDData, phases: dict[str, str] | None = None,
                              f"'phases' to library names: {', '.join(sorted(library))}", data.source) from None
         file_group = data.phase_point_groups.get(pid)
         if file_group:
-            file_laue = point_groups()[file_group].laue.name if file_group in POINT_GROUP_NAMES else None
-            if file_laue is not None and file_laue != mineral.symmetry.laue.name:
+            file_laue = point_group(file_group).laue_name if file_group in POINT_GROUP_NAMES else None
+            if file_laue is not None and file_laue != mineral.symmetry.laue_name:
                 raise InputError(f"phase '{name}' has point group {file_group} (Laue class {file_laue}) in "
                                  f"the file, but library mineral '{mineral.name}' is {mineral.point_group} "
-                                 f"(Laue class {mineral.symmetry.laue.name})", data.source)
+                                 f"(Laue class {mineral.symmetry.laue_name})", data.source)
         out[pid] = mineral
     return out
 

@@ -8,14 +8,14 @@ from orix.vector import Miller
 
 from fabric2seis import elastic as el
 from fabric2seis.elastic.minerals import (
-    POINT_GROUPS,
+    POINT_GROUP_NAMES,
     crystal_direction,
     find_mineral,
     load_library,
     load_mineral_file,
-    point_group_symmetry,
 )
 from fabric2seis.errors import InputError
+from fabric2seis.point_groups import point_group
 
 REQUIRED = ["olivine", "enstatite", "diopside", "pyrope", "quartz", "calcite", "albite",
             "hornblende", "antigorite", "muscovite", "ice"]
@@ -87,16 +87,19 @@ def test_point_group_table_holds_the_32_crystal_classes_with_their_orders():
               "4mm": 8, "-42m": 8, "4/mmm": 16, "3": 3, "-3": 6, "32": 6, "3m": 6, "-3m": 12, "6": 6, "-6": 6,
               "6/m": 12, "622": 12, "6mm": 12, "-6m2": 12, "6/mmm": 24, "23": 12, "m-3": 24, "432": 24,
               "-43m": 24, "m-3m": 48}
+    proper_groups = {"1", "222", "4", "422", "3", "32", "6", "622", "23", "432"}
     for name, order in orders.items():
-        assert POINT_GROUPS[name].name == name
-        assert POINT_GROUPS[name].size == order, name
+        group = point_group(name)
+        assert group.name == name and group.to_orix().size == order, name
+        # the proper rotations are all of a proper group and half of any other
+        assert len(group.proper) == (order if name in proper_groups else order // 2), name
     # the classes 2 and m are there in orix's settings with the axis named (211, 121, 112, m11 ...)
-    assert {"211", "121", "112", "m11", "1m1", "11m"} <= set(POINT_GROUPS)
-    assert len(POINT_GROUPS) == 38
+    assert {"211", "121", "112", "m11", "1m1", "11m"} <= set(POINT_GROUP_NAMES)
+    assert len(POINT_GROUP_NAMES) == 38
     # b-unique 2/m: the 2-fold along y (b), four operations
-    group = point_group_symmetry("2/m", "b")
-    assert group.size == 4 and group.name == "2/m"
-    assert np.allclose(np.abs(group.data[np.abs(group.data[:, 0]) < 1e-9][0]), [0, 0, 1, 0])
+    group = point_group("2/m", "b")
+    assert group.to_orix().size == 4 and group.name == "2/m" and group.laue_name == "2/m"
+    assert np.allclose(np.abs(group.proper[1]), [0, 0, 1, 0])
 
 
 @pytest.mark.parametrize("name", ["olivine", "enstatite"])

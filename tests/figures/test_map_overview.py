@@ -88,8 +88,8 @@ def test_orientation_colours_are_orix_ipf_colours_of_the_map_axis(square, max_ce
     # reference: orix's own TSL key for the sample axis (Nolze & Hielscher 2016), on the orientations
     # as synthesised, in the sample frame: the settings' frame turn must not change the colours
     axis = {"+z": Vector3d.zvector(), "-x": -Vector3d.xvector()}[direction]
-    key = IPFColorKeyTSL(find_mineral("olivine").symmetry, axis)
-    expected = key.orientation2color(Orientation(m.quat[point[olivine]], find_mineral("olivine").symmetry))
+    key = IPFColorKeyTSL(find_mineral("olivine").orix_symmetry, axis)
+    expected = key.orientation2color(Orientation(m.quat[point[olivine]], find_mineral("olivine").orix_symmetry))
     assert olivine.sum() > 100
     assert np.abs(image[olivine, :3] - expected).max() < 1e-4       # Euler angles rounded to 1e-5 deg in the CSV
     assert np.all(image[shown == "enstatite", :3] == 0.85)          # other phases: one pale grey

@@ -99,7 +99,7 @@ def test_sector_covers_its_share_of_the_sphere(name):
     # the |G| images of a fundamental sector of the Laue group G tile the sphere (orix, common
     # practice), so its equal-area image has 2 pi / |G| of the disk's area pi (the upper half)
     mineral = find_mineral(name)
-    assert _area(sector_outline(mineral)) == pytest.approx(2.0 * np.pi / mineral.symmetry.laue.size, rel=0.01)
+    assert _area(sector_outline(mineral)) == pytest.approx(2.0 * np.pi / mineral.orix_symmetry.laue.size, rel=0.01)
 
 
 def test_sector_of_mmm_is_the_octant_and_of_6_mmm_is_30_degrees_wide():

@@ -2,7 +2,8 @@
 
 Each mineral is one YAML file in ``data/`` (see DEVELOPERS.md, "Adding a mineral"). On load
 every entry is converted from the Cartesian setting in which its constants were published into
-the crystal Cartesian frame orix uses for the phase (e1 || a, e3 || c*), and checked: symmetric,
+the crystal Cartesian frame orix uses for the phase (e1 || a, e3 || c*; computed here without
+importing orix: ``fabric2seis.point_groups`` and :func:`lattice_base`), and checked: symmetric,
 positive definite, and invariant under every operation of its point group (which is the zero
 pattern and the equalities of its symmetry class, in whatever setting it was published). The
 optional ``optics`` key (refractive indices and the indicatrix) is read and checked by ``optical``.
@@ -24,10 +25,12 @@ import yaml
 from fabric2seis.elastic import check_stiffness, rotate_voigt
 from fabric2seis.elastic.minerals.optical import OpticalConstants, read_optics
 from fabric2seis.errors import InputError, nearest
+from fabric2seis.orientations import from_axis_angle, to_matrices
+from fabric2seis.point_groups import POINT_GROUP_NAMES, PointGroup, point_group
 
-if TYPE_CHECKING:       # orix is imported where it is used: importing it takes seconds (matplotlib, numba)
+if TYPE_CHECKING:       # orix is imported only for figures: importing it takes seconds (dask, matplotlib, numba)
     from orix.crystal_map import Phase
-    from orix.quaternion import symmetry as orix_symmetry
+    from orix.quaternion import Symmetry
 
 DATA_DIR = Path(__file__).with_name("data")
 
@@ -41,39 +44,6 @@ _TWIN_KEYS = ("name", "axis", "angle_deg", "source")
 _AXIS_NAMES = ("a", "b", "c", "a*", "b*", "c*")
 #: absolute tolerance (GPa) for the symmetry check: published constants are rounded to 0.1 GPa
 SYMMETRY_TOLERANCE_GPA = 0.06
-#: orix's 38 point groups by name, from the public names of ``orix.quaternion.symmetry`` (the
-#: monoclinic and orthorhombic groups with an axis named are orix's "211", "121", "112", "m11" ...)
-POINT_GROUP_NAMES = ("1", "-1", "211", "121", "112", "m11", "1m1", "11m", "2/m", "222", "mm2", "mmm",
-                     "4", "-4", "4/m", "422", "4mm", "-42m", "4/mmm", "3", "-3", "321", "312", "32", "3m",
-                     "-3m", "6", "-6", "6/m", "622", "6mm", "-6m2", "6/mmm", "23", "m-3", "432", "-43m",
-                     "m-3m")
-
-
-@functools.cache
-def point_groups() -> dict[str, orix_symmetry.Symmetry]:
-    """orix's 38 point groups by name (``POINT_GROUP_NAMES``); orix is imported on the first call."""
-    from orix.quaternion import symmetry as orix_symmetry
-
-    return {group.name: group for group in (
-            orix_symmetry.C1, orix_symmetry.Ci,
-            orix_symmetry.C2x, orix_symmetry.C2y, orix_symmetry.C2z, orix_symmetry.Csx, orix_symmetry.Csy,
-            orix_symmetry.Csz, orix_symmetry.C2h,
-            orix_symmetry.D2, orix_symmetry.C2v, orix_symmetry.D2h,
-            orix_symmetry.C4, orix_symmetry.S4, orix_symmetry.C4h, orix_symmetry.D4, orix_symmetry.C4v,
-            orix_symmetry.D2d, orix_symmetry.D4h,
-            orix_symmetry.C3, orix_symmetry.S6, orix_symmetry.D3x, orix_symmetry.D3y, orix_symmetry.D3,
-            orix_symmetry.C3v, orix_symmetry.D3d,
-            orix_symmetry.C6, orix_symmetry.C3h, orix_symmetry.C6h, orix_symmetry.D6, orix_symmetry.C6v,
-            orix_symmetry.D3h, orix_symmetry.D6h,
-            orix_symmetry.T, orix_symmetry.Th, orix_symmetry.O, orix_symmetry.Td, orix_symmetry.Oh)}
-
-
-def __getattr__(name: str):
-    if name == "POINT_GROUPS":        # the dictionary of orix's groups, built when first asked for
-        return point_groups()
-    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-
-
 @dataclass(frozen=True)
 class Mineral:
     """One entry of the mineral library.
@@ -158,9 +128,14 @@ class Mineral:
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     @property
-    def symmetry(self) -> orix_symmetry.Symmetry:
-        """orix point-group symmetry in the crystal frame (2-fold along b for b-unique monoclinic)."""
-        return point_group_symmetry(self.point_group, self.unique_axis)
+    def symmetry(self) -> PointGroup:
+        """Point group in orix's crystal frame (2-fold along b for b-unique monoclinic), without orix."""
+        return point_group(self.point_group, self.unique_axis)
+
+    @property
+    def orix_symmetry(self) -> Symmetry:
+        """The same point group as orix's Symmetry (imports orix: figures use it)."""
+        return self.symmetry.to_orix()
 
     @property
     def constants_recalled(self) -> bool:
@@ -207,65 +182,30 @@ class Mineral:
         list of numpy.ndarray, each shape (3, 3)
             One rotation per twin law, in orix's crystal frame; empty without twins.
         """
-        from orix.quaternion import Rotation
-
         out = []
         for twin in self.twins:
             axis = crystal_directions(self.lattice)[twin["axis"]]
-            out.append(Rotation.from_axes_angles(axis, np.radians(twin["angle_deg"])).to_matrix()[0])
+            out.append(to_matrices(from_axis_angle(axis, np.radians(twin["angle_deg"])))[0])
         return out
 
     @property
     def phase(self) -> Phase:
-        """An orix Phase with this mineral's point group and lattice."""
+        """An orix Phase with this mineral's point group and lattice (imports orix)."""
         from diffpy.structure import Lattice, Structure
         from orix.crystal_map import Phase
 
         lat = self.lattice
         structure = Structure(lattice=Lattice(lat["a"], lat["b"], lat["c"],
                                               lat["alpha"], lat["beta"], lat["gamma"]))
-        return Phase(name=self.name, point_group=self.symmetry, structure=structure)
-
-
-def point_group_symmetry(point_group: str, unique_axis: str | None = None) -> orix_symmetry.Symmetry:
-    """Return the orix Symmetry for a point-group name; monoclinic groups honour ``unique_axis``.
-
-    orix's own ``2/m`` puts the 2-fold along z (c unique). Most rock-forming monoclinic minerals
-    are described with b unique, where the 2-fold lies along b, which is orix's y axis.
-
-    Parameters
-    ----------
-    point_group : str
-        One of the names in ``POINT_GROUPS`` (e.g. ``"mmm"``, ``"2/m"``, ``"-3m"``).
-    unique_axis : {"b", "c"}, optional
-        Unique axis of a monoclinic group.
-
-    Returns
-    -------
-    orix.quaternion.Symmetry
-        The point group in orix's crystal frame.
-
-    Raises
-    ------
-    KeyError
-        If the name is not a point group orix knows.
-    """
-    from orix.quaternion import symmetry as orix_symmetry
-
-    if point_group not in POINT_GROUP_NAMES:
-        raise KeyError(point_group)
-    if point_group in ("2", "m", "2/m") and unique_axis == "b":
-        proper = orix_symmetry.C2y
-        if point_group == "2":
-            return proper
-        group = orix_symmetry.Symmetry.from_generators(proper, orix_symmetry.Ci)
-        group.name = "2/m"
-        return group
-    return point_groups()[point_group]
+        return Phase(name=self.name, point_group=self.orix_symmetry, structure=structure)
 
 
 def lattice_base(lattice: dict) -> np.ndarray:
     """Rows a, b, c of the direct lattice in orix's crystal Cartesian frame (e1 || a, e3 || c*).
+
+    a along e1, b in the e1-e2 plane, c completing the cell (International Tables for
+    Crystallography, Vol. B, ch. 1.1; the setting orix and diffpy.structure use, checked against
+    them in tests/elastic/test_minerals.py).
 
     Parameters
     ----------
@@ -277,12 +217,49 @@ def lattice_base(lattice: dict) -> np.ndarray:
     numpy.ndarray, shape (3, 3)
         The lattice vectors as rows, in angstrom.
     """
-    from diffpy.structure import Lattice, Structure
-    from orix.crystal_map import Phase
+    a, b, c = (float(lattice[k]) for k in ("a", "b", "c"))
+    cos_a, cos_b, cos_g = (_cos_deg(float(lattice[k])) for k in ("alpha", "beta", "gamma"))
+    sin_g = _cos_deg(90.0 - float(lattice["gamma"]))
+    cx = c * cos_b
+    cy = c * (cos_a - cos_b * cos_g) / sin_g
+    return np.array([[a, 0.0, 0.0], [b * cos_g, b * sin_g, 0.0], [cx, cy, np.sqrt(c * c - cx * cx - cy * cy)]])
 
-    return np.asarray(Phase(point_group="1", structure=Structure(lattice=Lattice(
-        lattice["a"], lattice["b"], lattice["c"],
-        lattice["alpha"], lattice["beta"], lattice["gamma"]))).structure.lattice.base, dtype=float)
+
+#: cosines of angles (degrees) that are exact, so that right angles give exact zeros (as diffpy.structure does)
+_EXACT_COS = {0.0: 1.0, 60.0: 0.5, 90.0: 0.0, 120.0: -0.5, 180.0: -1.0, 240.0: -0.5, 270.0: 0.0, 300.0: 0.5}
+
+
+def _cos_deg(angle: float) -> float:
+    return _EXACT_COS.get(angle % 360.0, float(np.cos(np.radians(angle))))
+
+
+def lattice_vector(lattice: dict, indices, plane: bool) -> np.ndarray:
+    """Unit vector of a lattice direction [uvw] or of the normal of a plane (hkl), in orix's crystal frame.
+
+    Four indices are hexagonal axes: a direction [UVTW] is [2U + V, 2V + U, W] on a, b, c and a
+    plane (hkil) is (hkl) (International Tables for Crystallography, Vol. A; the conversions orix's
+    ``Miller`` makes, checked against it in tests/fabric/test_poles.py).
+
+    Parameters
+    ----------
+    lattice : dict
+        Lattice parameters ``a``, ``b``, ``c`` (angstrom) and ``alpha``, ``beta``, ``gamma`` (degrees).
+    indices : sequence of int
+        Three or four Miller indices.
+    plane : bool
+        Plane normal (hkl) rather than direction [uvw].
+
+    Returns
+    -------
+    numpy.ndarray, shape (3,)
+        Unit vector, dimensionless.
+    """
+    idx = [float(i) for i in indices]
+    if len(idx) == 4:
+        idx = [idx[0], idx[1], idx[3]] if plane else [2 * idx[0] + idx[1], 2 * idx[1] + idx[0], idx[3]]
+    base = lattice_base(lattice)
+    vector = np.linalg.inv(base) @ np.array(idx) if plane else np.array(idx) @ base
+    return vector / np.linalg.norm(vector)
 
 
 def crystal_directions(lattice: dict) -> dict[str, np.ndarray]:
@@ -310,7 +287,7 @@ def crystal_direction(mineral: Mineral, label: str) -> np.ndarray:
     Parameters
     ----------
     mineral : Mineral
-        Gives the lattice (through ``mineral.phase``).
+        Gives the lattice.
     label : str
         Miller indices: ``"[uvw]"`` for a lattice direction, ``"(hkl)"`` for the normal of a plane.
         Single digits may be written together (``"[100]"``); otherwise separate them with spaces or
@@ -321,13 +298,10 @@ def crystal_direction(mineral: Mineral, label: str) -> np.ndarray:
     numpy.ndarray
         Unit vector (3,) in the crystal Cartesian frame (e1 || a, e3 || c*), dimensionless.
     """
-    from orix.vector import Miller
-
     text = label.strip()
     numbers = [int(c) for c in text[1:-1].replace(",", " ").split()] if " " in text or "," in text \
         else [int(c) for c in text[1:-1]]
-    kind = "hkl" if text.startswith("(") else "uvw"
-    return Miller(**{kind: numbers}, phase=mineral.phase).unit.data[0]
+    return lattice_vector(mineral.lattice, numbers, plane=text.startswith("("))
 
 
 def setting_rotation(lattice: dict, published_axes: dict, source: str = "") -> np.ndarray:
@@ -383,7 +357,7 @@ def setting_rotation(lattice: dict, published_axes: dict, source: str = "") -> n
     return np.column_stack([x, y, z])
 
 
-def check_symmetry_pattern(c: np.ndarray, sym: orix_symmetry.Symmetry, source: str = "",
+def check_symmetry_pattern(c: np.ndarray, sym: PointGroup, source: str = "",
                            where: str = "cij_gpa", tol: float = SYMMETRY_TOLERANCE_GPA) -> None:
     """Check that a stiffness is invariant under every operation of a point group.
 
@@ -391,8 +365,9 @@ def check_symmetry_pattern(c: np.ndarray, sym: orix_symmetry.Symmetry, source: s
     ----------
     c : numpy.ndarray, shape (6, 6)
         Voigt stiffness (GPa) or derivative matrix in orix's crystal frame.
-    sym : orix.quaternion.Symmetry
-        Point group; its proper parts suffice, elastic tensors being centrosymmetric.
+    sym : fabric2seis.point_groups.PointGroup
+        Point group; the proper rotations of its Laue class suffice, elastic tensors being
+        centrosymmetric.
     source, where : str
         File and key, for error messages.
     tol : float
@@ -403,9 +378,7 @@ def check_symmetry_pattern(c: np.ndarray, sym: orix_symmetry.Symmetry, source: s
     InputError
         Unless ``c`` (orix crystal frame) is invariant under every operation of ``sym``.
     """
-    from orix.quaternion import Rotation
-
-    ops = Rotation(sym.data).to_matrix()  # proper parts; elastic tensors are centrosymmetric
+    ops = to_matrices(sym.laue_proper)  # elastic tensors are centrosymmetric
     rotated = rotate_voigt(c, ops)
     diff = np.abs(rotated - c).max(axis=0)
     if diff.max() > tol:
@@ -447,8 +420,6 @@ def load_mineral_file(path: str | Path) -> Mineral:
         break the symmetry of the point group, or optical constants that fail their checks
         (``optical.read_optics``).
     """
-    from orix.quaternion import Rotation
-
     path = Path(path)
     src = str(path)
     try:
@@ -466,7 +437,7 @@ def load_mineral_file(path: str | Path) -> Mineral:
     pg = str(entry["point_group"])
     unique = entry.get("unique_axis")
     try:
-        sym = point_group_symmetry(pg, unique)
+        sym = point_group(pg, unique)
     except KeyError:
         raise InputError(f"unknown point group '{pg}'{nearest(pg, POINT_GROUP_NAMES)}", src, "point_group") from None
     density = float(entry["density_kg_m3"])
@@ -516,7 +487,7 @@ def load_mineral_file(path: str | Path) -> Mineral:
     reference = _reference_conditions(entry.get("reference_conditions"), src)
     check = _aggregate_check(entry.get("aggregate_check"), src)
     optics = read_optics(entry.get("optics"), lattice_base(entry["lattice"]), unique,
-                         Rotation(sym.data).to_matrix(), src)
+                         to_matrices(sym.laue_proper), src)
     memory = entry["from_memory"] or []
     if not isinstance(memory, list):
         raise InputError("from_memory must be a list of the fields recalled ([] when checked)",

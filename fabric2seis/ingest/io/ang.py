@@ -3,7 +3,8 @@
 Euler angles are Bunge angles in radians, as the format stores them; orientations are taken
 as stored, with respect to the map's x, y axes, with no vendor correction. Columns 1-5 are
 phi1, Phi, phi2, x, y and column 8 the phase id in every vendor's layout; the other columns'
-names (ci, iq, fit ...) and the phases of the header are read by orix. Points with confidence
+names (ci, iq, fit ...) and the phases of the header are read as orix reads them
+(``headers``, without importing orix). Points with confidence
 index -1 are not indexed (orix's convention). Every row is checked: angle ranges, the point count
 against NROWS / NCOLS_ODD / NCOLS_EVEN, the grid against ``# GRID:`` and ``# XSTEP:``, points off
 the grid.
@@ -14,12 +15,11 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
-from orix.io.plugins import ang as orix_ang
-from orix.quaternion import Rotation
 
-from fabric2seis.ingest.io.orix_parts import header_phases, one_row_per_phase
+from fabric2seis.ingest.io.headers import ang_columns, ang_phases
 from fabric2seis.ingest.io.record import EBSDData, check_angles, check_map, check_phase_ids
 from fabric2seis.ingest.io.text import line_of_row, plain_text_file, read_numbers
+from fabric2seis.orientations import from_bunge_euler
 
 CORE_COLUMNS = (0, 1, 2, 3, 4, 7)      # phi1, Phi, phi2, x, y, phase id
 
@@ -78,8 +78,11 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
         check_angles(values[:, :3], "radians", path, where, "columns 1-3 (phi1, Phi, phi2)")
         extra = [c for c in range(values.shape[1]) if c not in CORE_COLUMNS]
         phase_id = check_phase_ids(values[:, 7], path, where)
-        names, groups, props = header_phases(orix_ang.file_reader, header, values[one_row_per_phase(phase_id)],
-                                             path, ".ang")
+        # the header's phases go to the ids of the indexed points (orix marks ci = -1 first; the last
+        # column named ci counts, as in orix)
+        ci = [k for k, name in enumerate(ang_columns(header, values.shape[1], path)) if name == "ci"]
+        indexed = phase_id if not ci else phase_id[values[:, ci[-1]] != -1]
+        names, groups, props = ang_phases(header, values.shape[1], np.unique(indexed).tolist(), path)
         columns = dict(zip(props, extra))
         if "ci" in columns:
             phase_id[values[:, columns["ci"]] == -1] = -1
@@ -91,7 +94,7 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
                                "columns 4-5 (x, y)", places)
     quality: dict[str, np.ndarray] = {name: values[:, columns[name]].copy() for name in ("ci", "iq", "fit")
                                       if name in columns}
-    return EBSDData(source=str(path), quat=Rotation.from_euler(values[:, :3]).data, phase_id=phase_id,
+    return EBSDData(source=str(path), quat=from_bunge_euler(values[:, :3]), phase_id=phase_id,
                     phase_names=names, phase_point_groups=groups, x=values[:, 3].copy(), y=values[:, 4].copy(),
                     step=step, grid=grid, quality=quality)
 

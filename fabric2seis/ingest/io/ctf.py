@@ -2,7 +2,8 @@
 
 Columns: Phase, X, Y, Bands, Error, Euler1, Euler2, Euler3 (Bunge, degrees), MAD, BC, BS.
 Phase 0 is not indexed. Orientations are taken as stored, with respect to the map's x, y axes,
-with no vendor correction. CTF maps are square grids. The phases of the header are read by orix;
+with no vendor correction. CTF maps are square grids. The phases of the header are read as orix
+reads them (``headers``, without importing orix);
 every row is checked: angle ranges, the point count against XCells x YCells, the step against
 XStep, points off the grid.
 """
@@ -12,13 +13,12 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
-from orix.io.plugins import ctf as orix_ctf
-from orix.quaternion import Rotation
 
 from fabric2seis.errors import InputError
-from fabric2seis.ingest.io.orix_parts import header_phases, one_row_per_phase
+from fabric2seis.ingest.io.headers import ctf_phases
 from fabric2seis.ingest.io.record import EBSDData, check_angles, check_map, check_phase_ids
 from fabric2seis.ingest.io.text import line_of_row, plain_text_file, read_numbers
+from fabric2seis.orientations import from_bunge_euler
 
 
 def _header(path: Path) -> list[str]:
@@ -90,9 +90,8 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
 
         check_angles(values[:, 5:8], "degrees", path, where, "columns 6-8 (Euler1, Euler2, Euler3)")
         phase_id = check_phase_ids(values[:, 0], path, where)
+        names, groups = ctf_phases(header, np.unique(phase_id).tolist(), path)
         phase_id[phase_id == 0] = -1
-        names, groups, _ = header_phases(orix_ctf.file_reader, header, values[one_row_per_phase(phase_id)],
-                                         path, ".ctf")
         x_cells, y_cells = (_header_number(header, k) for k in ("XCells", "YCells"))
         expected = None
         if x_cells and y_cells and x_cells > 0 and y_cells > 0:
@@ -103,6 +102,6 @@ def read(path: Path, compressed: bool = False) -> EBSDData:
         grid, step = check_map(values[:, 1], values[:, 2], path, "square", _header_number(header, "XStep"),
                                expected, where, "columns 2-3 (X, Y)", places)
     quality = {"mad": values[:, 8].copy(), "bc": values[:, 9].copy(), "bs": values[:, 10].copy()}
-    return EBSDData(source=str(path), quat=Rotation.from_euler(np.radians(values[:, 5:8])).data,
+    return EBSDData(source=str(path), quat=from_bunge_euler(np.radians(values[:, 5:8])),
                     phase_id=phase_id, phase_names=names, phase_point_groups=groups, x=values[:, 1].copy(),
                     y=values[:, 2].copy(), step=step, grid=grid, quality=quality)

@@ -4,8 +4,6 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from orix import io as orix_io
-
 from fabric2seis.errors import InputError
 from fabric2seis.ingest.io.orix_parts import from_crystal_map
 from fabric2seis.ingest.io.record import EBSDData
@@ -31,6 +29,8 @@ def read(path: Path) -> EBSDData:
     InputError
         If the file is empty, orix cannot read it, or it holds fewer than two points.
     """
+    from orix import io as orix_io      # here: only HDF5 files need orix on the reading path
+
     if path.stat().st_size == 0:
         raise InputError("the file is empty", path)
     try:

@@ -1,97 +1,15 @@
-"""What the readers take from orix: the phases of a file's header, and HDF5 crystal maps.
+"""What the HDF5 reader takes from orix: the crystal map orix reads, as an EBSDData record.
 
-The .ang and .ctf readers parse the numbers themselves (one pass, every row checked) and ask
-orix only for what the header says about the phases: orix reads a copy of the header with the
-first data row, so its own header parsing (names, point groups, vendor columns) is used through
-its public reader and nothing is read twice.
+The .ang and .ctf readers need no orix: they parse the numbers themselves (one pass, every row
+checked) and read the header's phases as orix does (``headers``).
 """
 
 from __future__ import annotations
-
-import tempfile
-from pathlib import Path
 
 import numpy as np
 
 from fabric2seis.errors import InputError
 from fabric2seis.ingest.io.record import EBSDData, check_map, check_phase_ids
-from fabric2seis.ingest.io.text import quiet
-
-
-def header_phases(file_reader, header: list[str], rows: np.ndarray, source: Path, suffix: str
-                  ) -> tuple[dict[int, str], dict[int, str | None], list[str]]:
-    """Read phase names and point groups by id, and the names of the extra columns, as orix reads them.
-
-    ``file_reader`` is orix's reader of the format, ``header`` the header lines, ``rows`` one data
-    row (as numbers) for each phase id that occurs in the file, so that orix matches the header's
-    phases to the ids exactly as it would reading the whole file.
-
-    Parameters
-    ----------
-    file_reader : callable
-        orix's reader of the format (takes a file name, returns a CrystalMap).
-    header : list of str
-        The header lines, with their line ends.
-    rows : numpy.ndarray, shape (P, C)
-        One data row per phase id.
-    source : Path
-        The file, for error messages.
-    suffix : str
-        The format's suffix, e.g. ``".ang"``.
-
-    Returns
-    -------
-    names : dict of int to str
-        Phase name by id.
-    point_groups : dict of int to str or None
-        Point group by id, None where the header gives none.
-    columns : list of str
-        Names of the columns beyond the ones every file of the format has.
-
-    Raises
-    ------
-    InputError
-        If orix cannot read the header.
-    """
-    if len(rows) == 1:
-        rows = np.repeat(rows, 2, axis=0)      # orix's text loading needs two rows to see a table
-    rows = np.where(np.isfinite(rows), rows, 0.0)  # orix needs only the phase ids; the caller checks the rest
-    with tempfile.TemporaryDirectory(prefix="fabric2seis-") as tmp:
-        head = Path(tmp) / f"header{suffix}"
-        body = "".join("\t".join(repr(float(v)) for v in row) + "\n" for row in rows)
-        head.write_text("".join(header) + body)
-        try:
-            xmap = quiet(file_reader, str(head))
-        except Exception as exc:  # orix raises several types for a header it cannot read
-            raise InputError(f"the header cannot be read ({type(exc).__name__}: {str(exc)[:120]})", source) from None
-    names, groups = _phases(xmap)
-    return names, groups, list(xmap.prop)
-
-
-def one_row_per_phase(phase_id: np.ndarray) -> np.ndarray:
-    """Find the first row of every distinct phase id (-1 included).
-
-    Parameters
-    ----------
-    phase_id : numpy.ndarray of int, shape (N,)
-        Phase of each point.
-
-    Returns
-    -------
-    numpy.ndarray of int, shape (P,)
-        Row indices, in increasing order of phase id.
-    """
-    return np.unique(phase_id, return_index=True)[1]
-
-
-def _phases(xmap) -> tuple[dict[int, str], dict[int, str | None]]:
-    names, groups = {}, {}
-    for pid, phase in xmap.phases:
-        if pid < 0:
-            continue
-        names[int(pid)] = phase.name or f"phase {pid}"
-        groups[int(pid)] = phase.point_group.name if phase.point_group is not None else None
-    return names, groups
 
 
 def from_crystal_map(xmap, source, quality_names: dict[str, str]) -> EBSDData:
@@ -143,3 +61,14 @@ def from_crystal_map(xmap, source, quality_names: dict[str, str]) -> EBSDData:
     grid, step = check_map(x, y, source)
     return EBSDData(source=str(source), quat=quat, phase_id=phase_id, phase_names=names, phase_point_groups=groups,
                     x=x, y=y, step=step, grid=grid, quality=quality)
+
+
+def _phases(xmap) -> tuple[dict[int, str], dict[int, str | None]]:
+    """Phase names and point groups by id of an orix CrystalMap (unnamed phases as "phase <id>")."""
+    names, groups = {}, {}
+    for pid, phase in xmap.phases:
+        if pid < 0:
+            continue
+        names[int(pid)] = phase.name or f"phase {pid}"
+        groups[int(pid)] = phase.point_group.name if phase.point_group is not None else None
+    return names, groups

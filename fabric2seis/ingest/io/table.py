@@ -13,11 +13,11 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-from orix.quaternion import Rotation
 
 from fabric2seis.errors import InputError
 from fabric2seis.ingest.io.record import EBSDData, check_angles, check_map
 from fabric2seis.ingest.io.text import csv_line_of_row, csv_row_longer_than_header, decode, plain_text_file
+from fabric2seis.orientations import from_bunge_euler
 
 REQUIRED = ("phase", "phi1", "Phi", "phi2")
 OPTIONAL = ("weight", "x", "y", "quality")
@@ -111,7 +111,7 @@ def _record(frame: pd.DataFrame, path: Path, angle_units: str, where) -> EBSDDat
                 raise InputError(f"every weight of phase '{name}' is 0; give its grains their areas or volumes, "
                                  "or leave the weight column out", path, "column weight")
     quality = {"quality": numbers["quality"]} if "quality" in numbers else {}
-    return EBSDData(source=str(path), quat=Rotation.from_euler(euler).data, phase_id=phase_id,
+    return EBSDData(source=str(path), quat=from_bunge_euler(euler), phase_id=phase_id,
                     phase_names={i: n for n, i in ids.items()},
                     phase_point_groups={i: None for i in ids.values()},
                     x=x, y=y, step=step, grid=grid, quality=quality, weights=weights)

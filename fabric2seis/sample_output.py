@@ -341,6 +341,21 @@ def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, s
     return out
 
 
+def load_figure_libraries() -> None:
+    """Import the figure modules and the parts of orix and matplotlib they use, in this process.
+
+    A process that runs several samples one after the other (a batch job) calls this once: each
+    sample's second process, forked from it, then starts with them loaded instead of importing
+    them again (orix takes seconds). A single sample's process does not: it never needs orix.
+    """
+    import orix.plot  # noqa: F401  (orix's plotting and colour keys, with its quaternions and vectors)
+
+    import fabric2seis.figures.map_overview  # noqa: F401
+    import fabric2seis.figures.poles  # noqa: F401
+    import fabric2seis.figures.splitting  # noqa: F401
+    import fabric2seis.figures.velocities  # noqa: F401
+
+
 @dataclass(frozen=True)
 class FigureTask:
     """One figure of a sample's results folder: its file stem, ``draw(folder)`` writing its files,

@@ -103,3 +103,22 @@ def test_a_batch_records_each_member_keeps_unchanged_ones_and_recomputes_changed
     run_batch([_member(root, name, files[name], settings="s2") for name in ("a", "bad", "c")], _writer(calls, root),
               recompute=True, note=lambda line: None)
     assert calls == ["a", "bad", "c"]                               # a forced run
+
+
+def test_a_batch_loads_the_figures_libraries_once_and_only_when_it_computes_two_or_more(tmp_path):
+    # common practice (fork without exec): what the batch process imports before the samples' second
+    # processes are forked, they inherit; one sample alone needs no orix in its own process
+    root = tmp_path / "results"
+    files = _files(tmp_path / "samples", {"a": 10, "b": 10})
+    members = [_member(root, name, files[name]) for name in ("a", "b")]
+    loads: list[int] = []
+    calls: list[str] = []
+    run_batch(members, _writer(calls, root), note=lambda line: None, before_several=lambda: loads.append(len(calls)))
+    assert loads == [0] and calls == ["a", "b"]             # once, before the first member
+    for member in members:
+        (root / "status" / f"{member.sample}.json").unlink()
+    files["b"].write_bytes(b"z" * 10)                       # only b changed: one to compute
+    calls.clear()
+    run_batch([_member(root, name, files[name]) for name in ("a", "b")], _writer(calls, root),
+              note=lambda line: None, before_several=lambda: loads.append(len(calls)))
+    assert calls == ["b"] and loads == [0]

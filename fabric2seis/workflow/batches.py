@@ -121,7 +121,8 @@ def kept_status(member: BatchMember, inputs: str) -> SampleStatus | None:
 
 
 def run_batch(members: list[BatchMember], run: Callable[[BatchMember], object], recompute: bool = False,
-              note: Callable[[str], object] = print) -> list[SampleStatus]:
+              note: Callable[[str], object] = print,
+              before_several: Callable[[], object] | None = None) -> list[SampleStatus]:
     """Run the members of a batch one after the other in this process, each as its own sample job would.
 
     Parameters
@@ -134,12 +135,18 @@ def run_batch(members: list[BatchMember], run: Callable[[BatchMember], object], 
         Compute every member, kept or not (a forced run).
     note : callable
         Takes one line per member for the batch's log.
+    before_several : callable, optional
+        Called once before the first member computed when two or more are to be computed (the
+        batch script imports there what every sample's figures need, once for all of them).
 
     Returns
     -------
     list of SampleStatus
         What was written, in the order of ``members``.
     """
+    computed = [m for m in members if recompute or kept_status(m, inputs_digest(m.input, m.settings)) is None]
+    if before_several is not None and len(computed) >= 2:
+        before_several()
     written = []
     for member in members:
         inputs = inputs_digest(member.input, member.settings)

@@ -98,7 +98,7 @@ def read_ebsd(path: str | Path, angle_units: str = "degrees") -> EBSDData:
     ----------
     Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
     """
-    from fabric2seis.ingest.io import ang, ctf, h5, table   # each imports only what its format needs
+    from fabric2seis.ingest.io import ang, ctf, h5, table  # each imports only what its format needs
 
     path = Path(path)
     suffix, compressed = format_of(path)

@@ -29,7 +29,7 @@ def read(path: Path) -> EBSDData:
     InputError
         If the file is empty, orix cannot read it, or it holds fewer than two points.
     """
-    from orix import io as orix_io      # here: only HDF5 files need orix on the reading path
+    from orix import io as orix_io  # here: only HDF5 files need orix on the reading path
 
     if path.stat().st_size == 0:
         raise InputError("the file is empty", path)

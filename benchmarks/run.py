@@ -140,7 +140,7 @@ def run_benchmark(name: str, arguments: list[str], folder: Path) -> dict:
     rows = json.loads(rows_file.read_text())["rows"] if rows_file.is_file() else []
     return {"name": name, "arguments": arguments, "status": status, "wall_s": wall, "started": started,
             "load_before": list(load_before), "load_after": list(os.getloadavg()), "rows": rows,
-            "output": str(text_file.relative_to(ROOT)) if text_file.is_relative_to(ROOT) else str(text_file)}
+            "output": _shown(text_file)}
 
 
 def skipped(name: str, why: str) -> dict:
@@ -281,7 +281,7 @@ def previous_results(folder: Path) -> dict[str, dict]:
                               "load_before": written.get("load_at_start", [0.0, 0.0, 0.0]),
                               "load_after": written.get("load_at_end", [0.0, 0.0, 0.0]),
                               "rows": written["rows"],
-                              "output": str(text_file.relative_to(ROOT)) if text_file.is_file() else ""})
+                              "output": _shown(text_file) if text_file.is_file() else ""})
     return found
 
 
@@ -375,6 +375,11 @@ def write_tables(folder: Path, table: dict, mode: str, record: bool) -> None:
         (HERE / "RESULTS.md").write_text(text)
         (HERE / "RESULTS.json").write_text(json.dumps(table, indent=1) + "\n")
         print(f"Wrote {HERE / 'RESULTS.md'} and RESULTS.json")
+
+
+def _shown(path: Path) -> str:
+    """A file's name relative to the checkout when it is inside it (``--out`` may point elsewhere)."""
+    return str(path.relative_to(ROOT)) if path.is_relative_to(ROOT) else str(path)
 
 
 if __name__ == "__main__":

@@ -351,11 +351,21 @@ def from_bunge_euler(euler: np.ndarray) -> np.ndarray:
     Bunge, H.-J. (1982). Texture Analysis in Materials Science. Butterworths, London.
     Rowenhorst, D. et al. (2015). Modelling Simul. Mater. Sci. Eng. 23, 083501.
     """
-    e = np.asarray(euler, dtype=float).reshape(-1, 3)
-    sigma, delta = 0.5 * (e[:, 0] + e[:, 2]), 0.5 * (e[:, 0] - e[:, 2])
-    c, s = np.cos(e[:, 1] / 2), np.sin(e[:, 1] / 2)
-    q = np.stack([c * np.cos(sigma), -s * np.cos(delta), -s * np.sin(delta), -c * np.sin(sigma)], axis=1)
-    return _unit(np.where(q[:, :1] < 0, -q, q))
+    e = np.asarray(euler, dtype=float).reshape(-1, 3).T            # rows phi1, Phi, phi2
+    sigma, delta = 0.5 * (e[0] + e[2]), 0.5 * (e[0] - e[2])
+    half = e[1] / 2
+    c, s = np.cos(half), np.sin(half)
+    q = np.empty((4, e.shape[1]))                                  # one row per component: no temporaries
+    np.multiply(c, np.cos(sigma), out=q[0])
+    np.multiply(-s, np.cos(delta), out=q[1])
+    np.multiply(-s, np.sin(delta), out=q[2])
+    np.multiply(-c, np.sin(sigma), out=q[3])
+    q[:, q[0] < 0] *= -1.0                                         # w >= 0
+    norm = q[0] * q[0]
+    for k in (1, 2, 3):                                            # summed in numpy's order along a row of 4
+        norm += q[k] * q[k]
+    q /= np.sqrt(norm)
+    return np.ascontiguousarray(q.T)
 
 
 def to_bunge_euler(q: np.ndarray) -> np.ndarray:

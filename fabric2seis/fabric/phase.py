@@ -205,7 +205,8 @@ def convergence(mineral, quat: np.ndarray, weights: np.ndarray, halfwidth_deg: f
                     for size in sizes]
     rows = []
     for size, j in zip(sizes, j_values):
-        sel = order[:size]
+        # all grains in their own order: M draws the same pairs as the phase's reported M (phase_fabric)
+        sel = order[:size] if size < n else np.arange(n)
         vectors = pole_vectors(quat[sel], direction, mineral.symmetry)
         rows.append({"n": int(size), "J": j,
                      "M": m_index(quat[sel], mineral.symmetry, seed=seed) if size > 1 else float("nan"),

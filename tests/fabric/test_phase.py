@@ -46,6 +46,18 @@ def test_convergence_reports_nested_subsets():
     assert j[200] == pytest.approx(fabric.j_index(q[order[:200]], np.ones(200), OLIVINE.symmetry), rel=1e-12)
 
 
+def test_the_last_row_of_the_convergence_is_the_phase_s_reported_m():
+    # with more grains than pairs drawn for M (2,000 grains: 1,999,000 pairs > M_INDEX_PAIRS), the pairs
+    # depend on the grains' order; the row of all grains must show the M the sample reports
+    # (Skemer et al. 2005 define one M per sample), not another draw of it
+    q = fabric_orientations(OLIVINE, "olivine-A", 2000, 20.0, seed=4)
+    assert 2000 * 1999 // 2 > fabric.M_INDEX_PAIRS
+    last = fabric.convergence(OLIVINE, q, np.ones(2000))["rows"][-1]
+    reported = fabric.phase_fabric(OLIVINE, q, np.ones(2000), "grain")
+    assert last["n"] == 2000 and last["M"] == reported.m
+    assert last["M"] != fabric.m_index(q[np.random.default_rng(0).permutation(2000)], OLIVINE.symmetry)
+
+
 def test_convergence_has_six_sizes_from_21_grains_and_no_judgement_below_100():
     # enough points to show a trend (at least six); J is judged only on a step of 100 grains or more
     q = fabric_orientations(OLIVINE, "olivine-A", 60, 15.0, seed=2)

@@ -22,8 +22,8 @@ numba), so this module repeats those rules with the standard library and numpy a
 the confidence index orix marks points not indexed by before it gives :func:`ang_phases` the
 phase ids.
 
-tests/ingest/test_headers.py checks the results against orix's readers
-(:func:`fabric2seis.ingest.io.orix_parts.header_phases`) over many header variants. Where they
+tests/ingest/test_headers.py checks the results against orix's readers (its ``header_phases``
+hands orix the header with one data row per phase) over many header variants. Where they
 differ, on purpose: a .ctf space group beyond 230 (orix, through diffpy, knows some numbers of
 other settings) and an .ang extra column named ``phase_id`` (orix then takes the phase ids from
 it) are refused here; an ACOM .ctf is read as orix reads the whole file, where orix fails on the
@@ -39,6 +39,7 @@ import re
 import numpy as np
 
 from fabric2seis.errors import InputError
+from fabric2seis.point_groups import POINT_GROUP_NAMES
 
 #: orix's patterns of the .ang phase lines (orix.io.plugins.ang._get_phases_from_header)
 _ANG_PATTERNS = {
@@ -54,9 +55,7 @@ _EDAX_ALIASES = {"20": "121", "2": "2/m", "22": "222", "42": "422", "32": "321",
                  "m3m": "m-3m"}
 
 #: the point groups orix knows by name (orix.quaternion.symmetry._groups)
-_POINT_GROUPS = frozenset(["1", "-1", "211", "121", "112", "m11", "1m1", "11m", "2/m", "222", "mm2", "mmm", "4",
-                           "-4", "4/m", "422", "4mm", "-42m", "4/mmm", "3", "-3", "321", "312", "32", "3m", "-3m",
-                           "6", "-6", "6/m", "622", "6mm", "-6m2", "6/mmm", "23", "m-3", "432", "-43m", "m-3m"])
+_POINT_GROUPS = frozenset(POINT_GROUP_NAMES)
 
 #: .ctf Laue group numbers as orix names them ("m3" for 10 is no point group orix knows: it refuses it)
 _LAUE_GROUPS = {1: "-1", 2: "2/m", 3: "mmm", 4: "4/m", 5: "4/mmm", 6: "-3", 7: "-3m", 8: "6/m", 9: "6/mmm",

@@ -25,6 +25,7 @@ from orix.quaternion import Rotation
 
 from fabric2seis.errors import InputError
 from fabric2seis.ingest.io.headers import ang_columns, ang_phases, ctf_phases
+from fabric2seis.ingest.io.orix_parts import map_phases
 from fabric2seis.ingest.io.text import quiet
 
 # ---------------------------------------------------------------- the reference: orix's own readers
@@ -78,7 +79,7 @@ def header_phases(file_reader, header: list[str], rows: np.ndarray, source: Path
             xmap = quiet(file_reader, str(head))
         except Exception as exc:  # orix raises several types for a header it cannot read
             raise InputError(f"the header cannot be read ({type(exc).__name__}: {str(exc)[:120]})", source) from None
-    names, groups = _phases(xmap)
+    names, groups = map_phases(xmap)
     return names, groups, list(xmap.prop)
 
 
@@ -97,15 +98,6 @@ def one_row_per_phase(phase_id: np.ndarray) -> np.ndarray:
     """
     return np.unique(phase_id, return_index=True)[1]
 
-
-def _phases(xmap) -> tuple[dict[int, str], dict[int, str | None]]:
-    names, groups = {}, {}
-    for pid, phase in xmap.phases:
-        if pid < 0:
-            continue
-        names[int(pid)] = phase.name or f"phase {pid}"
-        groups[int(pid)] = phase.point_group.name if phase.point_group is not None else None
-    return names, groups
 
 
 

@@ -43,7 +43,7 @@ def from_crystal_map(xmap, source, quality_names: dict[str, str]) -> EBSDData:
         y = np.asarray(xmap.y, dtype=float).reshape(-1) if xmap.y is not None else np.zeros_like(x)
         quality = {name: np.asarray(xmap.prop[key], dtype=float).reshape(-1) for name, key in quality_names.items()
                    if key in xmap.prop}
-        names, groups = _phases(xmap)
+        names, groups = map_phases(xmap)
     except Exception as exc:  # orix raises several types for a map it cannot make sense of
         raise InputError(f"the crystal map is inconsistent ({type(exc).__name__}: {str(exc)[:120]})", source) from None
     lengths = {len(a) for a in (quat, phase_id, x, y, *quality.values())}
@@ -63,7 +63,7 @@ def from_crystal_map(xmap, source, quality_names: dict[str, str]) -> EBSDData:
                     x=x, y=y, step=step, grid=grid, quality=quality)
 
 
-def _phases(xmap) -> tuple[dict[int, str], dict[int, str | None]]:
+def map_phases(xmap) -> tuple[dict[int, str], dict[int, str | None]]:
     """Phase names and point groups by id of an orix CrystalMap (unnamed phases as "phase <id>")."""
     names, groups = {}, {}
     for pid, phase in xmap.phases:

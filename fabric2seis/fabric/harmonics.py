@@ -98,4 +98,6 @@ def degree_coefficients(sums: np.ndarray, rows: np.ndarray, degree: int, l: int)
     m = rows[keep] + l
     v = _y_from_z(l)
     part = sums[keep][:, degree - l:degree + l + 1, :l + 1]
-    return np.einsum("mk,nk,mkn->mn", v[m], v[l:].conj(), part, optimize=True), m
+    # sum over k of V_mk conj(V_nk) T[m, k, n], as one product and a sum over k (a three-operand
+    # einsum would search its contraction order on every call: most of the time of small degrees)
+    return np.sum((v[m][:, :, None] * part) * v[l:].conj().T[None], axis=1), m

@@ -475,9 +475,13 @@ def pole_density(at: np.ndarray, poles: np.ndarray, weights: np.ndarray, halfwid
     # the axial kernel: half of each pole at u, half at -u (colatitude 180 - t, azimuth + 180)
     mass = (_deposit(colat, az, w / 2.0, rings, step)
             + _deposit(np.pi - colat, az + np.pi, w / 2.0, rings, step))
+    # per frequency f, the kernel's real (target, source) matrix times the sources' transforms (their
+    # real and imaginary parts as two columns): one batched matrix product, kernel_ft frequency first
+    sources = np.ascontiguousarray(np.fft.rfft(mass, axis=1).T)                # (f, s) complex
+    product = np.matmul(kernel_ft, sources.view(float).reshape(*sources.shape, 2))
+    spectrum = (product[..., 0] + 1j * product[..., 1]).T                      # (t, f)
     # read at half the azimuth step: zero-padding the spectrum is the band-limited interpolation
-    on_rings = 2.0 * np.fft.irfft(np.einsum("tsf,sf->tf", kernel_ft, np.fft.rfft(mass, axis=1)),
-                                  n=2 * n_az, axis=1)
+    on_rings = 2.0 * np.fft.irfft(spectrum, n=2 * n_az, axis=1)
     n_az, step = 2 * n_az, step / 2.0
     t_colat, t_az = _colatitude_azimuth(np.asarray(at, dtype=float))
     x = t_colat / (np.radians(targets[1] - targets[0]))
@@ -522,24 +526,27 @@ def _colatitude_azimuth(v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return colat, np.mod(np.arctan2(v[:, 1], v[:, 0]), 2.0 * np.pi)
 
 
-@functools.lru_cache(maxsize=2)   # about 90 MB each at the default 1 degree step
+@functools.lru_cache(maxsize=2)   # about 47 MB each at the default 1 degree step
 def _ring_kernel(halfwidth_deg: float, bin_step_deg: float) -> tuple[np.ndarray, np.ndarray]:
     """Colatitudes (degrees, 0 to 90, half a bin apart) of the target rings, and the kernel's FFT in azimuth.
 
-    Entry [t, s, f] is the real FFT over the difference of azimuths of the pole-figure kernel
-    between a direction at target colatitude t and one at the centre of source ring s (source
-    rings cover 0 to 180 degrees).
+    Entry [f, t, s] is frequency f of the FFT over the difference of azimuths of the pole-figure
+    kernel between a direction at target colatitude t and one at the centre of source ring s (source
+    rings cover 0 to 180 degrees); frequency first, for ``pole_density``'s product. The kernel is
+    even in the difference of azimuths, so its transform is real (the cosine transform of one half,
+    mirrored): evaluated on one half and stored as real numbers.
     """
     kernel = Kernel(halfwidth_deg)
     rings = int(round(90.0 / bin_step_deg))
     n_az = 4 * rings
     targets = np.linspace(0.0, 90.0, 2 * rings + 1)
     source = np.radians((np.arange(2 * rings) + 0.5) * bin_step_deg)
-    dphi = np.arange(n_az) * 2.0 * np.pi / n_az
-    out = np.empty((len(targets), len(source), n_az // 2 + 1), dtype=complex)
+    half = np.cos(np.arange(n_az // 2 + 1) * 2.0 * np.pi / n_az)          # 0 to 180 degrees apart
+    out = np.empty((n_az // 2 + 1, len(targets), len(source)))
     for k, t in enumerate(np.radians(targets)):
-        cos = np.cos(t) * np.cos(source)[:, None] + np.sin(t) * np.sin(source)[:, None] * np.cos(dphi)[None, :]
-        out[k] = np.fft.rfft(kernel.pole_value(np.clip(cos, -1.0, 1.0)), axis=1)
+        cos = np.cos(t) * np.cos(source)[:, None] + np.sin(t) * np.sin(source)[:, None] * half[None, :]
+        values = kernel.pole_value(np.clip(cos, -1.0, 1.0))
+        out[:, k, :] = np.fft.rfft(np.concatenate([values, values[:, -2:0:-1]], axis=1), axis=1).real.T
     return targets, out
 
 

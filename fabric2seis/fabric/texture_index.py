@@ -180,7 +180,7 @@ def _parseval(sums: np.ndarray, rows: np.ndarray, degree: int, k_l: np.ndarray, 
     for l in range(degree + 1):
         c, m = harmonics.degree_coefficients(sums, rows, degree, l)
         block = _symmetry_projector(symmetry, l)[np.ix_(m, m)]
-        per_column = np.einsum("mn,mp,pn->n", c.conj(), block, c, optimize=True).real
+        per_column = np.sum(c.conj() * (block @ c), axis=0).real          # c_n^H P c_n per column n
         total += (2 * l + 1) * k_l[l] ** 2 * (per_column[0] + 2.0 * per_column[1:].sum())
     return float(total)
 

@@ -398,7 +398,8 @@ def figure_tasks(sample: Sample, fabric: FabricResult, seismic: SeismicResult) -
             from fabric2seis.figures.poles import inverse_pole_figures
             inverse_pole_figures(folder / "inverse_pole_figures", name, phases, **options)
 
-        tasks += [FigureTask("pole_figures", pole_figures, True),
+        # pole figures: densities and the primitive circle, no orix (tests/test_startup.py draws them)
+        tasks += [FigureTask("pole_figures", pole_figures),
                   FigureTask("inverse_pole_figures", inverse_pole_figures, True)]
 
     def overview(folder: Path) -> None:

@@ -79,8 +79,32 @@ def test_a_whole_sample_run_on_two_threads_never_imports_orix_in_its_own_process
         out = tmp_path / name
         held = imported_by_a_whole_run(demo / name, out, threads=2)
         assert "orix" not in held and "dask" not in held, (name, held)
-        drawn_with_orix = {"pole_figures.png", "inverse_pole_figures.png"} | (
+        drawn_with_orix = {"inverse_pole_figures.png"} | (
             set() if name.endswith(".csv") else {"map_overview.png"})      # a grain list has no map
-        assert drawn_with_orix <= {p.name for p in out.iterdir()}
+        assert drawn_with_orix | {"pole_figures.png", "velocities.png"} <= {p.name for p in out.iterdir()}
     # on one thread every figure is drawn here, orix included (the check above can fail)
     assert "orix" in imported_by_a_whole_run(demo / "VM04_grain_list.csv", tmp_path / "one", threads=1)
+
+
+def test_every_figure_said_to_need_no_orix_is_drawn_without_it(tmp_path):
+    # the run's own process takes only figures whose FigureTask says needs_orix=False
+    # (sample_output.SampleFigures): drawing each of them in a fresh interpreter must not import orix,
+    # and those that do need it must (else the flag is stale and the work badly shared)
+    code = "\n".join([
+        "import sys, json", "from pathlib import Path",
+        "from fabric2seis import pipeline", "from fabric2seis.sample_output import figure_tasks",
+        f"path = Path({str(ROOT / 'demo_samples' / 'VM01_dunite.ang')!r})",
+        "settings, sf = pipeline.settings_for(path, None, None, None)",
+        "sample = pipeline.ingest(path, settings, sf, lambda m: None)",
+        "tasks = figure_tasks(sample, pipeline.fabric_stage(sample), pipeline.seismic_stage(sample))",
+        "seen = {}",
+        "for task in sorted(tasks, key=lambda t: t.needs_orix):",
+        f"    task.draw(Path({str(tmp_path)!r}))",
+        "    seen[task.name] = [task.needs_orix, 'orix' in sys.modules]",
+        "print(json.dumps(seen))"])
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=ENV, cwd=ROOT)
+    assert done.returncode == 0, done.stderr[-2000:]
+    seen = json.loads(done.stdout.strip().splitlines()[-1])
+    assert {"pole_figures", "velocities", "inverse_pole_figures", "map_overview"} <= set(seen)
+    for name, (needs, held) in seen.items():
+        assert held == needs, (name, seen)      # orix first imported by the first figure that needs it

@@ -478,11 +478,13 @@ def inverse_pole_figure_sheet(sample_name: str, phases: list[tuple], halfwidth_d
             filled = ax.contourf(a, b, d, levels=lv, cmap="cividis", extend=extend)
             filled.set_rasterized(True)
             lines = ax.contour(a, b, d, levels=[1.0], colors="white", linewidths=0.6)
+            # add_artist, not add_patch: the limits are set below, and add_patch would walk the
+            # edge's hundreds of segments to update them (a second per sheet)
             edge_patch = PathPatch(DrawnPath(edge), transform=ax.transData, facecolor="none", edgecolor="none")
-            ax.add_patch(edge_patch)
+            ax.add_artist(edge_patch)
             filled.set_clip_path(edge_patch)
             lines.set_clip_path(edge_patch)
-            ax.add_patch(PathPatch(DrawnPath(edge), facecolor="none", edgecolor="black", lw=0.9))
+            ax.add_artist(PathPatch(DrawnPath(edge), facecolor="none", edgecolor="black", lw=0.9))
             ax.plot(folded[:, 0], folded[:, 1], ls="none", marker="o", ms=3.5, mfc="white", mec="black", mew=0.7)
             for p, xy in zip(poles, folded):
                 away = xy - centre

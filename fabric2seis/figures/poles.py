@@ -16,6 +16,7 @@ figure poles are marked where orix folds them into the sector (``Vector3d.in_fun
 
 from __future__ import annotations
 
+import functools
 import textwrap
 from collections.abc import Mapping, Sequence
 
@@ -41,6 +42,7 @@ from fabric2seis.figures.projection import (
     trend_plunge_text,
 )
 from fabric2seis.orientations import proper_symmetry_quaternions, to_matrices
+from fabric2seis.point_groups import point_group
 
 #: below this many grains a pole density shows the kernel's shape as much as the fabric
 FEW_GRAINS = 100
@@ -362,7 +364,21 @@ def sector_outline(mineral) -> np.ndarray:
         Screen coordinates of orix's ordered edge (``FundamentalSector.edges``), equal area, c* at
         the centre, a to the right, the unit circle being the plane normal to c*.
     """
-    return _sector_screen(mineral.orix_symmetry.laue.fundamental_sector.edges.unit.data)
+    return _laue_sector(mineral.symmetry.name, mineral.symmetry.unique_axis)[1].copy()
+
+
+@functools.lru_cache(maxsize=64)
+def _laue_sector(name: str, unique_axis: str | None) -> tuple:
+    """orix's Laue class of a point group, with its fundamental sector's edge on the screen (as
+    :func:`sector_outline`), bounding normals (K, 3) and centre on the screen: computed once per
+    group (a tenth of a second each in orix); the arrays are read-only."""
+    laue = point_group(name, unique_axis).to_orix().laue
+    sector = laue.fundamental_sector
+    arrays = (_sector_screen(sector.edges.unit.data), np.array(sector.unit.data, dtype=float),
+              _sector_screen(sector.center.unit.data[0]))
+    for a in arrays:
+        a.setflags(write=False)
+    return (laue, *arrays)
 
 
 def axis_density_grid(mineral, quat: np.ndarray, weights: np.ndarray, axis, halfwidth_deg: float, n: int = 121):
@@ -397,8 +413,7 @@ def axis_density_grid(mineral, quat: np.ndarray, weights: np.ndarray, axis, half
     inside : numpy.ndarray of bool, shape (n, n)
         Which grid points lie in the sector (orix's bounding normals).
     """
-    sector = mineral.orix_symmetry.laue.fundamental_sector
-    edge = sector_outline(mineral)
+    _, edge, normals, _ = _laue_sector(mineral.symmetry.name, mineral.symmetry.unique_axis)
     lo, hi = edge.min(axis=0), edge.max(axis=0)
     span = float(np.max(hi - lo))
     pad = 0.03 * span
@@ -407,7 +422,7 @@ def axis_density_grid(mineral, quat: np.ndarray, weights: np.ndarray, axis, half
     z = 1.0 - np.minimum(a ** 2 + b ** 2, 1.0)                        # inverse of _sector_screen
     dirs = np.stack([a * np.sqrt(1.0 + z), b * np.sqrt(1.0 + z), z], axis=-1)
     dirs /= np.linalg.norm(dirs, axis=-1, keepdims=True)
-    inside = disk & np.all(dirs @ sector.unit.data.T >= -1e-9, axis=-1)
+    inside = disk & np.all(dirs @ normals.T >= -1e-9, axis=-1)
     crystal = to_matrices(quat) @ np.asarray(axis, dtype=float)     # (N, 3) in the crystal frame
     ops = to_matrices(proper_symmetry_quaternions(mineral.symmetry))
     vectors = np.einsum("kij,nj->nki", ops, crystal)                  # all symmetry equivalents
@@ -462,8 +477,7 @@ def inverse_pole_figure_sheet(sample_name: str, phases: list[tuple], halfwidth_d
     from orix.vector import Vector3d  # here, not at the top: the convergence figure needs no orix
 
     for band, axes, (mineral, quat, weights, labels) in zip(bands, grids, phases):
-        laue = mineral.orix_symmetry.laue
-        edge = sector_outline(mineral)
+        laue, edge, _, centre = _laue_sector(mineral.symmetry.name, mineral.symmetry.unique_axis)
         ops = to_matrices(proper_symmetry_quaternions(mineral.symmetry))
         poles = [parse_pole(label) for label in labels]
         pole_dirs = np.array([pole_direction(mineral, p) for p in poles])
@@ -472,7 +486,6 @@ def inverse_pole_figure_sheet(sample_name: str, phases: list[tuple], halfwidth_d
         densities = [g[2] for g in grids_here]
         lv, extend = contour_levels(max(np.nanmax(np.where(inside, d, np.nan)) for d in densities), levels)
         folded = _sector_screen(Vector3d(pole_dirs).in_fundamental_sector(laue).unit.data)
-        centre = _sector_screen(laue.fundamental_sector.center.unit.data[0])
         rows = []
         for ax, (name, _), d in zip(axes, sample_directions, densities):
             filled = ax.contourf(a, b, d, levels=lv, cmap="cividis", extend=extend)

@@ -323,8 +323,8 @@ def fabric_stage(sample: Sample, progress: Progress | None = None, bars: BarMake
         (mineral, quat, weights), what = task
         if what == "indices":
             return fabric.phase_fabric(mineral, quat, weights, weighting, halfwidth)
-        if what == "convergence":
-            return fabric.convergence(mineral, quat, weights, halfwidth)
+        if what == "convergence":          # the row of all grains comes from the indices, below
+            return fabric.convergence_of_subsets(mineral, quat, weights, halfwidth)
         # J, M and pfJ of random sets of as many grains (same weights, kernel, point group)
         return fabric.random_floor(mineral, len(quat), halfwidth, weights)
 
@@ -339,7 +339,9 @@ def fabric_stage(sample: Sample, progress: Progress | None = None, bars: BarMake
         with stage_bar(bars, what) as done:
             indices = next(parts)
             done(1 / 3)
-            converging = next(parts)
+            subsets = next(parts)
+            converging = fabric.with_all_grains(subsets, len(quat), indices.j, indices.m,
+                                                indices.poles[subsets["pole"]]["max_mud"])
             done(2 / 3)
             floor = next(parts)
         phases[mineral.name] = PhaseFabricResult(indices=indices, convergence=converging, random_floor=floor,

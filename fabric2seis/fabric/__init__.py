@@ -55,9 +55,11 @@ from fabric2seis.fabric.phase import (
     RANDOM_FLOOR_SETS,
     PhaseFabric,
     convergence,
+    convergence_of_subsets,
     indistinguishable_from_random,
     phase_fabric,
     random_floor,
+    with_all_grains,
 )
 from fabric2seis.fabric.poles import (
     ba_index,
@@ -89,7 +91,8 @@ __all__ = [
     "HARMONIC_DEGREE_LIMIT", "J_SERIES_TOLERANCE", "M_INDEX_BIN_DEG", "M_INDEX_PAIRS", "ODF_SUPPORT",
     "RANDOM_DISTRIBUTION_PAIRS", "RANDOM_DISTRIBUTION_SEED", "RANDOM_FLOOR_MAX_GRAINS", "RANDOM_FLOOR_SEED",
     "RANDOM_FLOOR_SETS", "Kernel", "PhaseFabric",
-    "ba_index", "cache_folder", "cached_result", "clear_memory", "convergence", "default_poles",
+    "ba_index", "cache_folder", "cached_result", "clear_memory", "convergence", "convergence_of_subsets",
+    "default_poles",
     "eigen_analysis", "hemisphere_cells", "indistinguishable_from_random", "j_index", "j_index_dense",
     "j_index_harmonics", "j_index_nested", "j_index_pairs", "j_pair_matrix", "j_quadratic_forms", "kernel_coefficients",
     "m_index", "m_index_bin_variance", "misorientation_angles", "misorientation_histogram", "odf_values",
@@ -97,5 +100,5 @@ __all__ = [
     "pole_self_convolution_table", "pole_vectors", "proper_symmetry_quaternions", "random_distribution",
     "random_floor", "random_misorientation_histogram", "random_unit_quaternions", "self_convolution",
     "phi_by_cos_half", "self_convolution_by_cos_half", "self_convolution_table", "to_matrices",
-    "uncorrelated_misorientations",
+    "uncorrelated_misorientations", "with_all_grains",
 ]

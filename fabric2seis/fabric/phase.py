@@ -4,7 +4,9 @@ floor that random sets of as many grains reach.
 ``phase_fabric`` gathers the J-index (``fabric.texture_index``), the M-index (``fabric.misorientation_index``) and, per
 principal pole, pfJ, the maximum pole density and the orientation-tensor eigenanalysis
 (``fabric.poles``), with the BA-index for olivine. ``convergence`` recomputes J, M and the maximum
-pole density on nested subsets of the grains. ``random_floor`` simulates random orientation sets
+pole density on nested subsets of the grains, the row of all grains being the phase's own indices
+(``with_all_grains``: the run computes the subsets and the indices on two threads, the whole once).
+``random_floor`` simulates random orientation sets
 of the sample's size and weights: a finite random set does not give J = 1, pfJ = 1 and M = 0, and
 ``indistinguishable_from_random`` compares a sample's J and M with the 95 % range of such sets.
 
@@ -161,7 +163,7 @@ def phase_fabric(mineral, quat: np.ndarray, weights: np.ndarray, weighting: str,
 
 
 def convergence(mineral, quat: np.ndarray, weights: np.ndarray, halfwidth_deg: float = 10.0,
-                seed: int = 0, pole: str | None = None) -> dict:
+                seed: int = 0, pole: str | None = None, whole: PhaseFabric | None = None) -> dict:
     """J, M and the maximum pole density on nested random subsets of the grains.
 
     Subsets of 5, 7, 10, 15, 20, 30, 50, 70, 100, 200, 500, 1000, 2000, 5000 ... grains and all of
@@ -183,6 +185,10 @@ def convergence(mineral, quat: np.ndarray, weights: np.ndarray, halfwidth_deg: f
         Seed of the order in which grains join the subsets, and of the pairs drawn for M.
     pole : str, optional
         Pole of the maximum density; by default the first of ``poles.default_poles(mineral)``.
+    whole : PhaseFabric, optional
+        The phase's own indices (``phase_fabric`` of the same grains, weights, halfwidth and seed,
+        with the pole among its poles): the row of all grains takes its J, M and maximum density
+        instead of computing them again (:func:`convergence_of_subsets`, :func:`with_all_grains`).
 
     Returns
     -------
@@ -190,30 +196,84 @@ def convergence(mineral, quat: np.ndarray, weights: np.ndarray, halfwidth_deg: f
         ``pole`` (str); ``rows``, one ``{"n", "J", "M", "max_mud" (m.u.d.)}`` per subset;
         ``j_levelled`` (bool).
     """
+    part = convergence_of_subsets(mineral, quat, weights, halfwidth_deg, seed, pole)
+    if whole is None:
+        vectors = pole_vectors(quat, crystal_direction(mineral, part["pole"]), mineral.symmetry)
+        whole_j = j_index(quat, weights, mineral.symmetry, halfwidth_deg)
+        whole_m = m_index(quat, mineral.symmetry, seed=seed)
+        whole_max = pf_j(vectors, weights, halfwidth_deg)[1]
+    else:
+        if whole.n != len(quat) or whole.halfwidth_deg != halfwidth_deg or part["pole"] not in whole.poles:
+            raise ValueError(f"whole must be the phase_fabric of the same {len(quat)} grains, halfwidth "
+                             f"{halfwidth_deg:g} and pole {part['pole']}")
+        whole_j, whole_m, whole_max = whole.j, whole.m, whole.poles[part["pole"]]["max_mud"]
+    return with_all_grains(part, len(quat), whole_j, whole_m, whole_max)
+
+
+def convergence_of_subsets(mineral, quat: np.ndarray, weights: np.ndarray, halfwidth_deg: float = 10.0,
+                           seed: int = 0, pole: str | None = None) -> dict:
+    """The rows of :func:`convergence` for the subsets smaller than all the grains.
+
+    The row of all grains is that of the phase's own indices (``phase_fabric``: the same J, the
+    same pairs for M, the same density), added by :func:`with_all_grains`; computing the two apart
+    lets them run on two threads (``pipeline.fabric_stage``) without doing the whole twice.
+
+    Parameters
+    ----------
+    mineral, quat, weights, halfwidth_deg, seed, pole
+        As for :func:`convergence`.
+
+    Returns
+    -------
+    dict
+        ``pole`` (str) and ``rows``, one ``{"n", "J", "M", "max_mud" (m.u.d.)}`` per subset.
+    """
     check_quaternions(quat)
     check_weights(weights, len(quat))
     check_halfwidth(halfwidth_deg)
     n = len(quat)
     order = np.random.default_rng(seed).permutation(n)
-    sizes = [s for s in CONVERGENCE_SIZES if s < n] + [n]
+    sizes = [s for s in CONVERGENCE_SIZES if s < n]
     pole = pole or default_poles(mineral)[0]
     direction = crystal_direction(mineral, pole)
-    if harmonics_suffice(halfwidth_deg):       # the subsets' Fourier sums, added up grain by grain
+    if not sizes:
+        j_values = []
+    elif harmonics_suffice(halfwidth_deg):       # the subsets' Fourier sums, added up grain by grain
         j_values = j_index_nested(quat[order], weights[order], mineral.symmetry, sizes, halfwidth_deg)
     else:
         j_values = [j_index(quat[order[:size]], weights[order[:size]], mineral.symmetry, halfwidth_deg)
                     for size in sizes]
     rows = []
     for size, j in zip(sizes, j_values):
-        # all grains in their own order: M draws the same pairs as the phase's reported M (phase_fabric)
-        sel = order[:size] if size < n else np.arange(n)
+        sel = order[:size]
         vectors = pole_vectors(quat[sel], direction, mineral.symmetry)
         rows.append({"n": int(size), "J": j,
                      "M": m_index(quat[sel], mineral.symmetry, seed=seed) if size > 1 else float("nan"),
                      "max_mud": pf_j(vectors, weights[sel], halfwidth_deg)[1]})
+    return {"pole": pole, "rows": rows}
+
+
+def with_all_grains(part: dict, n: int, j: float, m: float, max_mud: float) -> dict:
+    """:func:`convergence` from the subsets' rows and the indices of all ``n`` grains.
+
+    Parameters
+    ----------
+    part : dict
+        ``convergence_of_subsets``'s result.
+    n : int
+        Number of grains.
+    j, m, max_mud : float
+        J, M and the maximum density (m.u.d.) of the pole, of all the grains.
+
+    Returns
+    -------
+    dict
+        As :func:`convergence`.
+    """
+    rows = [*part["rows"], {"n": int(n), "J": j, "M": m if n > 1 else float("nan"), "max_mud": max_mud}]
     steps = [r for r in rows[:-1] if r["n"] in LEVELLING_SIZES]
     levelled = bool(steps) and abs(rows[-1]["J"] - steps[-1]["J"]) < 0.05 * rows[-1]["J"]
-    return {"pole": pole, "rows": rows, "j_levelled": bool(levelled)}
+    return {"pole": part["pole"], "rows": rows, "j_levelled": bool(levelled)}
 
 
 def random_floor(mineral, n: int, halfwidth_deg: float = 10.0, weights: np.ndarray | None = None,

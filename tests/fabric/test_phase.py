@@ -58,6 +58,25 @@ def test_the_last_row_of_the_convergence_is_the_phase_s_reported_m():
     assert last["M"] != fabric.m_index(q[np.random.default_rng(0).permutation(2000)], OLIVINE.symmetry)
 
 
+def test_the_row_of_all_grains_is_the_phase_s_own_indices_with_or_without_them_given():
+    # the run computes the subsets apart from the indices (two threads) and takes the row of all grains
+    # from the indices (convergence_of_subsets + with_all_grains); computed here, it must be the same
+    # J (to rounding: the harmonic sums of the same grains in another order), the same M and density
+    q = fabric_orientations(OLIVINE, "olivine-A", 1500, 20.0, seed=5)
+    w = np.random.default_rng(1).uniform(0.5, 2.0, 1500)
+    indices = fabric.phase_fabric(OLIVINE, q, w, "grain_area")
+    computed = fabric.convergence(OLIVINE, q, w)
+    given = fabric.convergence(OLIVINE, q, w, whole=indices)
+    assert given["rows"][:-1] == computed["rows"][:-1]
+    last, here = given["rows"][-1], computed["rows"][-1]
+    assert (last["J"], last["M"]) == (indices.j, indices.m)
+    assert last["max_mud"] == indices.poles[given["pole"]]["max_mud"] == here["max_mud"]
+    assert here["J"] == pytest.approx(last["J"], rel=1e-12) and here["M"] == last["M"]
+    assert given["j_levelled"] == computed["j_levelled"]
+    with pytest.raises(ValueError, match="same 1499 grains"):
+        fabric.convergence(OLIVINE, q[:1499], w[:1499], whole=indices)
+
+
 def test_convergence_has_six_sizes_from_21_grains_and_no_judgement_below_100():
     # enough points to show a trend (at least six); J is judged only on a step of 100 grains or more
     q = fabric_orientations(OLIVINE, "olivine-A", 60, 15.0, seed=2)
@@ -160,3 +179,20 @@ def test_random_floor_refuses_fewer_than_two_grains_and_mismatched_weights():
         fabric.random_floor(OLIVINE, 6, weights=np.ones(5))
     with pytest.raises(ValueError, match="positive sum"):
         fabric.random_floor(OLIVINE, 6, weights=np.zeros(6))
+
+
+def test_the_run_s_convergence_ends_with_the_indices_it_reports():
+    # through the run's own fabric stage (pipeline.fabric_stage, as `fabric2seis sample` runs it) on a
+    # demo map: the convergence figure's last point is the J and M of summary.json, to the bit
+    from pathlib import Path
+
+    from fabric2seis import pipeline
+
+    path = Path(__file__).resolve().parents[2] / "demo_samples" / "VM01_dunite.ang"
+    settings, source = pipeline.settings_for(path, None, None, None)
+    result = pipeline.fabric_stage(pipeline.ingest(path, settings, source))
+    for phase in result.phases.values():
+        last = phase.convergence["rows"][-1]
+        assert last["n"] == phase.indices.n
+        assert (last["J"], last["M"]) == (phase.indices.j, phase.indices.m)
+        assert last["max_mud"] == phase.indices.poles[phase.convergence["pole"]]["max_mud"]

@@ -200,7 +200,7 @@ def convergence(mineral, quat: np.ndarray, weights: np.ndarray, halfwidth_deg: f
     if whole is None:
         vectors = pole_vectors(quat, crystal_direction(mineral, part["pole"]), mineral.symmetry)
         whole_j = j_index(quat, weights, mineral.symmetry, halfwidth_deg)
-        whole_m = m_index(quat, mineral.symmetry, seed=seed)
+        whole_m = m_index(quat, mineral.symmetry, seed=seed) if len(quat) > 1 else float("nan")
         whole_max = pf_j(vectors, weights, halfwidth_deg)[1]
     else:
         if whole.n != len(quat) or whole.halfwidth_deg != halfwidth_deg or part["pole"] not in whole.poles:

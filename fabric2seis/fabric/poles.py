@@ -533,8 +533,9 @@ def _ring_kernel(halfwidth_deg: float, bin_step_deg: float) -> tuple[np.ndarray,
     Entry [f, t, s] is frequency f of the FFT over the difference of azimuths of the pole-figure
     kernel between a direction at target colatitude t and one at the centre of source ring s (source
     rings cover 0 to 180 degrees); frequency first, for ``pole_density``'s product. The kernel is
-    even in the difference of azimuths, so its transform is real (the cosine transform of one half,
-    mirrored): evaluated on one half and stored as real numbers.
+    even in the difference of azimuths, so its transform is real: it is evaluated on one half (0 to
+    180 degrees apart), mirrored, and the real part of the transform stored (the imaginary part is
+    rounding, about 1e-16 of the largest value).
     """
     kernel = Kernel(halfwidth_deg)
     rings = int(round(90.0 / bin_step_deg))

@@ -235,7 +235,7 @@ def map_overview(sample: Sample, mineral: str | None = None, direction: str = "+
     axes = []
     for rect, title, img, gid in zip(lay.panels, lay.titles, (phase_img, orient_img), ("phase_map", "orientation_map")):
         ax = fig.add_axes(rect)
-        ax.set_title(title, fontsize=8, loc="left", pad=3)
+        ax.set_title(title, fontsize=8, loc="left", pad=3, y=1.0)
         ax.set_xticks([])
         ax.set_yticks([])
         for image, name in ((img, gid), (boundaries, "grain_boundaries")):
@@ -253,7 +253,7 @@ def map_overview(sample: Sample, mineral: str | None = None, direction: str = "+
     kax = fig.add_axes(lay.key)
     _colour_key(kax, pts.minerals[main])
     kax.set_title(f"colour key: {mineral}\n(Laue group {pts.minerals[main].symmetry.laue_name})",
-                  fontsize=7, loc="left", pad=3)
+                  fontsize=7, loc="left", pad=3, y=1.0)
     grid_text = "square" if sample.grid == "square" else "hexagonal"
     x_left = lay.caption[0]
     fig.text(x_left, 1 - 0.12 / lay.size[1], f"{sample.name}: map overview",

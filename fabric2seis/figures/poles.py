@@ -202,7 +202,7 @@ def _pole_panel(ax, a, b, d, lv, extend: str, pole):
     filled.set_rasterized(True)  # keeps the PDF small and quick to write
     ax.contour(a, b, d, levels=[1.0], colors="white", linewidths=0.6)
     frame_axes(ax)
-    ax.set_title(pole.math_text(), fontsize=9)
+    ax.set_title(pole.math_text(), fontsize=9, y=1.0)     # y given: no search for ticks above (axis off)
     return filled
 
 
@@ -511,7 +511,7 @@ def inverse_pole_figure_sheet(sample_name: str, phases: list[tuple], halfwidth_d
             ax.set_ylim(middle[1] - 0.72 * span, middle[1] + 0.72 * span)
             ax.set_aspect("equal")
             ax.axis("off")
-            ax.set_title(f"{name} in crystal axes", fontsize=9)
+            ax.set_title(f"{name} in crystal axes", fontsize=9, y=1.0)
             here = np.where(inside, d, np.nan)
             k = int(np.nanargmax(here))
             near = _angle_to(dirs.reshape(-1, 3)[k], pole_dirs, ops)

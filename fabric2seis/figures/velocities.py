@@ -419,7 +419,7 @@ def _hemisphere(fig: Figure, ax, name: str, a, b, inside, w, found: list[Extreme
     frame_axes(ax)
     ax.set_xlim(-_HALF_WIDTH, _HALF_WIDTH)
     ax.set_ylim(-_HALF_WIDTH, _HALF_WIDTH)
-    ax.set_title(q.title, fontsize=9)
+    ax.set_title(q.title, fontsize=9, y=1.0)
     bar = fig.colorbar(filled, ax=ax, location="bottom", shrink=0.8, pad=0.02, aspect=25)
     bar.set_label(f"{q.symbol} ({q.unit})" if q.unit else q.symbol, fontsize=8)
     bar.ax.tick_params(labelsize=7)
@@ -483,7 +483,7 @@ def _extremes_table(ax, found: list[Extreme], bars: bool, height_in: float) -> N
         if high.panel == "vp":
             rows.append(["AVp", f"{200.0 * (high.value - low.value) / (high.value + low.value):.1f} %", "-"])
     ax.axis("off")
-    ax.set_title("extremes", fontsize=9)
+    ax.set_title("extremes", fontsize=9, y=1.0)
     table = ax.table(cellText=rows, colLabels=["quantity", "value", "trend/plunge"], loc="upper center",
                      cellLoc="left", colLoc="left")
     table.auto_set_font_size(False)

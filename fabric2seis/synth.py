@@ -10,7 +10,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.spatial import cKDTree
 
 from fabric2seis.elastic.minerals import crystal_direction
 from fabric2seis.orientations import multiply
@@ -72,6 +71,8 @@ def voronoi_map(n_grains: int, nx: int, ny: int, step: float = 1.0, grid: str = 
     if seeds_xy is None:
         seeds_xy = np.column_stack([rng.uniform(x.min(), x.max(), n_grains),
                                     rng.uniform(y.min(), y.max(), n_grains)])
+    from scipy.spatial import cKDTree    # here: the command line imports this module for its fabric names
+
     cell = cKDTree(seeds_xy).query(np.column_stack([x, y]))[1]
     if cell_quat is None:
         cell_quat = random_quaternions(n_grains, rng)

@@ -35,6 +35,20 @@ def script_imports(script: Path) -> list[str]:
 def test_the_sample_command_imports_no_heavy_library_before_it_works():
     # cli.main dispatches to _sample, which imports pipeline; pipeline imports its stages where they run
     assert loaded_after(["import fabric2seis.cli", "import fabric2seis.pipeline"]) == []
+    # cli.main first builds the parser of every command: the synth command's fabric names import
+    # fabric2seis.synth, whose map maker needs scipy.spatial (imported where it is used)
+    assert loaded_after(["import fabric2seis.cli", "fabric2seis.cli.build_parser()"]) == []
+
+
+def test_the_modules_a_run_always_passes_import_no_heavy_library():
+    # the P, T corrections (elastic.conditions) run for every sample: scipy.optimize only when a
+    # pressure is given; the other stages import scipy, pandas or numba where they compute
+    assert loaded_after(["import fabric2seis.elastic.conditions", "import fabric2seis.synth"]) == []
+    # the fabric package needs scipy.special (the kernel's normalisation); scipy.spatial (a second to
+    # import, with scipy.sparse) only for odf_values, which no stage calls
+    code = "import sys, fabric2seis.fabric, fabric2seis.uncertainty; print('scipy.spatial' in sys.modules)"
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=ENV, cwd=ROOT, check=True)
+    assert out.stdout.strip() == "False"
 
 
 def test_the_workflow_sample_script_imports_no_heavy_library_before_it_works():

@@ -28,7 +28,6 @@ import functools
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.spatial import cKDTree
 from scipy.special import betaln
 
 from fabric2seis.fabric.checks import check_halfwidth, check_quaternions, check_weights
@@ -298,6 +297,8 @@ def odf_values(quat_at: np.ndarray, quat: np.ndarray, weights: np.ndarray, symme
     at = np.asarray(quat_at, dtype=float)
     out = np.zeros(len(at))
     radius = np.sqrt(2.0 - 2.0 * cos_cut)
+    from scipy.spatial import cKDTree    # here: a second to import, and no run's stage needs it
+
     tree = cKDTree(points)
     for start in range(0, len(at), 20_000):
         block = at[start:start + 20_000]

@@ -71,7 +71,7 @@ def voronoi_map(n_grains: int, nx: int, ny: int, step: float = 1.0, grid: str = 
     if seeds_xy is None:
         seeds_xy = np.column_stack([rng.uniform(x.min(), x.max(), n_grains),
                                     rng.uniform(y.min(), y.max(), n_grains)])
-    from scipy.spatial import cKDTree    # here: the command line imports this module for its fabric names
+    from scipy.spatial import cKDTree  # here: the command line imports this module for its fabric names
 
     cell = cKDTree(seeds_xy).query(np.column_stack([x, y]))[1]
     if cell_quat is None:

@@ -135,7 +135,7 @@ def density_at(rho0: float, pressure_gpa: float, temperature_c: float, k0_gpa: f
     rho_t = rho0 * np.exp(-alpha_per_k * (temperature_c - reference_c))
     if pressure_gpa == 0:
         return float(rho_t)
-    from scipy.optimize import brentq    # here: scipy.optimize takes half a second to import
+    from scipy.optimize import brentq  # here: scipy.optimize takes half a second to import
 
     x = brentq(lambda s: birch_murnaghan_pressure(s, k0_gpa, k0_prime) - pressure_gpa, 1.0, 1.5)
     return float(rho_t * x ** 3)

@@ -297,7 +297,7 @@ def odf_values(quat_at: np.ndarray, quat: np.ndarray, weights: np.ndarray, symme
     at = np.asarray(quat_at, dtype=float)
     out = np.zeros(len(at))
     radius = np.sqrt(2.0 - 2.0 * cos_cut)
-    from scipy.spatial import cKDTree    # here: a second to import, and no run's stage needs it
+    from scipy.spatial import cKDTree  # here: a second to import, and no run's stage needs it
 
     tree = cKDTree(points)
     for start in range(0, len(at), 20_000):

@@ -364,14 +364,20 @@ def sector_outline(mineral) -> np.ndarray:
         Screen coordinates of orix's ordered edge (``FundamentalSector.edges``), equal area, c* at
         the centre, a to the right, the unit circle being the plane normal to c*.
     """
-    return _laue_sector(mineral.symmetry.name, mineral.symmetry.unique_axis)[1].copy()
+    return _laue_sector(mineral)[1].copy()
+
+
+def _laue_sector(mineral) -> tuple:
+    """orix's Laue class of a mineral's point group, with its fundamental sector's edge on the screen
+    (as :func:`sector_outline`), bounding normals (K, 3) and centre on the screen; the arrays are
+    read-only."""
+    return _group_sector(mineral.symmetry.name, mineral.symmetry.unique_axis)
 
 
 @functools.lru_cache(maxsize=64)
-def _laue_sector(name: str, unique_axis: str | None) -> tuple:
-    """orix's Laue class of a point group, with its fundamental sector's edge on the screen (as
-    :func:`sector_outline`), bounding normals (K, 3) and centre on the screen: computed once per
-    group (a tenth of a second each in orix); the arrays are read-only."""
+def _group_sector(name: str, unique_axis: str | None) -> tuple:
+    """:func:`_laue_sector` of a point group by name: computed once per group (a tenth of a second
+    each in orix)."""
     laue = point_group(name, unique_axis).to_orix().laue
     sector = laue.fundamental_sector
     arrays = (_sector_screen(sector.edges.unit.data), np.array(sector.unit.data, dtype=float),
@@ -413,7 +419,7 @@ def axis_density_grid(mineral, quat: np.ndarray, weights: np.ndarray, axis, half
     inside : numpy.ndarray of bool, shape (n, n)
         Which grid points lie in the sector (orix's bounding normals).
     """
-    _, edge, normals, _ = _laue_sector(mineral.symmetry.name, mineral.symmetry.unique_axis)
+    _, edge, normals, _ = _laue_sector(mineral)
     lo, hi = edge.min(axis=0), edge.max(axis=0)
     span = float(np.max(hi - lo))
     pad = 0.03 * span
@@ -477,7 +483,7 @@ def inverse_pole_figure_sheet(sample_name: str, phases: list[tuple], halfwidth_d
     from orix.vector import Vector3d  # here, not at the top: the convergence figure needs no orix
 
     for band, axes, (mineral, quat, weights, labels) in zip(bands, grids, phases):
-        laue, edge, _, centre = _laue_sector(mineral.symmetry.name, mineral.symmetry.unique_axis)
+        laue, edge, _, centre = _laue_sector(mineral)
         ops = to_matrices(proper_symmetry_quaternions(mineral.symmetry))
         poles = [parse_pole(label) for label in labels]
         pole_dirs = np.array([pole_direction(mineral, p) for p in poles])

@@ -197,7 +197,8 @@ def save(fig, stem) -> list[str]:
     """Write ``stem``.png and ``stem``.pdf and close the figure, drawing it twice in all.
 
     The PNG comes from one drawing on the Agg canvas (:func:`draw_png`), which also gives the
-    tight box around what was drawn; the PDF is drawn once with that box and the layout held.
+    tight box around what was drawn; the PDF is drawn once with that box and the layout held (the
+    figure keeps no layout engine, so savefig does not draw it again before writing the PDF).
     ``savefig(bbox_inches="tight")`` per file would draw four times. The PDF carries no creation
     date, so that the same figure is the same bytes on every run.
 
@@ -216,7 +217,10 @@ def save(fig, stem) -> list[str]:
     out = [f"{stem}.png", f"{stem}.pdf"]
     box = draw_png(fig, out[0])
     if fig.get_layout_engine() is not None:
-        fig.set_layout_engine("none")       # the layout of the drawing holds for the PDF: computed once
+        # the layout of the drawing holds for the PDF: computed once. No engine at all from here, not
+        # matplotlib's placeholder ("none"): with any engine, savefig draws the figure once more first
+        with matplotlib.rc_context({"figure.autolayout": False, "figure.constrained_layout.use": False}):
+            fig.set_layout_engine(None)
     fig.savefig(out[1], dpi=PNG_DPI, bbox_inches=box, metadata={"CreationDate": None})   # no date: rerun, same bytes
     plt.close(fig)
     return out

@@ -289,3 +289,44 @@ def test_png_cut_from_one_drawing_matches_matplotlibs_tight_savefig(tmp_path):
     b = np.asarray(Image.open(tmp_path / "ours.png").convert("L"), dtype=float)
     assert a.shape == b.shape
     assert np.mean(np.abs(a - b)) < 1.0
+
+
+@pytest.mark.parametrize("constrained_by_default", [False, True])
+def test_save_draws_a_laid_out_figure_twice_and_writes_matplotlibs_pdf(tmp_path, monkeypatch, constrained_by_default):
+    # projection.save draws once for the PNG and once for the PDF, with the layout of the first
+    # drawing held. matplotlib's savefig draws a figure that has a layout engine (even its
+    # placeholder, set_layout_engine("none")) once more before writing, so save leaves it none; the
+    # reference is matplotlib's own PDF of the same figure written with the layout held that way:
+    # the same bytes. A user's matplotlibrc asking for constrained layout changes neither.
+    import matplotlib
+    import matplotlib.pyplot as plt
+    from matplotlib.figure import Figure
+
+    from fabric2seis.figures import projection
+
+    monkeypatch.setitem(matplotlib.rcParams, "figure.constrained_layout.use", constrained_by_default)
+
+    def sheet():
+        fig, axes = plt.subplots(1, 2, figsize=(6, 3), layout="constrained")
+        axes[0].imshow(np.arange(400.0).reshape(20, 20), cmap="viridis")
+        fig.colorbar(axes[0].images[0], ax=axes[0], label="a colour bar")
+        axes[1].plot([0, 1, 2], [2, 0, 1], color="tab:red")
+        axes[1].set_xlabel("a label at the foot")
+        fig.suptitle("a title at the top")
+        return fig
+
+    reference = sheet()
+    box = projection.draw_png(reference, tmp_path / "reference.png")
+    reference.set_layout_engine("none")
+    reference.savefig(tmp_path / "reference.pdf", dpi=projection.PNG_DPI, bbox_inches=box,
+                      metadata={"CreationDate": None})
+    plt.close(reference)
+
+    drawings = []
+    draw = Figure.draw
+    monkeypatch.setattr(Figure, "draw", lambda self, renderer: (drawings.append(renderer), draw(self, renderer))[1])
+    ours = sheet()
+    projection.save(ours, tmp_path / "ours")
+    assert len(drawings) == 2
+    assert (tmp_path / "ours.pdf").read_bytes() == (tmp_path / "reference.pdf").read_bytes()
+    assert (tmp_path / "ours.png").read_bytes() == (tmp_path / "reference.png").read_bytes()

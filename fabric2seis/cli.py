@@ -372,7 +372,8 @@ def _field(args: argparse.Namespace) -> int:
         raise InputError("field needs RESULT_DIR... and --measurements CSV (or --stack FILE, where "
                          "--measurements is optional)")
     else:
-        out, cautions = run_field(args.result_dirs, args.measurements, args.out, set(args.fix or ()))
+        out, cautions = run_field(args.result_dirs, args.measurements, args.out, set(args.fix or ()),
+                                  threads=thread_option(args.threads))
     print(f"wrote {out}")
     for note in cautions:
         print(f"caution: {note}")
@@ -532,6 +533,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="hold one parameter at the sample's own field settings; may be repeated")
     p.add_argument("--stack", metavar="FILE", help="several layers (YAML, bottom to top): apparent splitting "
                    "against back-azimuth, analytic and from synthetic waveforms, and the predicted nulls")
+    p.add_argument("--threads", metavar="N", help="processes that draw the figures of the fit (default: "
+                   "OMP_NUM_THREADS when set, else the cores this process may run on); the files are the same")
     p.set_defaults(run=_field)
 
     p = commands.add_parser("combine", help="combine the results of the pieces of a map into those of the whole map",

@@ -11,20 +11,25 @@ the workflow script call these functions and nothing else.
 from __future__ import annotations
 
 import json
+from functools import partial
 from pathlib import Path
 
 from fabric2seis.errors import InputError
 from fabric2seis.folders import check_destination, folder_written_whole
-from fabric2seis.threads import blas_on_one_thread
+from fabric2seis.second_process import shared_among_processes
+from fabric2seis.threads import blas_on_one_thread, thread_count, threads_given
 
 
 @blas_on_one_thread()
 def run_field(result_dirs: list[str | Path], measurements: str | Path, out_dir: str | Path | None = None,
-              fixed: set[str] | None = None, results_root: str | Path | None = "results") -> tuple[Path, list[str]]:
+              fixed: set[str] | None = None, results_root: str | Path | None = "results",
+              threads: int | None = None) -> tuple[Path, list[str]]:
     """``fabric2seis field``: fit every sample to every station; outputs written whole or not at all.
 
     The destination is checked before any work (``folders.check_destination``): never the results
-    root, a folder holding an input, or a folder fabric2seis did not write.
+    root, a folder holding an input, or a folder fabric2seis did not write. The figures, two per
+    sample and station and most of the command's time, are drawn by as many processes as it may
+    use threads (``second_process.shared_among_processes``).
 
     Parameters
     ----------
@@ -38,6 +43,8 @@ def run_field(result_dirs: list[str | Path], measurements: str | Path, out_dir: 
         Parameters held at each sample's own field settings: ``thickness``, ``azimuth``, ``foliation``.
     results_root : path, optional
         The suite's results root, never replaced.
+    threads : int, optional
+        Threads (here: processes drawing figures) it may use; by default ``threads.thread_count()``.
 
     Returns
     -------
@@ -64,14 +71,15 @@ def run_field(result_dirs: list[str | Path], measurements: str | Path, out_dir: 
         if fixed and not s.field:
             raise InputError("--fix needs the sample's own field settings, which it has none of", s.name, "key field")
     fit = field.fit_field(samples, data, fixed, str(measurements))
-    with folder_written_whole(out, "field", inputs, results_root) as tmp:
-        for one in fit.stations:
-            data_and_predictions(tmp / f"splitting_{one.file_stem}", one)
-            misfit_surface(tmp / f"misfit_{one.file_stem}", one)
+    with threads_given(threads), folder_written_whole(out, "field", inputs, results_root) as tmp:
         predictions = fit.predictions
         predictions.to_csv(tmp / "predictions.csv", index=False)
-        fast_direction_rose(tmp / "fast_directions", predictions)
         (tmp / "field_fit.json").write_text(json.dumps(fit.record(), indent=2) + "\n")
+        # the longest first (misfit surfaces, then data and predictions; about 1.2 and 0.6 s each)
+        figures = [partial(misfit_surface, tmp / f"misfit_{one.file_stem}", one) for one in fit.stations]
+        figures += [partial(data_and_predictions, tmp / f"splitting_{one.file_stem}", one) for one in fit.stations]
+        figures.append(partial(fast_direction_rose, tmp / "fast_directions", predictions))
+        shared_among_processes(figures, thread_count())
     return out, fit.cautions
 
 

@@ -24,6 +24,7 @@ import signal
 import sys
 import traceback
 import warnings
+from collections.abc import Sequence
 from typing import Callable, Generic, TypeVar
 
 from fabric2seis.threads import thread_count
@@ -147,6 +148,60 @@ class SecondProcess(Generic[Result]):
 
     def __exit__(self, *exc) -> None:
         self.stop()
+
+
+def shared_among_processes(tasks: Sequence[Callable[[], object]], processes: int) -> None:
+    """Run every task once, shared among this process and up to ``processes - 1`` forked ones.
+
+    For work of many independent files, such as the figures of ``fabric2seis field`` (two per sample
+    and station). Each process takes the next task of the list from one counter in shared memory
+    until none is left, so give the longest first: the processes then finish close together. The
+    tasks' results are not kept (they write files). Without ``fork`` (:func:`can_fork`'s systems),
+    with one process or one task, the tasks run here in their order.
+
+    Parameters
+    ----------
+    tasks : sequence of callables
+        Each takes no argument.
+    processes : int
+        Processes in all, this one included (the threads the work was given).
+
+    Raises
+    ------
+    BaseException
+        What a task raised, in any process (see :meth:`SecondProcess.result`); the other processes
+        are then stopped.
+    """
+    import contextlib
+
+    count = min(processes, len(tasks)) if hasattr(os, "fork") and sys.platform != "darwin" else 1
+    taken = None
+    if count >= 2:
+        import multiprocessing
+
+        try:                    # the next task's number, for all processes (a system without shared semaphores: none)
+            taken = multiprocessing.get_context("fork").Value("q", 0)
+        except (OSError, ImportError):
+            pass
+    if taken is None:
+        for task in tasks:
+            task()
+        return
+
+    def take_until_done() -> None:
+        while True:
+            with taken.get_lock():
+                k = taken.value
+                taken.value = k + 1
+            if k >= len(tasks):
+                return
+            tasks[k]()
+
+    with contextlib.ExitStack() as others:          # leaving early (an error here) stops the others
+        children = [others.enter_context(SecondProcess(take_until_done, fork=True)) for _ in range(count - 1)]
+        take_until_done()
+        for child in children:
+            child.result()
 
 
 def _failure(error: BaseException) -> bytes:

@@ -166,3 +166,68 @@ def test_while_the_second_process_draws_this_one_uses_one_thread_fewer(tmp_path,
     assert cli.main(["sample", str(GRAIN_LIST), "--out", str(tmp_path / "two"), "--threads", "2"]) == 0
     assert cli.main(["sample", str(GRAIN_LIST), "--out", str(tmp_path / "three"), "--threads", "3"]) == 0
     assert [count for count, _ in seen] == [1, 2]
+
+
+@needs_fork
+def test_shared_tasks_each_run_once_in_one_of_the_processes_and_errors_come_back(tmp_path):
+    # shared_among_processes: every task exactly once, taken by this process and the forked ones
+    # (each writes its number and process into one file, appended: a POSIX append is one write)
+    from fabric2seis.second_process import shared_among_processes
+
+    record = tmp_path / "done.txt"
+
+    def task(k):
+        def run():
+            time.sleep(0.05)
+            with record.open("a") as f:
+                f.write(f"{k} {os.getpid()}\n")
+        return run
+
+    shared_among_processes([task(k) for k in range(24)], 3)
+    rows = [line.split() for line in record.read_text().splitlines()]
+    assert sorted(int(k) for k, _ in rows) == list(range(24))
+    assert len({pid for _, pid in rows}) >= 2 and str(os.getpid()) in {pid for _, pid in rows}
+    assert _no_child_left()
+
+    record.unlink()
+    shared_among_processes([task(k) for k in range(5)], 1)              # one process: here, in order
+    assert [line.split() for line in record.read_text().splitlines()] == [[str(k), str(os.getpid())] for k in range(5)]
+
+    def refuse():
+        raise InputError("this figure cannot be drawn", "misfit")
+
+    with pytest.raises(InputError, match="this figure cannot be drawn"):
+        shared_among_processes([task(0), refuse, task(1), task(2)], 2)
+    assert _no_child_left()
+
+
+@needs_fork
+def test_field_figures_drawn_by_two_processes_are_the_bytes_of_one(tmp_path, monkeypatch):
+    # through the command: `fabric2seis field` of the demo grain list with --threads 2 (the figures
+    # shared by two processes) and --threads 1; every file the same bytes, each figure drawn once
+    from fabric2seis.figures import field as field_figures
+
+    measurements = ROOT / "demo_samples" / "field_measurements.csv"      # two stations
+    assert cli.main(["sample", str(GRAIN_LIST), "--out", str(tmp_path / "sample"), "--threads", "1"]) == 0
+    drawn = tmp_path / "drawn.txt"
+
+    def recording(draw):
+        def recorded(stem, *args, **kwargs):
+            with drawn.open("a") as f:
+                f.write(f"{Path(stem).name} {os.getpid()}\n")
+            return draw(stem, *args, **kwargs)
+        return recorded
+
+    for name in ("misfit_surface", "data_and_predictions", "fast_direction_rose"):
+        monkeypatch.setattr(field_figures, name, recording(getattr(field_figures, name)))
+    for threads in ("1", "2"):
+        assert cli.main(["field", str(tmp_path / "sample"), "--measurements", str(measurements),
+                         "--out", str(tmp_path / f"field{threads}"), "--threads", threads]) == 0
+    rows = [line.split() for line in drawn.read_text().splitlines()]
+    assert len(rows) == 10 and sorted(r[0] for r in rows[:5]) == sorted(r[0] for r in rows[5:])
+    assert {pid for _, pid in rows[:5]} == {str(os.getpid())} and len({pid for _, pid in rows[5:]}) == 2
+    names = sorted(p.name for p in (tmp_path / "field1").iterdir())
+    assert len(names) == 13 and names == sorted(p.name for p in (tmp_path / "field2").iterdir())   # with the marker
+    for name in names:
+        assert (tmp_path / "field1" / name).read_bytes() == (tmp_path / "field2" / name).read_bytes(), name
+    assert _no_child_left()

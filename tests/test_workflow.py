@@ -407,6 +407,23 @@ def test_a_large_map_asks_for_the_idle_cores_and_a_small_sample_for_one_thread(t
     assert threads == {"large": ["2"], "s0": []}, text[-2000:]
 
 
+def test_the_field_job_asks_for_the_free_cores_up_to_its_limit(tmp_path):
+    # the field job runs once every sample is done and draws its figures in as many processes as it
+    # has threads: min(--cores, FIELD_THREADS), in a dry run (Snakemake prints a job's threads above 1)
+    from fabric2seis.workflow.suite import FIELD_THREADS
+
+    samples, results = _small_suite(tmp_path)
+    (samples / "measured.csv").write_text((ROOT / "demo_samples" / "field_measurements.csv").read_text())
+    for cores, expected in ((1, []), (2, ["2"]), (16, [str(FIELD_THREADS)])):
+        dry = subprocess.run([sys.executable, "-m", "snakemake", f"{results}/field/field_fit.json", "--cores",
+                              str(cores), "-n", "--config", f"samples_dir={samples}", f"results_dir={results}"],
+                             cwd=ROOT, capture_output=True, text=True, timeout=300)
+        text = dry.stdout + dry.stderr
+        assert dry.returncode == 0, text[-2000:]
+        job = text.split("rule field:")[1].split("\n\n")[0]
+        assert re.findall(r"threads: (\d+)", job) == expected, job
+
+
 def test_a_sample_job_hands_its_threads_to_the_run(tmp_path):
     # Snakemake gives the job its threads (here --set-threads, at most --cores: Snakemake's
     # documentation on threads); the script hands them to run_sample, whose run.log says them

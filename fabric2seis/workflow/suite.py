@@ -24,6 +24,8 @@ WORKFLOW_NAMES = ("status", "logs", "benchmarks", "report_parts", "field", "stac
 LARGE_SAMPLE_BYTES = 8 * 2**20
 #: threads of a large sample's job; Snakemake gives a job at most --cores threads
 LARGE_SAMPLE_THREADS = 2
+#: at most this many processes draw the figures of the workflow's field job (``rules/common.smk``)
+FIELD_THREADS = 4
 
 
 def sample_threads(path: str | Path, samples: int = 1, cores: int | None = None) -> int:

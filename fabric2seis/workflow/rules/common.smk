@@ -13,7 +13,7 @@ from fabric2seis.workflow.report_files import (discover_stacks, entry_title, fie
                                                suite_labels)
 from fabric2seis.workflow.batches import RECOMPUTE_VARIABLE, sample_batches
 from fabric2seis.workflow.status import results_state
-from fabric2seis.workflow.suite import discover_measurements, discover_samples, sample_threads
+from fabric2seis.workflow.suite import FIELD_THREADS, discover_measurements, discover_samples, sample_threads
 
 SAMPLES_DIR = config.get("samples_dir", "demo_samples")
 RESULTS = config.get("results_dir", "results")
@@ -49,6 +49,16 @@ def sample_job_threads(wildcards, input):
     except WorkflowError:           # no --cores (a cluster run): each job has cores of its own
         cores = None
     return sample_threads(input[0], len(SAMPLES), cores)
+
+
+def field_job_threads(wildcards, input):
+    """Threads of the field job: it comes after every sample, when the suite's cores are free, and
+    draws its figures (two per sample and station) in as many processes (at most FIELD_THREADS)."""
+    try:
+        cores = workflow.cores
+    except WorkflowError:           # no --cores (a cluster run): the job asks for FIELD_THREADS
+        cores = FIELD_THREADS
+    return max(1, min(cores, FIELD_THREADS))
 
 
 def settings_digest(wildcards):

@@ -14,7 +14,7 @@ rule field:
         f"{RESULTS}/logs/field.log",
     benchmark:
         f"{RESULTS}/benchmarks/field.tsv"
-    threads: 1
+    threads: field_job_threads      # processes drawing its figures; it runs once the samples are done
     resources:
         mem_mb=2000,
     conda:

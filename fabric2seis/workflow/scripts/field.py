@@ -8,7 +8,7 @@ logging.basicConfig(filename=snakemake.log[0], level=logging.INFO, format="%(asc
 good = [str(s.folder) for s in read_statuses(snakemake.input.status) if s.ok]
 try:
     run_field(good, snakemake.input.measurements, snakemake.params.out,
-              results_root=snakemake.params.results_root)
+              results_root=snakemake.params.results_root, threads=snakemake.threads)
     logging.info("fitted %d samples to %s", len(good), snakemake.input.measurements)
 except Exception:
     logging.exception("field comparison failed")

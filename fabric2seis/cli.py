@@ -372,8 +372,10 @@ def _field(args: argparse.Namespace) -> int:
         raise InputError("field needs RESULT_DIR... and --measurements CSV (or --stack FILE, where "
                          "--measurements is optional)")
     else:
+        from fabric2seis.progress import terminal_bars
+
         out, cautions = run_field(args.result_dirs, args.measurements, args.out, set(args.fix or ()),
-                                  threads=thread_option(args.threads))
+                                  threads=thread_option(args.threads), bars=terminal_bars())   # bars on a TTY only
     print(f"wrote {out}")
     for note in cautions:
         print(f"caution: {note}")

@@ -16,6 +16,7 @@ from pathlib import Path
 
 from fabric2seis.errors import InputError
 from fabric2seis.folders import check_destination, folder_written_whole
+from fabric2seis.progress import BarMaker, stage_bar
 from fabric2seis.second_process import shared_among_processes
 from fabric2seis.threads import blas_on_one_thread, thread_count, threads_given
 
@@ -23,7 +24,7 @@ from fabric2seis.threads import blas_on_one_thread, thread_count, threads_given
 @blas_on_one_thread()
 def run_field(result_dirs: list[str | Path], measurements: str | Path, out_dir: str | Path | None = None,
               fixed: set[str] | None = None, results_root: str | Path | None = "results",
-              threads: int | None = None) -> tuple[Path, list[str]]:
+              threads: int | None = None, bars: BarMaker | None = None) -> tuple[Path, list[str]]:
     """``fabric2seis field``: fit every sample to every station; outputs written whole or not at all.
 
     The destination is checked before any work (``folders.check_destination``): never the results
@@ -45,6 +46,8 @@ def run_field(result_dirs: list[str | Path], measurements: str | Path, out_dir: 
         The suite's results root, never replaced.
     threads : int, optional
         Threads (here: processes drawing figures) it may use; by default ``threads.thread_count()``.
+    bars : callable, optional
+        Draws a progress bar of the figures (``progress.terminal_bars``: on a terminal only).
 
     Returns
     -------
@@ -79,7 +82,8 @@ def run_field(result_dirs: list[str | Path], measurements: str | Path, out_dir: 
         figures = [partial(misfit_surface, tmp / f"misfit_{one.file_stem}", one) for one in fit.stations]
         figures += [partial(data_and_predictions, tmp / f"splitting_{one.file_stem}", one) for one in fit.stations]
         figures.append(partial(fast_direction_rose, tmp / "fast_directions", predictions))
-        shared_among_processes(figures, thread_count())
+        with stage_bar(bars, f"drawing {len(figures)} figures") as done:
+            shared_among_processes(figures, thread_count(), done)
     return out, fit.cautions
 
 

@@ -150,11 +150,12 @@ class SecondProcess(Generic[Result]):
         self.stop()
 
 
-def shared_among_processes(tasks: Sequence[Callable[[], object]], processes: int) -> None:
+def shared_among_processes(tasks: Sequence[Callable[[], object]], processes: int,
+                           done: Callable[[float], None] | None = None) -> None:
     """Run every task once, shared among this process and up to ``processes - 1`` forked ones.
 
     For work of many independent files, such as the figures of ``fabric2seis field`` (two per sample
-    and station). Each process takes the next task of the list from one counter in shared memory
+    and station). Each process takes the next task of the list from a counter in shared memory
     until none is left, so give the longest first: the processes then finish close together. The
     tasks' results are not kept (they write files). Without ``fork`` (:func:`can_fork`'s systems),
     with one process or one task, the tasks run here in their order.
@@ -165,6 +166,9 @@ def shared_among_processes(tasks: Sequence[Callable[[], object]], processes: int
         Each takes no argument.
     processes : int
         Processes in all, this one included (the threads the work was given).
+    done : callable, optional
+        Told the share of the tasks finished (0 to 1), by this process after each of its own
+        tasks, for a progress bar (``progress.stage_bar``).
 
     Raises
     ------
@@ -175,33 +179,42 @@ def shared_among_processes(tasks: Sequence[Callable[[], object]], processes: int
     import contextlib
 
     count = min(processes, len(tasks)) if hasattr(os, "fork") and sys.platform != "darwin" else 1
-    taken = None
+    counters = None
     if count >= 2:
         import multiprocessing
 
-        try:                    # the next task's number, for all processes (a system without shared semaphores: none)
-            taken = multiprocessing.get_context("fork").Value("q", 0)
+        try:        # the next task's number and the tasks finished (a system without shared semaphores: none)
+            counters = multiprocessing.get_context("fork").Array("q", 2)
         except (OSError, ImportError):
             pass
-    if taken is None:
-        for task in tasks:
+    if counters is None:
+        for k, task in enumerate(tasks):
             task()
+            if done is not None:
+                done((k + 1) / len(tasks))
         return
 
-    def take_until_done() -> None:
+    def take_until_done(report: Callable[[float], None] | None = None) -> None:
         while True:
-            with taken.get_lock():
-                k = taken.value
-                taken.value = k + 1
+            with counters.get_lock():
+                k = counters[0]
+                counters[0] = k + 1
             if k >= len(tasks):
                 return
             tasks[k]()
+            with counters.get_lock():
+                counters[1] += 1
+                finished = counters[1]
+            if report is not None:
+                report(finished / len(tasks))
 
     with contextlib.ExitStack() as others:          # leaving early (an error here) stops the others
         children = [others.enter_context(SecondProcess(take_until_done, fork=True)) for _ in range(count - 1)]
-        take_until_done()
+        take_until_done(done)
         for child in children:
             child.result()
+    if done is not None:
+        done(1.0)
 
 
 def _failure(error: BaseException) -> bytes:

@@ -56,10 +56,12 @@ def test_reporting_the_fabric_bootstrap_leaves_its_numbers_alone():
     assert len(told) >= 3 and told == sorted(told) and told[-1] == 1.0     # 600 grains: two blocks of J, then M
 
 
-def _run_on_a_terminal(out: Path) -> str:
-    """The command with stderr on a pseudo-terminal (stdout a pipe); what the terminal showed."""
+def _run_on_a_terminal(out: Path, command: list[str] | None = None) -> str:
+    """The command (by default the sample command into ``out``) with stderr on a pseudo-terminal
+    (stdout a pipe); what the terminal showed."""
     leader, follower = pty.openpty()
-    process = subprocess.Popen([*COMMAND, str(out)], stdout=subprocess.PIPE, stderr=follower, env=ENV, cwd=ROOT)
+    process = subprocess.Popen(command or [*COMMAND, str(out)], stdout=subprocess.PIPE, stderr=follower, env=ENV,
+                               cwd=ROOT)
     os.close(follower)
     shown = b""
     while True:               # read as it comes: a full terminal buffer would stop the command
@@ -89,6 +91,20 @@ def test_bars_on_a_terminal(tmp_path):
     for label in labels:
         assert [int(p) for lab, p in bars if lab == label][-1] == 100
     assert (tmp_path / "tty" / "summary.json").is_file()
+
+
+def test_the_field_command_shows_its_figures_on_a_terminal_and_nothing_off_it(tmp_path):
+    # `fabric2seis field` of the demo grain list (two stations: two figures each, and the rose)
+    sample = tmp_path / "sample"
+    assert subprocess.run([*COMMAND, str(sample)], capture_output=True, env=ENV, cwd=ROOT, timeout=600).returncode == 0
+    field = [sys.executable, "-m", "fabric2seis", "field", str(sample), "--measurements",
+             str(ROOT / "demo_samples" / "field_measurements.csv"), "--out"]
+    shown = _run_on_a_terminal(tmp_path / "tty", [*field, str(tmp_path / "tty")])
+    bars = re.findall(r"\r([^\r\n]+?) \[[#-]+\] +(\d+) %", shown)
+    assert {label for label, _ in bars} == {"drawing 5 figures"} and bars[-1][1] == "100"
+    done = subprocess.run([*field, str(tmp_path / "pipe")], capture_output=True, text=True, env=ENV, cwd=ROOT,
+                          timeout=600)
+    assert done.returncode == 0 and done.stderr == ""
 
 
 def test_no_bar_without_a_terminal_and_run_log_names_every_file(tmp_path):

@@ -183,15 +183,19 @@ def test_shared_tasks_each_run_once_in_one_of_the_processes_and_errors_come_back
                 f.write(f"{k} {os.getpid()}\n")
         return run
 
-    shared_among_processes([task(k) for k in range(24)], 3)
+    shares = []                                                          # the progress told, in this process
+    shared_among_processes([task(k) for k in range(24)], 3, shares.append)
     rows = [line.split() for line in record.read_text().splitlines()]
     assert sorted(int(k) for k, _ in rows) == list(range(24))
     assert len({pid for _, pid in rows}) >= 2 and str(os.getpid()) in {pid for _, pid in rows}
     assert _no_child_left()
+    assert shares == sorted(shares) and shares[-1] == 1.0 and 0.0 < shares[0] < 1.0
 
     record.unlink()
-    shared_among_processes([task(k) for k in range(5)], 1)              # one process: here, in order
+    shares.clear()
+    shared_among_processes([task(k) for k in range(5)], 1, shares.append)       # one process: here, in order
     assert [line.split() for line in record.read_text().splitlines()] == [[str(k), str(os.getpid())] for k in range(5)]
+    assert shares == [0.2, 0.4, 0.6, 0.8, 1.0]
 
     def refuse():
         raise InputError("this figure cannot be drawn", "misfit")

@@ -65,6 +65,7 @@ BENCHMARKS = [
     ("seismic_stage", [], ["--grains", "5000", "--resamples", "20"]),
     ("rotation_and_averaging", [], ["--n", "20000", "--pymatgen-subset", "100", "--repeats", "1"]),
     ("optics", [], ["--pixels", "50000"]),
+    ("field_figures", [], ["--samples", "VM04_grain_list.csv", "--rounds", "1"]),
     ("fabric_indices", [], ["--sizes", "1000,3000", "--brute-size", "1000", "--m-grains", "10000",
                             "--m-pairs", "50000"]),
     ("ingestion", [], ["--sizes", "10000,30000"]),
@@ -79,7 +80,8 @@ QUICK_MARGIN_S = 10.0
 QUICK_ALWAYS = {"whole_run", "startup"}
 #: expected wall time of each --quick benchmark (s) until a quick table tells the measured one
 QUICK_GUESS_S = {"whole_run": 50.0, "startup": 55.0, "splitting_layers": 8.0, "seismic_stage": 18.0,
-                 "rotation_and_averaging": 6.0, "optics": 12.0, "fabric_indices": 8.0, "ingestion": 30.0}
+                 "rotation_and_averaging": 6.0, "optics": 12.0, "fabric_indices": 8.0, "ingestion": 30.0,
+                 "field_figures": 30.0}
 DEFAULT_QUICK_GUESS_S = 15.0
 #: a 1-minute load average above this, before or after a benchmark, marks it as measured under
 #: load (the benchmark's own process accounts for about 1)

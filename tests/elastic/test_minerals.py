@@ -206,3 +206,18 @@ def test_user_library_dir_adds_entries(tmp_path):
     _write(tmp_path, _BASE.replace("C14", "0").replace("C44", "60"))
     lib = load_library([tmp_path])
     assert "testite" in lib and "olivine" in lib
+
+
+def test_the_library_reads_the_same_with_libyamls_parser_as_with_pyyamls_own():
+    # the library files are read with libyaml's parser where PyYAML has it (FAST_SAFE_LOADER);
+    # PyYAML's pure-Python safe loader is the reference: the same data from every file
+    import yaml
+
+    from fabric2seis.elastic import minerals
+
+    assert minerals.FAST_SAFE_LOADER is getattr(yaml, "CSafeLoader", yaml.SafeLoader)
+    files = sorted(minerals.DATA_DIR.glob("*.yaml"))
+    assert len(files) >= 20
+    for path in files:
+        text = path.read_text()
+        assert yaml.load(text, Loader=minerals.FAST_SAFE_LOADER) == yaml.safe_load(text), path.name

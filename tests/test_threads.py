@@ -138,6 +138,12 @@ def test_a_bad_thread_count_is_refused_in_one_line(small_map, tmp_path):
         assert run.returncode == 2
         assert len(run.stderr.strip().splitlines()) == 1 and "option --threads" in run.stderr
         assert not (tmp_path / "out").exists()
+        run = subprocess.run([sys.executable, "-m", "fabric2seis", "field", str(tmp_path), "--measurements",
+                              str(ROOT / "demo_samples" / "field_measurements.csv"), "--out", str(tmp_path / "fit"),
+                              "--threads", text], capture_output=True, text=True, env=env, cwd=ROOT, timeout=300)
+        assert run.returncode == 2
+        assert len(run.stderr.strip().splitlines()) == 1 and "option --threads" in run.stderr
+        assert not (tmp_path / "fit").exists()
 
 
 def _pools_and_blas_of_a_run(small_map: Path, out: Path, threads: int, monkeypatch) -> tuple[list, list]:

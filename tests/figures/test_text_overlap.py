@@ -92,7 +92,7 @@ def overlaps(tmp_path_factory) -> dict[str, list[str]]:
             # --threads 1: figures drawn in this process, where the hooks see them (not in a second one)
             assert cli.main(["sample", str(DEMO / name), "--out", str(out / Path(name).stem), "--threads", "1"]) == 0
         assert cli.main(["field", str(out / "VM04_grain_list"), "--measurements", str(DEMO / "field_measurements.csv"),
-                         "--out", str(out / "field")]) == 0
+                         "--out", str(out / "field"), "--threads", "1"]) == 0      # its figures here too
         stack = out / "two_layers.yaml"        # paths in a stack file are relative to it
         stack.write_text("period_s: 8\nincidence_deg: 10\nlayers:\n  - result: VM04_grain_list\n    thickness_km: 60\n"
                          "  - name: crust\n    fast_azimuth_deg: 120\n    delay_s: 0.4\n", encoding="utf-8")
@@ -144,6 +144,7 @@ def test_field_stack_optics_and_suite_figures_have_no_overlapping_text(overlaps)
     rest = sorted(f for f in overlaps if f not in listed)
     for kind in ("field/", "stack/", "optics/"):
         assert any(f.startswith(kind) for f in rest), f"no {kind} figure was written (written: {rest})"
+    assert len([f for f in rest if f.startswith("field/")]) == 5    # two per station (two stations), the rose
     assert "suite_comparison" in rest
     bad = {f: overlaps[f] for f in rest if overlaps[f]}
     assert not bad, "texts overlap: " + " | ".join(f"{f}.png: " + "; ".join(v) for f, v in bad.items())

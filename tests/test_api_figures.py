@@ -68,7 +68,9 @@ def analysed():
 
 def test_field_figures_are_those_of_the_command(results_folder, analysed, drawn, tmp_path):
     out = tmp_path / "field"
-    assert main(["field", str(results_folder), "--measurements", str(MEASUREMENTS), "--out", str(out)]) == 0
+    # --threads 1: the figures drawn in this process, where `drawn` records them (not in forked ones)
+    assert main(["field", str(results_folder), "--measurements", str(MEASUREMENTS), "--out", str(out),
+                 "--threads", "1"]) == 0
     written = json.loads((out / "field_fit.json").read_text())
     fit = fabric2seis.fit_field([results_folder], MEASUREMENTS)
     assert json.loads(json.dumps(fit.fits)) == written["fits"]

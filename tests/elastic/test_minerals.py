@@ -214,10 +214,11 @@ def test_the_library_reads_the_same_with_libyamls_parser_as_with_pyyamls_own():
     import yaml
 
     from fabric2seis.elastic import minerals
+    from fabric2seis.settings import FAST_SAFE_LOADER
 
-    assert minerals.FAST_SAFE_LOADER is getattr(yaml, "CSafeLoader", yaml.SafeLoader)
+    assert FAST_SAFE_LOADER is getattr(yaml, "CSafeLoader", yaml.SafeLoader)
     files = sorted(minerals.DATA_DIR.glob("*.yaml"))
     assert len(files) >= 20
     for path in files:
         text = path.read_text()
-        assert yaml.load(text, Loader=minerals.FAST_SAFE_LOADER) == yaml.safe_load(text), path.name
+        assert yaml.load(text, Loader=FAST_SAFE_LOADER) == yaml.safe_load(text), path.name

@@ -33,9 +33,6 @@ if TYPE_CHECKING:       # orix is imported only for figures: importing it takes 
     from orix.quaternion import Symmetry
 
 DATA_DIR = Path(__file__).with_name("data")
-#: PyYAML's safe loader with libyaml's parser where PyYAML has it: the same data, ten times faster
-#: (the mineral library's 23 files: 0.24 s -> 0.03 s, paid by every process)
-FAST_SAFE_LOADER = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
 
 _REQUIRED = ("name", "point_group", "density_kg_m3", "lattice", "published_axes", "cij_gpa",
              "source", "from_memory")
@@ -423,6 +420,8 @@ def load_mineral_file(path: str | Path) -> Mineral:
         break the symmetry of the point group, or optical constants that fail their checks
         (``optical.read_optics``).
     """
+    from fabric2seis.settings import FAST_SAFE_LOADER
+
     path = Path(path)
     src = str(path)
     try:

@@ -72,12 +72,12 @@ def test_the_report_job_of_a_sample_and_the_snakefile_s_helpers_import_no_heavy_
     assert loaded_after(statements) == []
 
 
-def imported_by_a_whole_run(source: Path, out: Path, threads: int) -> list[str]:
-    """The heavy libraries the run's own process holds after ``fabric2seis sample`` (cli.main) returns."""
+def imported_by_a_whole_run(source: Path, out: Path, threads: int, names: tuple[str, ...] = HEAVY) -> list[str]:
+    """Those of ``names`` (modules) the run's own process holds after ``fabric2seis sample`` (cli.main) returns."""
     code = "\n".join(["import sys, json", "from fabric2seis.cli import main",
                       f"code = main(['sample', {str(source)!r}, '--out', {str(out)!r}, '--threads', '{threads}'])",
                       "assert code == 0, code",
-                      f"print(json.dumps([m for m in {HEAVY!r} if m in sys.modules]))"])
+                      f"print(json.dumps([m for m in {names!r} if m in sys.modules]))"])
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=ENV, cwd=ROOT)
     assert done.returncode == 0, done.stderr[-2000:]
     return json.loads(done.stdout.strip().splitlines()[-1])
@@ -98,6 +98,17 @@ def test_a_whole_sample_run_on_two_threads_never_imports_orix_in_its_own_process
         assert drawn_with_orix | {"pole_figures.png", "velocities.png"} <= {p.name for p in out.iterdir()}
     # on one thread every figure is drawn here, orix included (the check above can fail)
     assert "orix" in imported_by_a_whole_run(demo / "VM04_grain_list.csv", tmp_path / "one", threads=1)
+
+
+def test_a_whole_sample_run_without_a_pressure_never_imports_scipy_optimize(tmp_path):
+    # scipy.optimize takes most of a second to import (scipy.linalg, its linear-programming solvers);
+    # the symmetry decomposition of every sample refines its axes by fabric2seis.nelder_mead instead
+    # (SciPy's steps, tests/test_nelder_mead.py), and elastic.conditions needs scipy's root finder only
+    # for a pressure above zero (the demo samples give none)
+    for name, threads in (("VM04_grain_list.csv", 1), ("VM01_dunite.ang", 2)):
+        held = imported_by_a_whole_run(ROOT / "demo_samples" / name, tmp_path / name, threads,
+                                       names=("scipy", "scipy.optimize"))
+        assert held == ["scipy"], (name, held)        # scipy itself is used (special functions, graphs)
 
 
 def test_every_figure_said_to_need_no_orix_is_drawn_without_it(tmp_path):

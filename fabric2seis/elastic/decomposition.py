@@ -15,9 +15,9 @@ a share here gives theirs, and ``decomposition_summary`` says so beside the numb
 from __future__ import annotations
 
 import numpy as np
-from scipy.optimize import minimize
 
 from fabric2seis import elastic, waves
+from fabric2seis.nelder_mead import minimise
 
 
 def _rotation_about(axis: np.ndarray, angle: np.ndarray) -> np.ndarray:
@@ -92,6 +92,19 @@ def _frame_group(frame: np.ndarray, kind: str) -> np.ndarray:
     raise ValueError(kind)
 
 
+def _grid_norms(c: np.ndarray, axes: np.ndarray) -> np.ndarray:
+    """Kelvin norm of the transversely isotropic projection of ``c`` about each of ``axes`` (M, 3).
+
+    The same numbers, to the bit, as ``hexagonal_projection`` axis by axis: each axis's rotations
+    are built by the same code, and the rotations of all axes are applied in one call (the 6x6
+    products and the 12-term means do not depend on how many are stacked).
+    """
+    angles = np.arange(12) * np.pi / 6
+    rotations = np.stack([_rotation_about(np.asarray(axis, float), angles) for axis in axes])   # (M, 12, 3, 3)
+    projections = elastic.rotate_voigt(c, rotations).mean(axis=1)                               # (M, 6, 6)
+    return np.array([np.linalg.norm(elastic.voigt_to_kelvin(h)) for h in projections])
+
+
 def best_hexagonal_axis(c: np.ndarray) -> np.ndarray:
     """Find the axis whose transversely isotropic projection of the anisotropic part has the largest norm.
 
@@ -119,15 +132,14 @@ def best_hexagonal_axis(c: np.ndarray) -> np.ndarray:
         return np.linalg.norm(h)
 
     dirs, _, _ = waves.hemisphere_grid(6.0)
-    best = dirs[int(np.argmax([norm_of(d) for d in dirs]))]
+    best = dirs[int(np.argmax(_grid_norms(elastic.kelvin_to_voigt(aniso), dirs)))]
     # refine in angles
     def angles(v):
         return np.arctan2(v[1], v[0]), np.arccos(np.clip(-v[2], -1, 1))
 
     def vec(a):
         return np.array([np.sin(a[1]) * np.cos(a[0]), np.sin(a[1]) * np.sin(a[0]), -np.cos(a[1])])
-    res = minimize(lambda a: -norm_of(vec(a)), np.array(angles(best)), method="Nelder-Mead",
-                   options={"xatol": 1e-7, "fatol": 1e-12})
+    res = minimise(lambda a: -norm_of(vec(a)), np.array(angles(best)), xatol=1e-7, fatol=1e-12)
     return waves.to_lower_hemisphere(vec(res.x))
 
 
@@ -174,7 +186,7 @@ def decompose(c: np.ndarray) -> dict:
 
     angles = np.radians(np.arange(0.0, 90.0, 1.0))
     best = angles[int(np.argmax([ortho_norm(a) for a in angles]))]
-    best = minimize(lambda a: -ortho_norm(a[0]), [best], method="Nelder-Mead", options={"xatol": 1e-8}).x[0]
+    best = minimise(lambda a: -ortho_norm(a[0]), [best], xatol=1e-8).x[0]
     frame = frame_at(best)
     tet = _group_average(rest, _frame_group(frame, "tetragonal"))
     rest = rest - tet

@@ -189,7 +189,7 @@ def run_combine(result_dirs: list[str | Path], out_dir: str | Path | None = None
         stiffness = stiffness_record(agg)
         write_json(tmp / "stiffness.json", stiffness)
         write_tensor_texts(stiffness, tmp, combined["sample"])
-        seismic.grid.table().to_csv(tmp / "velocities.csv", index=False)
+        seismic.grid.write_csv(tmp / "velocities.csv")
         write_json(tmp / pieces.SUMS_FILE, combined)
         log.wrote(tmp)
         if seismic.sweep is not None and seismic.field is not None:

@@ -325,7 +325,7 @@ def write_results(out: Path, path: Path, sample: Sample, fabric: FabricResult, s
         record = provenance(path, sample)
         write_json(tmp / SUMS_FILE, sums_record(sample, seismic, summary, record["input_sha256"]))
         log.wrote(tmp)
-        seismic.grid.table().to_csv(tmp / "velocities.csv", index=False)
+        seismic.grid.write_csv(tmp / "velocities.csv")
         log.wrote(tmp)
         if seismic.sweep is not None and seismic.field is not None:
             write_sweep_table(tmp, seismic)

@@ -11,10 +11,12 @@ Nothing here computes physics: every number is read from what the sample wrote.
 
 from __future__ import annotations
 
+import csv
 import math
 import os
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 
 #: the averages of stiffness.json, in the order of CONVENTIONS.md
@@ -475,3 +477,31 @@ def write_tensor_texts(stiffness: dict, out_dir: str | Path, sample: str) -> lis
                                     stiffness.get("used_for_velocities") == average), encoding="utf-8")
         written.append(path)
     return written
+
+
+def write_number_csv(path: str | Path, columns: dict[str, np.ndarray]) -> None:
+    """Write columns of numbers as CSV: the bytes of ``pandas.DataFrame(columns).to_csv(path, index=False)``.
+
+    Numbers are written as Python writes a float (the shortest text that reads back to the same
+    float, as pandas does), missing values (NaN) as empty cells, lines ended by ``os.linesep``.
+    The csv module does it in about half of pandas' time: ``velocities.csv`` has 20,809 rows of 15
+    numbers whatever the sample, written by every run (tests/test_tables.py compares the bytes).
+
+    Parameters
+    ----------
+    path : str or Path
+        The CSV file (UTF-8).
+    columns : dict of str to numpy.ndarray
+        Column names and their values, all of the same length, as floats.
+    """
+    cells = []
+    for values in columns.values():
+        values = np.asarray(values, dtype=float)
+        listed = values.tolist()
+        if np.isnan(values).any():
+            listed = ["" if x != x else x for x in listed]
+        cells.append(listed)
+    with open(path, "w", newline="", encoding="utf-8") as out:
+        writer = csv.writer(out, lineterminator=os.linesep)
+        writer.writerow(list(columns))
+        writer.writerows(zip(*cells))

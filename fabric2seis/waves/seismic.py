@@ -208,7 +208,7 @@ class VelocityGrid:
         return self.vs1_km_s - self.vs2_km_s
 
     def table(self):
-        """Return the grid as a table, one row per direction.
+        """Return the grid as a table, one row per direction (the columns of :meth:`columns`).
 
         Returns
         -------
@@ -218,8 +218,19 @@ class VelocityGrid:
         """
         import pandas as pd
 
+        return pd.DataFrame(self.columns())
+
+    def write_csv(self, path) -> None:
+        """Write ``velocities.csv``: the bytes pandas writes for :meth:`table` (``to_csv(index=False)``),
+        by the csv module, about twice as fast (tables.write_number_csv)."""
+        from fabric2seis.tables import write_number_csv
+
+        write_number_csv(path, self.columns())
+
+    def columns(self) -> dict[str, np.ndarray]:
+        """The grid's table as named columns, one value per direction, rounded (see :meth:`table`)."""
         pol = waves.to_lower_hemisphere(self.s1_polarisation)
-        return pd.DataFrame({
+        return {
             "x": self.directions[:, 0].round(6), "y": self.directions[:, 1].round(6),
             "z": self.directions[:, 2].round(6),
             "azimuth_deg": self.azimuth_deg.round(3), "plunge_deg": self.plunge_deg.round(3),
@@ -229,7 +240,7 @@ class VelocityGrid:
             "vp_vs1": (self.vp_km_s / self.vs1_km_s).round(5), "vp_vs2": (self.vp_km_s / self.vs2_km_s).round(5),
             "fast_polarisation_x": pol[:, 0].round(5), "fast_polarisation_y": pol[:, 1].round(5),
             "fast_polarisation_z": pol[:, 2].round(5),
-        })
+        }
 
 
 def velocity_grid(c: np.ndarray, density_kg_m3: float, step_deg: float = 1.0) -> VelocityGrid:
